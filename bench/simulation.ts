@@ -1,0 +1,4 @@
+// Placeholder until this benchmark section is written.
+export async function run(): Promise<void> {
+  console.log('(section simulation not written yet)');
+}

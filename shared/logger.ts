@@ -1,0 +1,36 @@
+import { pino, type Logger } from 'pino';
+import pretty from 'pino-pretty';
+
+export type { Logger };
+
+/** Fields that may hold a secret; pino replaces them before anything is written. */
+export const REDACTED_PATHS = [
+  'password',
+  '*.password',
+  'redisUrl',
+  '*.redisUrl',
+  'redis.url',
+  'redis.password',
+  'connection.password',
+] as const;
+
+export interface LoggerOptions {
+  readonly name: string;
+  readonly level?: string;
+  /** Write here instead of stderr (tests). */
+  readonly destination?: NodeJS.WritableStream;
+}
+
+/**
+ * Logs go to stderr so stdout stays for command output (JSON metrics, tables).
+ * JSON lines everywhere, human-readable only when stderr is a terminal.
+ */
+export function createLogger(options: LoggerOptions): Logger {
+  const level = options.level ?? process.env['RECALLSCAPE_LOG_LEVEL'] ?? 'info';
+  const base = { name: options.name, level, redact: { paths: [...REDACTED_PATHS], censor: '***' } };
+  if (options.destination !== undefined) return pino(base, options.destination);
+  if (process.stderr.isTTY === true) {
+    return pino(base, pretty({ destination: 2, colorize: true, sync: true }));
+  }
+  return pino(base, pino.destination({ dest: 2, sync: true }));
+}

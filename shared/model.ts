@@ -1,0 +1,67 @@
+import { z } from 'zod';
+
+/**
+ * What a model returns for one trial. Scalars only at the top level are
+ * summarised (booleans as rates, numbers as mean and spread); arrays carry
+ * per-sequence detail for people reading the raw records.
+ * `success` is required: it is what phase diagrams show by default.
+ */
+export const MetricValueSchema = z.union([z.number(), z.boolean(), z.null(), z.array(z.number().nullable())]);
+export const MetricsSchema = z
+  .object({ success: z.boolean() })
+  .catchall(MetricValueSchema);
+export type Metrics = z.infer<typeof MetricsSchema>;
+
+/** Unit and meaning of a parameter, for axis labels and docs. */
+export interface ParamInfo {
+  readonly unit: string;
+  readonly description: string;
+}
+
+/**
+ * A time course recorded during one trial, e.g. the match of every stored
+ * pattern during one recall. `values` is row-major: steps x series.
+ */
+export interface TracePanel {
+  readonly title: string;
+  /** Time between recorded rows, in ms. */
+  readonly stepMs: number;
+  /** Number of recorded rows. */
+  readonly steps: number;
+  readonly seriesLabels: readonly string[];
+  /** Rows before this time (ms) are the cue window, drawn shaded. */
+  readonly markEndMs: number;
+  readonly values: Float64Array;
+}
+
+export interface RunOptions {
+  /** Record the time course of every recall (costs memory; off in sweeps). */
+  readonly trace?: boolean;
+}
+
+export interface RunOutput {
+  readonly metrics: Metrics;
+  readonly trace?: readonly TracePanel[];
+}
+
+/**
+ * A model is a plain object in the registry. The runner knows nothing else
+ * about it, so new models need no change to planning, queueing or reporting.
+ */
+export interface Model<Schema extends z.ZodObject = z.ZodObject> {
+  readonly id: string;
+  /** Bump whenever the same (params, seed) could give different metrics. */
+  readonly version: string;
+  readonly summary: string;
+  /** Every parameter with its default; `params.parse({})` gives the defaults. */
+  readonly params: Schema;
+  readonly paramInfo: Readonly<Record<string, ParamInfo>>;
+  /** Estimated arithmetic operations of one trial (for planning). */
+  cost(params: z.output<Schema>): number;
+  /** Pure and deterministic: same params and seed, same metrics, anywhere. */
+  run(params: z.output<Schema>, seed: number, options?: RunOptions): RunOutput;
+}
+
+/** Registry entries lose the precise schema type; callers re-validate. */
+// eslint-disable-next-line @typescript-eslint/no-explicit-any
+export type AnyModel = Model<any>;

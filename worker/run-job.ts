@@ -1,0 +1,86 @@
+import { issuesFromZod } from '../shared/errors.js';
+import { findModel } from '../shared/models/registry.js';
+import {
+  JobPayloadSchema,
+  type FailureKind,
+  type JobPayload,
+  type ResultRecord,
+} from '../shared/schemas/records.js';
+import { MetricsSchema } from '../shared/model.js';
+
+/** Who is running the job: written into every record. */
+export interface JobContext {
+  readonly writer: string;
+  readonly run: string;
+}
+
+export type JobOutcome =
+  | { readonly ok: true; readonly record: ResultRecord }
+  | {
+      readonly ok: false;
+      readonly kind: FailureKind;
+      readonly message: string;
+      /** Whether running it again could help (false for invalid or unsupported jobs). */
+      readonly retryable: boolean;
+      readonly payload: JobPayload | undefined;
+    };
+
+/**
+ * Run one job from an untrusted payload. Never throws for a bad payload or a
+ * simulation error: those become outcomes, so every caller (thread pool,
+ * queue consumer) records them the same way.
+ */
+export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
+  const parsed = JobPayloadSchema.safeParse(rawPayload);
+  if (!parsed.success) {
+    const detail = issuesFromZod(parsed.error.issues, 'payload').map((i) => `${i.path}: ${i.message}`).join('; ');
+    return { ok: false, kind: 'invalid', message: `invalid job payload: ${detail}`, retryable: false, payload: undefined };
+  }
+  const payload = parsed.data;
+  const model = findModel(payload.model);
+  if (model === undefined) {
+    return { ok: false, kind: 'unsupported', message: `this worker has no model "${payload.model}"`, retryable: false, payload };
+  }
+  if (model.version !== payload.modelVersion) {
+    return {
+      ok: false,
+      kind: 'unsupported',
+      message: `job needs ${payload.model} version ${payload.modelVersion}, this worker has version ${model.version}; run a worker built from the code version that planned the sweep`,
+      retryable: false,
+      payload,
+    };
+  }
+  const params = model.params.safeParse(payload.params);
+  if (!params.success) {
+    const detail = issuesFromZod(params.error.issues, 'params').map((i) => `${i.path}: ${i.message}`).join('; ');
+    return { ok: false, kind: 'invalid', message: `invalid parameters: ${detail}`, retryable: false, payload };
+  }
+  const started = performance.now();
+  let metrics;
+  try {
+    metrics = model.run(params.data, payload.seed).metrics;
+  } catch (error) {
+    const message = error instanceof Error ? `${error.name}: ${error.message}` : String(error);
+    return { ok: false, kind: 'exception', message, retryable: true, payload };
+  }
+  const checked = MetricsSchema.safeParse(metrics);
+  if (!checked.success) {
+    return { ok: false, kind: 'exception', message: `model returned malformed metrics: ${checked.error.message}`, retryable: false, payload };
+  }
+  const record: ResultRecord = {
+    v: 1,
+    key: payload.key,
+    sweepHash: payload.sweep.hash,
+    model: payload.model,
+    modelVersion: payload.modelVersion,
+    replicate: payload.replicate,
+    seed: payload.seed,
+    point: payload.point,
+    metrics: checked.data,
+    writer: context.writer,
+    run: context.run,
+    finishedAt: new Date().toISOString(),
+    elapsedMs: Math.round((performance.now() - started) * 1000) / 1000,
+  };
+  return { ok: true, record };
+}
