@@ -1,11 +1,39 @@
+import { rename, writeFile } from 'node:fs/promises';
+import { dirname, join, basename } from 'node:path';
 import type { Command } from 'commander';
+import { InputError } from '../../shared/errors.js';
+import { sweepJsonSchema } from '../../shared/sweep/json-schema.js';
+import { action } from '../cli-support.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+interface SchemaOptions {
+  readonly out?: string;
+}
+
+/** `recallscape schema [--out FILE]`: the JSON Schema of the sweep file, for editors. */
 export function registerSchema(program: Command): void {
   program
     .command('schema')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape schema is not built yet');
-    });
+    .description('print the JSON Schema of the sweep file (for editor validation), or write it to a file')
+    .option('--out <file>', 'write the schema to this file instead of stdout')
+    .action(
+      action(async (options: SchemaOptions) => {
+        const text = `${JSON.stringify(sweepJsonSchema(), null, 2)}\n`;
+        if (options.out === undefined) {
+          process.stdout.write(text);
+          return;
+        }
+        // Temporary file + rename: a reader never sees half a schema.
+        const temp = join(dirname(options.out), `.${basename(options.out)}.${process.pid}.tmp`);
+        try {
+          await writeFile(temp, text);
+          await rename(temp, options.out);
+        } catch (error) {
+          const code = (error as NodeJS.ErrnoException).code;
+          throw new InputError(`--out ${options.out}: cannot write the schema there (${code ?? String(error)})`, [
+            { path: '--out', message: `cannot write ${options.out}` },
+          ]);
+        }
+        process.stdout.write(`wrote ${options.out}\n`);
+      }),
+    );
 }

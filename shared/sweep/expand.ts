@@ -1,0 +1,81 @@
+import { InputError, issuesFromZod, formatIssues } from '../errors.js';
+import { canonicalJson, sha256Hex } from '../canonical-json.js';
+import { jobSeed } from '../job-identity.js';
+import type { JobPayload, Point } from '../schemas/records.js';
+import { checkJobLimit } from './job-limit.js';
+import type { LoadedSweep } from './load.js';
+import { iterateSpecPoints } from './points.js';
+
+export interface PlannedJob {
+  readonly key: string;
+  readonly point: Point;
+  /** Full resolved parameters (model defaults + fixed + point), as the key saw them. */
+  readonly params: Readonly<Record<string, unknown>>;
+  readonly replicate: number;
+  readonly seed: number;
+}
+
+/** Every point, in the sampler's deterministic order (see iteratePoints for a lazy version). */
+export function expandPoints(sweep: LoadedSweep): Point[] {
+  return [...iterateSpecPoints(sweep.spec)];
+}
+
+/** Every point, lazily. */
+export function iteratePoints(sweep: LoadedSweep): Generator<Point> {
+  return iterateSpecPoints(sweep.spec);
+}
+
+export function countJobs(sweep: LoadedSweep): number {
+  return sweep.pointCount * sweep.spec.replicates;
+}
+
+/** Full parameters of one point, through the model's schema (defaults filled in). */
+export function fullParams(sweep: LoadedSweep, point: Point): Record<string, unknown> {
+  const parsed = sweep.model.params.safeParse({ ...sweep.spec.fixed, ...point });
+  if (!parsed.success) {
+    // Load validated every point; reaching this means the model changed under us.
+    const issues = issuesFromZod(parsed.error.issues, 'params');
+    throw new InputError(`point ${JSON.stringify(point)} is not valid for model ${sweep.model.id}:\n${formatIssues(issues)}`, issues);
+  }
+  return parsed.data as Record<string, unknown>;
+}
+
+/**
+ * Points x replicates, lazily: point by point, replicates 0..R-1 of a point
+ * next to each other. A million-job sweep never exists in memory at once.
+ */
+export function* expandJobs(sweep: LoadedSweep): Generator<PlannedJob> {
+  const { model, spec } = sweep;
+  // jobKey() hashes canonicalJson({ model, modelVersion, params, replicate });
+  // its sorted keys are in exactly this order, so the parameter text is built
+  // once per point instead of once per replicate (tests check equality with jobKey).
+  const head = `{"model":${JSON.stringify(model.id)},"modelVersion":${JSON.stringify(model.version)},"params":`;
+  for (const point of iterateSpecPoints(spec)) {
+    const params = fullParams(sweep, point);
+    const prefix = `${head}${canonicalJson(params)},"replicate":`;
+    for (let replicate = 0; replicate < spec.replicates; replicate++) {
+      const key = sha256Hex(`${prefix}${replicate}}`).slice(0, 32);
+      yield { key, point, params, replicate, seed: jobSeed(spec.seed, key) };
+    }
+  }
+}
+
+/** What a worker needs to run one job without sweep.json. */
+export function toPayload(sweep: LoadedSweep, job: PlannedJob): JobPayload {
+  return {
+    v: 1,
+    sweep: { name: sweep.spec.name, hash: sweep.hash },
+    key: job.key,
+    model: sweep.model.id,
+    modelVersion: sweep.model.version,
+    params: { ...job.params },
+    point: { ...job.point },
+    replicate: job.replicate,
+    seed: job.seed,
+  };
+}
+
+/** InputError when the sweep has more jobs than `limit` (the CLI skips this with --yes). */
+export function assertJobLimit(sweep: LoadedSweep, limit: number): void {
+  checkJobLimit(countJobs(sweep), limit);
+}

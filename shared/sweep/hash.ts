@@ -1,0 +1,30 @@
+import { canonicalJson, sha256Hex } from '../canonical-json.js';
+import type { AnyModel } from '../model.js';
+import type { SweepSpec } from './schema.js';
+
+export const SWEEP_FORMAT = 'recallscape-sweep/1';
+
+/**
+ * The sweep hash covers everything that decides which jobs exist and what
+ * they compute: name, model id and version, seed, replicates, fixed, vary and
+ * sampler; not `report`, which only changes how results are drawn. Sampled
+ * sweeps also hash the order of the varied parameters, because it assigns the
+ * sampler's dimensions; a grid's job set does not depend on that order.
+ */
+export function sweepHash(spec: SweepSpec, model: AnyModel): string {
+  const order = spec.sampler.kind === 'grid' ? undefined : Object.keys(spec.vary);
+  return sha256Hex(
+    canonicalJson({
+      format: SWEEP_FORMAT,
+      name: spec.name,
+      model: model.id,
+      modelVersion: model.version,
+      seed: spec.seed,
+      replicates: spec.replicates,
+      fixed: spec.fixed,
+      vary: spec.vary,
+      sampler: spec.sampler,
+      order,
+    }),
+  );
+}

@@ -1,0 +1,87 @@
+import { z } from 'zod';
+import { DEFAULT_MODEL_ID } from '../models/registry.js';
+import { RangeSchema } from './ranges.js';
+
+export * from './ranges.js';
+
+/** Hard ceilings that keep a typo from planning a billion jobs. */
+export const MAX_REPLICATES = 100_000;
+export const MAX_SAMPLED_POINTS = 1_000_000;
+export const MAX_GRID_POINTS = 5_000_000;
+
+export const SWEEP_NAME_RULE = 'use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit, with no "/" and no ".."';
+
+export const SweepNameSchema = z
+  .string({ error: `a sweep name is a string; ${SWEEP_NAME_RULE}` })
+  .min(1, SWEEP_NAME_RULE)
+  .max(100, SWEEP_NAME_RULE)
+  .regex(/^[a-z0-9][a-z0-9._-]*$/, SWEEP_NAME_RULE)
+  .refine((n) => !n.includes('..'), SWEEP_NAME_RULE)
+  .describe('Folder name under the results root');
+
+const PointsSchema = z
+  .number({ error: `the random, lhs and sobol samplers need points: a whole number from 1 to ${MAX_SAMPLED_POINTS}` })
+  .int('points must be a whole number')
+  .min(1, 'points must be at least 1')
+  .max(MAX_SAMPLED_POINTS, `points must be at most ${MAX_SAMPLED_POINTS}`)
+  .describe('Number of parameter points to draw');
+
+export const SamplerSchema = z
+  .discriminatedUnion(
+    'kind',
+    [
+      z.object({ kind: z.literal('grid') }).strict().describe('Full product of the ranges'),
+      z.object({ kind: z.literal('random'), points: PointsSchema }).strict().describe('Independent uniform draws'),
+      z.object({ kind: z.literal('lhs'), points: PointsSchema }).strict().describe('Latin hypercube'),
+      z.object({ kind: z.literal('sobol'), points: PointsSchema }).strict().describe('Unscrambled Sobol sequence'),
+    ],
+    { error: 'sampler.kind must be one of grid, random, lhs, sobol' },
+  )
+  .default({ kind: 'grid' });
+export type Sampler = z.output<typeof SamplerSchema>;
+export type SamplerKind = Sampler['kind'];
+
+export const ReportSchema = z
+  .object({
+    x: z.string().optional().describe('Varied parameter on the horizontal axis'),
+    y: z.string().optional().describe('Varied parameter on the vertical axis'),
+    facet: z.string().optional().describe('Varied parameter with one panel per value'),
+    metric: z.string().regex(/^[A-Za-z_][A-Za-z0-9_]*$/, 'a metric name is a plain identifier such as success').optional().describe('Metric to show (default success)'),
+    bins: z.number().int('bins must be a whole number').min(2, 'bins must be at least 2').max(200, 'bins must be at most 200').optional().describe('Bins per axis for sampled (non-grid) sweeps'),
+  })
+  .strict();
+export type ReportSpec = z.output<typeof ReportSchema>;
+
+/** The sweep file. Unknown keys are rejected at every level. */
+export const SweepFileSchema = z
+  .object({
+    name: SweepNameSchema,
+    model: z.string().min(1).max(100).default(DEFAULT_MODEL_ID).describe('Model id'),
+    seed: z
+      .number({ error: 'seed must be a whole number from 0 to 2^53 - 1' })
+      .int('seed must be a whole number from 0 to 2^53 - 1')
+      .min(0, 'seed must be a whole number from 0 to 2^53 - 1')
+      .max(Number.MAX_SAFE_INTEGER, 'seed must be a whole number from 0 to 2^53 - 1')
+      .default(0)
+      .describe('Root seed; every job seed derives from it and the job key'),
+    replicates: z
+      .number({ error: `replicates must be a whole number from 1 to ${MAX_REPLICATES}` })
+      .int(`replicates must be a whole number from 1 to ${MAX_REPLICATES}`)
+      .min(1, `replicates must be a whole number from 1 to ${MAX_REPLICATES}`)
+      .max(MAX_REPLICATES, `replicates must be a whole number from 1 to ${MAX_REPLICATES}`)
+      .default(1)
+      .describe('Independent trials per parameter point'),
+    fixed: z.record(z.string(), z.json()).default({}).describe('Parameters held at one value'),
+    vary: z.record(z.string(), RangeSchema).default({}).describe('Parameters that change, in order (first changes slowest on a grid)'),
+    sampler: SamplerSchema,
+    report: ReportSchema.default({}),
+  })
+  .strict();
+
+/** The normalised sweep (every default filled in). */
+export type SweepSpec = z.output<typeof SweepFileSchema>;
+/** What a person may write. */
+export type SweepFileInput = z.input<typeof SweepFileSchema>;
+
+/** Top-level field order of a normalised spec (sweep.json is written in it). */
+export const SPEC_FIELD_ORDER = ['name', 'model', 'seed', 'replicates', 'fixed', 'vary', 'sampler', 'report'] as const;

@@ -1,0 +1,51 @@
+import type { FieldIssue } from '../errors.js';
+import type { AnyModel } from '../model.js';
+import type { Point } from '../schemas/records.js';
+import type { SweepSpec } from './schema.js';
+
+const SHOWN_POINTS = 5;
+
+export interface PointCheck {
+  readonly pointCount: number;
+  readonly issues: FieldIssue[];
+}
+
+function describePoint(point: Point): string {
+  const parts = Object.entries(point).map(([k, v]) => `${k}=${JSON.stringify(v)}`);
+  return parts.length === 0 ? 'the only point' : parts.join(', ');
+}
+
+/**
+ * Run every point (defaults + fixed + the point's values) through the
+ * model's own schema, so cross-field rules fail before any job exists.
+ * Reports the first few failing points, each issue at the field it concerns.
+ */
+export function validatePoints(spec: SweepSpec, model: AnyModel, points: Iterable<Point>): PointCheck {
+  const issues: FieldIssue[] = [];
+  let pointCount = 0;
+  let failing = 0;
+  for (const point of points) {
+    pointCount++;
+    const result = model.params.safeParse({ ...spec.fixed, ...point });
+    if (result.success) continue;
+    failing++;
+    if (failing > SHOWN_POINTS) continue;
+    for (const issue of result.error.issues) {
+      const head = issue.path[0] === undefined ? undefined : String(issue.path[0]);
+      const rest = issue.path.slice(1).map(String);
+      const where =
+        head === undefined ? 'params' : Object.hasOwn(point, head) ? `vary.${head}` : Object.hasOwn(spec.fixed, head) ? `fixed.${head}` : `params.${head}`;
+      const path = [where, ...rest].join('.');
+      let message = issue.message;
+      const range = head === undefined ? undefined : spec.vary[head];
+      if (issue.code === 'invalid_type' && (issue as { expected?: string }).expected === 'int') {
+        message += range !== undefined && 'between' in range ? ' (this parameter takes whole numbers: add integer: true)' : ' (this parameter takes whole numbers)';
+      }
+      issues.push({ path, message: `at point ${pointCount} (${describePoint(point)}): ${message}` });
+    }
+  }
+  if (failing > SHOWN_POINTS) {
+    issues.push({ path: 'vary', message: `${failing} of ${pointCount} points are invalid for model ${model.id}; the first ${SHOWN_POINTS} are shown` });
+  }
+  return { pointCount, issues };
+}

@@ -1,0 +1,71 @@
+import { closeSync, openSync, writeSync } from 'node:fs';
+import { mkdtemp, rm } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
+import { ResultStore, type StoreWarning } from '../../shared/store/result-store.js';
+
+const N = 200_000;
+
+describe('result store with many records', () => {
+  let root = '';
+  let store: ResultStore;
+  let sweep: LoadedSweep;
+
+  beforeAll(async () => {
+    root = await mkdtemp(join(tmpdir(), 'rs-many-'));
+    sweep = parseSweepText('name: many\nmodel: no-op\n', 'many.yaml');
+    store = ResultStore.at(root, 'many');
+    await store.prepare(sweep);
+    // Two shards; the second repeats the last 1,000 records of the first (identical duplicates).
+    const line = (i: number): string =>
+      JSON.stringify({
+        v: 1,
+        key: i.toString(16).padStart(32, '0'),
+        sweepHash: sweep.hash,
+        model: 'no-op',
+        modelVersion: '1',
+        replicate: 0,
+        seed: i,
+        point: { value: i % 97 },
+        metrics: { success: i % 3 === 0, value: i % 97, recalled: [6, i % 7] },
+        writer: 'w',
+        run: 'r',
+        finishedAt: '2026-01-01T00:00:00.000Z',
+        elapsedMs: 1.5,
+      });
+    const write = (file: string, from: number, to: number): void => {
+      const fd = openSync(join(store.resultsDir, file), 'a');
+      let chunk: string[] = [];
+      for (let i = from; i < to; i++) {
+        chunk.push(line(i));
+        if (chunk.length === 5_000) {
+          writeSync(fd, `${chunk.join('\n')}\n`);
+          chunk = [];
+        }
+      }
+      if (chunk.length > 0) writeSync(fd, `${chunk.join('\n')}\n`);
+      closeSync(fd);
+    };
+    write('a.ndjson', 0, N);
+    write('b.ndjson', N - 1_000, N);
+  });
+
+  afterAll(async () => {
+    await rm(root, { recursive: true, force: true });
+  });
+
+  it('finds every one of 200,000 keys once, keeping memory bounded', async () => {
+    const heapBefore = process.memoryUsage().heapUsed;
+    const warnings: StoreWarning[] = [];
+    const keys = await store.completedKeys({ onWarning: (w) => warnings.push(w) });
+    const heapAfter = process.memoryUsage().heapUsed;
+    expect(warnings).toEqual([]);
+    expect(keys.size).toBe(N);
+    expect(keys.has((N - 1).toString(16).padStart(32, '0'))).toBe(true);
+    // The files hold about 60 MB of text; a reader that kept whole records would
+    // grow the heap by far more than the key set (about 20 MB). Loose bound.
+    expect(heapAfter - heapBefore).toBeLessThan(150 * 1024 * 1024);
+  });
+});

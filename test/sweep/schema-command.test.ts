@@ -1,0 +1,56 @@
+import { execFile } from 'node:child_process';
+import { mkdtemp, readFile, readdir, rm } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { promisify } from 'node:util';
+import { describe, expect, it } from 'vitest';
+
+const run = promisify(execFile);
+const CLI = join(process.cwd(), 'bin', 'recallscape.js');
+
+interface JsonSchema {
+  $schema?: string;
+  type?: string;
+  required?: string[];
+  additionalProperties?: unknown;
+  properties?: Record<string, JsonSchema & { additionalProperties?: { anyOf?: JsonSchema[] } }>;
+}
+
+describe('recallscape schema', () => {
+  it('prints a JSON Schema of the sweep file that requires a name and rejects unknown keys', async () => {
+    const { stdout } = await run(process.execPath, [CLI, 'schema']);
+    const schema = JSON.parse(stdout) as JsonSchema;
+    expect(schema.$schema).toBe('https://json-schema.org/draft/2020-12/schema');
+    expect(schema.type).toBe('object');
+    expect(schema.required).toEqual(['name']);
+    expect(schema.additionalProperties).toBe(false);
+    expect(Object.keys(schema.properties ?? {})).toEqual(['name', 'model', 'seed', 'replicates', 'fixed', 'vary', 'sampler', 'report']);
+    expect(schema.properties?.['name']?.['pattern' as keyof JsonSchema]).toBe('^[a-z0-9][a-z0-9._-]*$');
+    // Four kinds of range: list, from/to/steps, between, among.
+    const ranges = schema.properties?.['vary']?.additionalProperties?.anyOf ?? [];
+    expect(ranges.map((r) => Object.keys(r.properties ?? {})[0])).toEqual(['list', 'from', 'between', 'among']);
+  });
+
+  it('writes the schema to a file with --out and prints where', async () => {
+    const dir = await mkdtemp(join(tmpdir(), 'rs-schema-'));
+    try {
+      const out = join(dir, 'sweep.schema.json');
+      const { stdout } = await run(process.execPath, [CLI, 'schema', '--out', out]);
+      expect(stdout).toBe(`wrote ${out}\n`);
+      const written = JSON.parse(await readFile(out, 'utf8')) as JsonSchema;
+      expect(written.required).toEqual(['name']);
+      expect(await readdir(dir)).toEqual(['sweep.schema.json']);
+    } finally {
+      await rm(dir, { recursive: true, force: true });
+    }
+  });
+
+  it('exits with code 2 when --out cannot be written', async () => {
+    const error = await run(process.execPath, [CLI, 'schema', '--out', '/nonexistent-folder/x.json']).then(
+      () => undefined,
+      (e: unknown) => e as { code: number; stderr: string },
+    );
+    expect(error?.code).toBe(2);
+    expect(error?.stderr).toContain('--out /nonexistent-folder/x.json');
+  });
+});
