@@ -1,11 +1,89 @@
+import { relative, isAbsolute } from 'node:path';
 import type { Command } from 'commander';
+import { InputError } from '../../shared/errors.js';
+import { action } from '../cli-support.js';
+import { buildReport } from '../summarize/build-report.js';
+import { completedPercent } from '../summarize/report-page.js';
+import { REPORT_FORMATS, type ReportFormat } from '../summarize/report-settings.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+interface ReportFlags {
+  readonly x?: string;
+  readonly y?: string;
+  readonly facet?: string;
+  readonly metric?: string;
+  readonly format?: string;
+  readonly bins?: string;
+}
+
+/** Warnings printed in the terminal; the page lists more. */
+const MAX_PRINTED_WARNINGS = 10;
+
+function shortPath(path: string): string {
+  const rel = relative(process.cwd(), path);
+  return rel === '' ? '.' : rel.startsWith('..') || isAbsolute(rel) ? path : rel;
+}
+
+function parseBins(text: string | undefined): number | undefined {
+  if (text === undefined) return undefined;
+  const n = Number(text);
+  if (!/^\s*\d+\s*$/.test(text) || !Number.isInteger(n) || n < 2 || n > 200) {
+    throw new InputError(`--bins: must be a whole number from 2 to 200, got "${text}"`, [{ path: '--bins', message: 'a whole number from 2 to 200' }]);
+  }
+  return n;
+}
+
+function parseFormats(text: string | undefined): ReportFormat[] | undefined {
+  if (text === undefined) return undefined;
+  const names = text.split(',').map((s) => s.trim()).filter((s) => s !== '');
+  for (const name of names) {
+    if (!(REPORT_FORMATS as readonly string[]).includes(name)) {
+      throw new InputError(`--format: unknown format "${name}"; allowed: ${REPORT_FORMATS.join(', ')} (comma-separated)`, [
+        { path: '--format', message: `allowed: ${REPORT_FORMATS.join(', ')}` },
+      ]);
+    }
+  }
+  if (names.length === 0) throw new InputError(`--format: name at least one of ${REPORT_FORMATS.join(', ')}`, [{ path: '--format', message: 'empty' }]);
+  return names as ReportFormat[];
+}
+
 export function registerReport(program: Command): void {
   program
     .command('report')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape report is not built yet');
-    });
+    .description('Summarise a sweep folder into tables, phase diagrams and index.html (in DIR/report/); works while the sweep is still running')
+    .argument('<dir>', 'sweep folder (the one holding sweep.json)')
+    .option('--x <param>', 'varied parameter on the horizontal axis (default: report.x of the sweep, else the first varied parameter)')
+    .option('--y <param>', 'varied parameter on the vertical axis (default: report.y, else the second varied parameter)')
+    .option('--facet <param>', 'varied parameter with one diagram per value, or "none" (default: report.facet, else the third varied parameter)')
+    .option('--metric <name>', 'metric to colour the cells by: success or another scalar metric of the records (default: report.metric, else success)')
+    .option('--format <list>', `comma-separated outputs among ${REPORT_FORMATS.join(',')} (default: all)`)
+    .option('--bins <n>', 'bins per axis for random, lhs and sobol sweeps (default: report.bins, else 8)')
+    .action(
+      action(async (dir: string, flags: ReportFlags) => {
+        const bins = parseBins(flags.bins);
+        const formats = parseFormats(flags.format);
+        const result = await buildReport({
+          dir,
+          ...(flags.x === undefined ? {} : { x: flags.x }),
+          ...(flags.y === undefined ? {} : { y: flags.y }),
+          ...(flags.facet === undefined ? {} : { facet: flags.facet }),
+          ...(flags.metric === undefined ? {} : { metric: flags.metric }),
+          ...(formats === undefined ? {} : { formats }),
+          ...(bins === undefined ? {} : { bins }),
+        });
+        for (const w of result.warnings.slice(0, MAX_PRINTED_WARNINGS)) {
+          process.stderr.write(`recallscape: warning: ${w.kind}: ${w.message}\n`);
+        }
+        if (result.warnings.length > MAX_PRINTED_WARNINGS) {
+          process.stderr.write(`recallscape: warning: ... ${result.warnings.length - MAX_PRINTED_WARNINGS} more (listed in index.html)\n`);
+        }
+        const lines = [
+          `completed ${result.completedJobs} of ${result.plannedJobs} jobs (${completedPercent(result.completedJobs, result.plannedJobs)})` +
+            (result.failedJobs > 0 ? `; ${result.failedJobs} failed without a result` : '') +
+            (result.incompleteCells > 0 ? `; ${result.incompleteCells} diagram cells have fewer trials than planned` : ''),
+          `wrote ${result.files.length} file${result.files.length === 1 ? '' : 's'} to ${shortPath(result.reportDir)}/:`,
+          ...result.files.map((f) => `  ${shortPath(f)}`),
+        ];
+        process.stdout.write(`${lines.join('\n')}\n`);
+      }),
+    );
 }

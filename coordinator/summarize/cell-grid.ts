@@ -1,0 +1,104 @@
+import { GroupSummary, type MetricKind } from './group-summary.js';
+import { wilsonInterval } from './wilson.js';
+
+/** A summarised group placed on the diagram lattice: x, y and facet indices. */
+export interface PlacedGroup {
+  readonly x: number;
+  readonly y: number;
+  readonly facet: number;
+  /** Trials the sweep plans for this group. */
+  readonly planned: number;
+  readonly summary: GroupSummary;
+}
+
+/** What a diagram cell shows, for one metric. */
+export interface CellData {
+  readonly x: number;
+  readonly y: number;
+  /** Trials done and planned. */
+  readonly n: number;
+  readonly planned: number;
+  readonly successes: number;
+  /** Trials that reported the shown metric (for boolean metrics, its "successes" are `hits`). */
+  readonly metricCount: number;
+  readonly hits: number;
+  /** Shown value: a rate for boolean metrics, a mean for numeric ones; null without data. */
+  readonly value: number | null;
+  /** 95% Wilson interval for rates, null for numeric metrics. */
+  readonly lo: number | null;
+  readonly hi: number | null;
+  readonly sd: number | null;
+}
+
+export interface CellGrid {
+  readonly facet: number;
+  readonly nx: number;
+  readonly ny: number;
+  /** Row-major, y outer: cells[y * nx + x]. */
+  readonly cells: readonly CellData[];
+}
+
+/** The shown metric's kind; `success` is a boolean metric kept apart from the others. */
+export type ShownMetric = { readonly name: string; readonly kind: MetricKind };
+
+export function cellValue(summary: GroupSummary, planned: number, x: number, y: number, metric: ShownMetric): CellData {
+  let metricCount: number;
+  let hits: number;
+  let value: number | null;
+  let lo: number | null = null;
+  let hi: number | null = null;
+  let sd: number | null = null;
+  if (metric.name === 'success') {
+    metricCount = summary.n;
+    hits = summary.successes;
+  } else {
+    const stats = summary.metrics.get(metric.name);
+    metricCount = stats?.count ?? 0;
+    // A boolean metric's mean times its count is its number of true values.
+    hits = stats === undefined ? 0 : Math.round(stats.mean * stats.count);
+    sd = stats?.sd() ?? null;
+  }
+  if (metric.kind === 'boolean') {
+    value = metricCount === 0 ? null : hits / metricCount;
+    const interval = wilsonInterval(hits, metricCount);
+    lo = interval?.lo ?? null;
+    hi = interval?.hi ?? null;
+  } else {
+    value = summary.metrics.get(metric.name)?.meanOrNull() ?? null;
+  }
+  return { x, y, n: summary.n, planned, successes: summary.successes, metricCount, hits, value, lo, hi, sd };
+}
+
+/**
+ * Pool the groups that fall into the same diagram cell (parameters that are
+ * neither x, y nor facet are pooled) and lay them out as one grid per facet.
+ * Cells no group reaches get n = 0 and planned = 0.
+ */
+export function buildCellGrids(
+  groups: Iterable<PlacedGroup>,
+  size: { readonly nx: number; readonly ny: number; readonly facets: number },
+  metric: ShownMetric,
+): CellGrid[] {
+  const { nx, ny, facets } = size;
+  const pooled: GroupSummary[] = [];
+  const planned: number[] = new Array<number>(nx * ny * facets).fill(0);
+  for (let i = 0; i < nx * ny * facets; i++) pooled.push(new GroupSummary());
+  for (const g of groups) {
+    if (g.x < 0 || g.x >= nx || g.y < 0 || g.y >= ny || g.facet < 0 || g.facet >= facets) continue;
+    const i = (g.facet * ny + g.y) * nx + g.x;
+    pooled[i]?.merge(g.summary);
+    planned[i] = (planned[i] ?? 0) + g.planned;
+  }
+  const grids: CellGrid[] = [];
+  for (let f = 0; f < facets; f++) {
+    const cells: CellData[] = [];
+    for (let y = 0; y < ny; y++) {
+      for (let x = 0; x < nx; x++) {
+        const i = (f * ny + y) * nx + x;
+        cells.push(cellValue(pooled[i] ?? new GroupSummary(), planned[i] ?? 0, x, y, metric));
+      }
+    }
+    grids.push({ facet: f, nx, ny, cells });
+  }
+  return grids;
+}

@@ -1,0 +1,99 @@
+import { z } from 'zod';
+import { InputError } from '../../shared/errors.js';
+
+export const REPORT_FORMATS = ['csv', 'md', 'svg', 'png', 'html'] as const;
+export type ReportFormat = (typeof REPORT_FORMATS)[number];
+
+/** Bins per axis for sampled sweeps when neither the command nor the sweep says. */
+export const DEFAULT_BINS = 8;
+/** A numeric facet of a sampled sweep gets at most this many panels. */
+export const MAX_FACET_BINS = 4;
+/** `--facet none` turns faceting off. */
+export const NO_FACET = 'none';
+
+export interface ReportChoices {
+  readonly x?: string | undefined;
+  readonly y?: string | undefined;
+  readonly facet?: string | undefined;
+  readonly metric?: string | undefined;
+  readonly bins?: number | undefined;
+  readonly formats?: readonly string[] | undefined;
+}
+
+export interface ResolvedSettings {
+  /** Null only when the sweep varies nothing (then there is no diagram). */
+  readonly x: string | null;
+  readonly y: string | null;
+  readonly facet: string | null;
+  readonly metric: string;
+  readonly bins: number;
+  readonly formats: ReadonlySet<ReportFormat>;
+}
+
+const BinsSchema = z.number().int().min(2).max(200);
+
+function reject(option: string, message: string): never {
+  throw new InputError(`${option}: ${message}`, [{ path: option, message }]);
+}
+
+/**
+ * Axes, metric, bins and formats: the command's options first, then the
+ * sweep file's `report` section, then the first varied parameters in file
+ * order (x, y, facet) and `success`. A default that collides with an explicit
+ * choice is skipped rather than reported: only what the user typed can be wrong.
+ */
+export function resolveSettings(
+  choices: ReportChoices,
+  fromSweep: ReportChoices,
+  varied: readonly string[],
+): ResolvedSettings {
+  const allowed = varied.length === 0 ? '(none: the sweep varies no parameter)' : varied.join(', ');
+  const explicit = new Map<string, string>();
+  for (const axis of ['x', 'y', 'facet'] as const) {
+    const name = choices[axis];
+    if (name === undefined) continue;
+    if (axis === 'facet' && name === NO_FACET) continue;
+    if (!varied.includes(name)) reject(`--${axis}`, `"${name}" is not a varied parameter of this sweep; allowed: ${allowed}${axis === 'facet' ? `, or ${NO_FACET}` : ''}`);
+    const clash = explicit.get(name);
+    if (clash !== undefined) reject(`--${axis}`, `"${name}" is already --${clash}; each axis needs its own parameter`);
+    explicit.set(name, axis);
+  }
+  const taken = new Set(explicit.keys());
+  const pick = (axis: 'x' | 'y' | 'facet'): string | null => {
+    const own = choices[axis];
+    if (own !== undefined) return own === NO_FACET && axis === 'facet' ? null : own;
+    const preset = fromSweep[axis];
+    if (preset !== undefined && varied.includes(preset) && !taken.has(preset)) {
+      taken.add(preset);
+      return preset;
+    }
+    const next = varied.find((n) => !taken.has(n));
+    if (next === undefined) return null;
+    taken.add(next);
+    return next;
+  };
+  const x = pick('x');
+  const y = x === null ? null : pick('y');
+  const facet = y === null ? null : pick('facet');
+
+  const bins = choices.bins ?? fromSweep.bins ?? DEFAULT_BINS;
+  if (!BinsSchema.safeParse(bins).success) reject('--bins', `must be a whole number from 2 to 200, got ${String(bins)}`);
+
+  const formats = new Set<ReportFormat>();
+  for (const f of choices.formats ?? REPORT_FORMATS) {
+    const name = f.trim().toLowerCase();
+    if (!(REPORT_FORMATS as readonly string[]).includes(name)) reject('--format', `unknown format "${f}"; allowed: ${REPORT_FORMATS.join(', ')}`);
+    formats.add(name as ReportFormat);
+  }
+  if (formats.size === 0) reject('--format', `name at least one of ${REPORT_FORMATS.join(', ')}`);
+
+  const metric = choices.metric ?? fromSweep.metric ?? 'success';
+  return { x, y, facet, metric, bins, formats };
+}
+
+/** After the scan, when the metrics are known: InputError for an unknown --metric. */
+export function checkMetric(metric: string, known: readonly string[], fromOption: boolean): void {
+  if (known.includes(metric)) return;
+  const option = fromOption ? '--metric' : 'report.metric';
+  reject(option, `no scalar metric "${metric}" in the results; allowed: ${known.join(', ')}`);
+}
