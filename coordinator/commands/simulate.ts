@@ -1,11 +1,127 @@
+import { randomBytes } from 'node:crypto';
+import { readFile, rename, rm, writeFile } from 'node:fs/promises';
+import { basename, dirname, join } from 'node:path';
 import type { Command } from 'commander';
+import { InputError, issuesFromZod, type FieldIssue } from '../../shared/errors.js';
+import type { TracePanel } from '../../shared/model.js';
+import { DEFAULT_MODEL_ID, requireModel } from '../../shared/models/registry.js';
+import { MAX_SEED } from '../../shared/random.js';
+import { action } from '../cli-support.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+interface SimulateOptions {
+  readonly model: string;
+  readonly params?: string;
+  readonly set: string[];
+  readonly seed: string;
+  readonly trace?: string;
+}
+
+function inputError(path: string, message: string): InputError {
+  return new InputError(`${path}: ${message}`, [{ path, message }]);
+}
+
+/** `name=value`: JSON numbers and booleans become values, anything else a string; the model schema decides. */
+export function parseAssignment(text: string): [string, unknown] {
+  const at = text.indexOf('=');
+  const name = at < 0 ? '' : text.slice(0, at).trim();
+  if (at < 0 || name === '') throw inputError('--set', `expected name=value, got "${text}"`);
+  const raw = text.slice(at + 1).trim();
+  let value: unknown = raw;
+  try {
+    const parsed: unknown = JSON.parse(raw);
+    if (typeof parsed === 'number' || typeof parsed === 'boolean') value = parsed;
+  } catch {
+    // Not JSON: keep the string.
+  }
+  return [name, value];
+}
+
+async function readParamsFile(path: string): Promise<Record<string, unknown>> {
+  let text: string;
+  try {
+    text = await readFile(path, 'utf8');
+  } catch (error) {
+    throw inputError('--params', `cannot read ${path}: ${error instanceof Error ? error.message : String(error)}`);
+  }
+  let parsed: unknown;
+  try {
+    parsed = JSON.parse(text);
+  } catch (error) {
+    throw inputError('--params', `${path} is not valid JSON: ${error instanceof Error ? error.message : String(error)}`);
+  }
+  if (parsed === null || typeof parsed !== 'object' || Array.isArray(parsed)) {
+    throw inputError('--params', `${path} must hold one JSON object of parameter names and values`);
+  }
+  return parsed as Record<string, unknown>;
+}
+
+function parseSeed(text: string): number {
+  const seed = /^\d+$/.test(text.trim()) ? Number(text.trim()) : Number.NaN;
+  if (!Number.isSafeInteger(seed) || seed < 0 || seed > MAX_SEED) {
+    throw inputError('--seed', `must be an integer from 0 to ${MAX_SEED}, got "${text}"`);
+  }
+  return seed;
+}
+
+/** CSV `recall,t_ms,p0,...` with every number at full float64 precision. */
+export function traceCsv(panels: readonly TracePanel[]): string {
+  const labels = panels[0]?.seriesLabels ?? [];
+  const lines: string[] = [['recall', 't_ms', ...labels].join(',')];
+  panels.forEach((panel, recall) => {
+    const width = panel.seriesLabels.length;
+    for (let t = 0; t < panel.steps; t++) {
+      const row: string[] = [String(recall), String(t * panel.stepMs)];
+      for (let k = 0; k < width; k++) row.push(String(panel.values[t * width + k]));
+      lines.push(row.join(','));
+    }
+  });
+  return `${lines.join('\n')}\n`;
+}
+
+/** Write through a temporary file in the same folder, then rename: never half a file. */
+async function writeAtomically(path: string, text: string): Promise<void> {
+  const temp = join(dirname(path), `.${basename(path)}.${process.pid}.${randomBytes(4).toString('hex')}.tmp`);
+  try {
+    await writeFile(temp, text, 'utf8');
+    await rename(temp, path);
+  } catch (error) {
+    await rm(temp, { force: true });
+    throw inputError('--trace', `cannot write ${path}: ${error instanceof Error ? error.message : String(error)}`);
+  }
+}
+
 export function registerSimulate(program: Command): void {
   program
     .command('simulate')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape simulate is not built yet');
-    });
+    .description('Run one trial of a model and print its metrics as one JSON object')
+    .option('--model <id>', 'model to run', DEFAULT_MODEL_ID)
+    .option('--params <file>', 'JSON object of parameters (explicit "sequences" go here)')
+    .option('--set <name=value>', 'set one parameter (repeatable; applied after --params)', (v: string, acc: string[]) => [...acc, v], [] as string[])
+    .option('--seed <n>', 'seed of the trial (non-negative integer)', '1')
+    .option('--trace <file>', 'write the match of every stored pattern at every recall step as CSV')
+    .action(
+      action(async (options: SimulateOptions) => {
+        const model = requireModel(options.model, '--model');
+        const seed = parseSeed(options.seed);
+        const raw: Record<string, unknown> = options.params === undefined ? {} : await readParamsFile(options.params);
+        for (const assignment of options.set) {
+          const [name, value] = parseAssignment(assignment);
+          raw[name] = value;
+        }
+        const parsed = model.params.safeParse(raw);
+        if (!parsed.success) {
+          const issues: FieldIssue[] = issuesFromZod(parsed.error.issues);
+          const lines = issues.map((i) => `  ${i.path}: ${i.message}`).join('\n');
+          throw new InputError(`invalid parameters for model ${model.id}:\n${lines}`, issues);
+        }
+        const output = model.run(parsed.data, seed, options.trace === undefined ? {} : { trace: true });
+        if (options.trace !== undefined) {
+          if (output.trace === undefined || output.trace.length === 0) {
+            throw inputError('--trace', `model ${model.id} records no trace`);
+          }
+          await writeAtomically(options.trace, traceCsv(output.trace));
+        }
+        process.stdout.write(`${JSON.stringify(output.metrics)}\n`);
+      }),
+    );
 }

@@ -1,16 +1,92 @@
-// Placeholder: the model is being built in this folder (see model.ts when it lands).
-import { z } from 'zod';
-import type { Model } from '../../model.js';
+import type { Model, RunOptions, RunOutput, TracePanel } from '../../model.js';
+import { createRandom } from '../../random.js';
+import { estimateCost } from './cost.js';
+import { bcpnnParamsSchema, paramInfo, resolveShape, type BcpnnParams } from './params.js';
+import { achievedOverlap, generateSequences, indexPatterns, type PatternSet } from './patterns.js';
+import { Recaller } from './recall.js';
+import { scoreRecall } from './scoring.js';
+import { train, type TrainedNetwork } from './training.js';
 
-const params = z.object({}).strict();
-export const bcpnnSequences: Model<typeof params> = {
+/** The stored sequences of a trial: explicit, or drawn from the 'patterns' stream. */
+export function makePatternSet(p: BcpnnParams, seed: number): PatternSet {
+  const shape = resolveShape(p);
+  if (p.sequences !== undefined) return indexPatterns(p.sequences);
+  const rng = createRandom(seed, 'patterns');
+  return generateSequences(
+    { H: shape.H, M: shape.M, K: shape.K, L: shape.L, f: p.patternOverlap, k: shape.k, start: shape.start },
+    rng,
+  );
+}
+
+export interface TrialParts {
+  readonly set: PatternSet;
+  readonly net: TrainedNetwork;
+}
+
+/** Training alone (exposed for benchmarks and tests). */
+export function trainTrial(p: BcpnnParams, seed: number): TrialParts {
+  const set = makePatternSet(p, seed);
+  return { set, net: train(set, p, resolveShape(p)) };
+}
+
+/** Recall of every sequence and scoring (exposed for benchmarks and tests). */
+export function recallTrial(p: BcpnnParams, seed: number, parts: TrialParts, options: RunOptions = {}): RunOutput {
+  const shape = resolveShape(p);
+  const { set, net } = parts;
+  const recaller = new Recaller(net, set, p, shape);
+  const noise = p.noise > 0 ? createRandom(seed, 'noise') : null;
+  const active = new Int32Array(recaller.steps);
+  const trace: TracePanel[] = [];
+  const correctPrefix: number[] = [];
+  const firstError: (number | null)[] = [];
+  const dwell: number[] = [];
+  let diverged = false;
+  let recalled = 0;
+  for (let s = 0; s < shape.K; s++) {
+    const values = options.trace === true ? new Float64Array(recaller.steps * recaller.nPatterns) : null;
+    const ok = recaller.run(s, noise, active, values);
+    if (!ok) diverged = true;
+    const expected = set.ids[s] ?? [];
+    const score = scoreRecall(active, expected, p.dt, p.minDwell);
+    correctPrefix.push(score.correctPrefix);
+    firstError.push(score.firstError);
+    dwell.push(...score.dwellMs);
+    if (score.firstError === null) recalled++;
+    if (values !== null) {
+      trace.push({
+        title: `recall ${s} (sequence ${s})`,
+        stepMs: p.dt,
+        steps: recaller.steps,
+        seriesLabels: set.patterns.map((_, k) => `p${k}`),
+        markEndMs: shape.nCue * p.dt,
+        values,
+      });
+    }
+  }
+  const metrics = {
+    success: !diverged && recalled === shape.K,
+    recalledFraction: recalled / shape.K,
+    meanCorrectPrefix: correctPrefix.reduce((x, y) => x + y, 0) / shape.K,
+    meanDwellMs: dwell.length === 0 ? null : dwell.reduce((x, y) => x + y, 0) / dwell.length,
+    achievedOverlap: achievedOverlap(set, shape.start, shape.k),
+    diverged,
+    distinctPatterns: set.patterns.length,
+    correctPrefix,
+    firstError,
+  };
+  return options.trace === true ? { metrics, trace } : { metrics };
+}
+
+export const bcpnnSequences: Model<typeof bcpnnParamsSchema> = {
   id: 'bcpnn-sequences',
-  version: '0',
-  summary: 'placeholder',
-  params,
-  paramInfo: {},
-  cost: () => 1,
-  run: () => {
-    throw new Error('bcpnn-sequences is not built yet');
+  version: '1.0.0',
+  summary:
+    'Modular attractor network (hypercolumns of minicolumns) trained with the BCPNN rule on K sequences with controlled overlap, then cued recall of each sequence; success when every sequence is replayed in order.',
+  params: bcpnnParamsSchema,
+  paramInfo,
+  cost: estimateCost,
+  run(params: BcpnnParams, seed: number, options: RunOptions = {}): RunOutput {
+    const parts = trainTrial(params, seed);
+    return recallTrial(params, seed, parts, options);
   },
 };

@@ -1,0 +1,157 @@
+import type { RandomSource } from '../../random.js';
+import type { BcpnnParams, ResolvedShape } from './params.js';
+import type { PatternSet } from './patterns.js';
+import { fillNormal } from './normal-noise.js';
+import { activeAt } from './scoring.js';
+import type { TrainedNetwork } from './training.js';
+
+/**
+ * Cued recall (plasticity off), one step at a time as in docs/model.md.
+ *
+ * The recurrent input (w o)_i only depends on the class of unit i and on the
+ * summed output of every class, because all units of a class share their
+ * weights: (w o)_i = sum_g W[class(i)][g] * O_g with O_g = sum of o over
+ * class g. That is exact (only the order of additions changes) and costs
+ * O(N + G^2) per step instead of O(N^2). All buffers are allocated once.
+ */
+export class Recaller {
+  private readonly s: Float64Array;
+  private readonly o: Float64Array;
+  private readonly a: Float64Array;
+  private readonly classSum: Float64Array;
+  private readonly classInput: Float64Array;
+  private readonly external: Float64Array;
+  private readonly scaled: Float64Array;
+  /** patternUnits[k * H + h]: the active unit of pattern k in hypercolumn h. */
+  readonly patternUnits: Int32Array;
+  readonly nPatterns: number;
+  readonly steps: number;
+  private readonly matches: Float64Array;
+
+  constructor(
+    private readonly net: TrainedNetwork,
+    private readonly set: PatternSet,
+    private readonly p: BcpnnParams,
+    private readonly shape: ResolvedShape,
+  ) {
+    const { N, H, M } = shape;
+    this.s = new Float64Array(N);
+    this.o = new Float64Array(N);
+    this.a = new Float64Array(N);
+    this.classSum = new Float64Array(net.G);
+    this.classInput = new Float64Array(net.G);
+    this.external = new Float64Array(N);
+    this.scaled = new Float64Array(N);
+    this.nPatterns = set.patterns.length;
+    this.patternUnits = new Int32Array(this.nPatterns * H);
+    set.patterns.forEach((pattern, k) => {
+      for (let h = 0; h < H; h++) this.patternUnits[k * H + h] = h * M + (pattern[h] as number);
+    });
+    this.steps = shape.nCue + shape.nFree;
+    this.matches = new Float64Array(this.nPatterns);
+  }
+
+  /**
+   * Recall cued by the first pattern of `sequence`. Writes the active pattern
+   * id (or -1) of every step into `active` and, when given, the match of
+   * every pattern at every step into `trace` (row-major, steps x nPatterns).
+   * Returns false when the state stopped being finite (the rest of `active`
+   * is -1 and of `trace` NaN).
+   */
+  run(sequence: number, noise: RandomSource | null, active: Int32Array, trace: Float64Array | null): boolean {
+    const { s, o, a, classSum, classInput, external, scaled, patternUnits, matches, nPatterns, steps } = this;
+    const { N, H, M, nCue } = this.shape;
+    const { G, classOf, classWeights, classBias } = this.net;
+    const p = this.p;
+    const kS = p.dt / p.tauSupport;
+    const kA = p.dt / p.tauAdapt;
+    const gain = p.gain;
+    const adaptGain = p.adaptGain;
+    const sigma = p.noise;
+    const threshold = p.matchThreshold;
+    const invH = 1 / H;
+    const biasGain = p.biasGain;
+    const weightGain = p.weightGain;
+    const cueStrength = p.cueStrength;
+
+    s.fill(0);
+    a.fill(0);
+    o.fill(1 / M);
+    // External input: cue (first nCue steps) plus noise; zero otherwise.
+    external.fill(0);
+    const cueId = this.set.ids[sequence]?.[0] as number;
+    const cueBase = cueId * H;
+    classSum.fill(0);
+    for (let j = 0; j < N; j++) {
+      const g = classOf[j] as number;
+      classSum[g] = (classSum[g] as number) + (o[j] as number);
+    }
+
+    for (let t = 0; t < steps; t++) {
+      // Recurrent input through the class sums (o of the previous step).
+      for (let g = 0; g < G; g++) {
+        const row = g * G;
+        let acc = 0;
+        for (let g2 = 0; g2 < G; g2++) acc += (classWeights[row + g2] as number) * (classSum[g2] as number);
+        classInput[g] = biasGain * (classBias[g] as number) + weightGain * acc;
+      }
+      if (noise !== null) fillNormal(noise, external, sigma);
+      if (t < nCue) {
+        for (let h = 0; h < H; h++) {
+          const i = patternUnits[cueBase + h] as number;
+          external[i] = (noise !== null ? (external[i] as number) : 0) + cueStrength;
+        }
+      } else if (t === nCue && noise === null) {
+        for (let h = 0; h < H; h++) external[patternUnits[cueBase + h] as number] = 0;
+      }
+      classSum.fill(0);
+      let finite = true;
+      for (let h = 0; h < H; h++) {
+        const off = h * M;
+        const end = off + M;
+        // Support update, then softmax of gain*s in this hypercolumn (max subtracted).
+        let mx = -Infinity;
+        for (let i = off; i < end; i++) {
+          const u = (classInput[classOf[i] as number] as number) - adaptGain * (a[i] as number) + (external[i] as number);
+          const si = s[i] as number;
+          const next = si + kS * (u - si);
+          s[i] = next;
+          const v = gain * next;
+          scaled[i] = v;
+          if (v > mx) mx = v;
+        }
+        let sum = 0;
+        for (let i = off; i < end; i++) {
+          const e = Math.exp((scaled[i] as number) - mx);
+          o[i] = e;
+          sum += e;
+        }
+        if (!(sum > 0 && sum < Infinity)) finite = false;
+        // Output, adaptation, and the class sums for the next step.
+        const inv = 1 / sum;
+        for (let i = off; i < end; i++) {
+          const oi = (o[i] as number) * inv;
+          o[i] = oi;
+          const ai = a[i] as number;
+          a[i] = ai + kA * (oi - ai);
+          const g = classOf[i] as number;
+          classSum[g] = (classSum[g] as number) + oi;
+        }
+      }
+      if (!finite) {
+        active.fill(-1, t);
+        if (trace !== null) trace.fill(Number.NaN, t * nPatterns);
+        return false;
+      }
+      for (let k = 0; k < nPatterns; k++) {
+        let sum = 0;
+        const base = k * H;
+        for (let h = 0; h < H; h++) sum += o[patternUnits[base + h] as number] as number;
+        matches[k] = sum * invH;
+      }
+      active[t] = activeAt(matches, 0, nPatterns, threshold);
+      if (trace !== null) trace.set(matches, t * nPatterns);
+    }
+    return true;
+  }
+}
