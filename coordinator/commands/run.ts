@@ -1,11 +1,131 @@
+import { relative, isAbsolute } from 'node:path';
 import type { Command } from 'commander';
+import { createLogger } from '../../shared/logger.js';
+import type { LoadedSweep } from '../../shared/sweep/load.js';
+import { defaultThreadCount } from '../../worker/thread-pool.js';
+import { EXIT_FAILURE, EXIT_OK, action } from '../cli-support.js';
+import { DEFAULT_JOB_LIMIT, loadSweepForCommand, parseWholeNumber } from '../plan-sweep.js';
+import { createProgressDisplay } from '../progress-display.js';
+import { runSweep, stopOnSignals, type RunSweepResult } from '../run-sweep.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+/** Exit code of a run stopped by SIGINT/SIGTERM (128 + SIGINT, as shells do). */
+export const EXIT_INTERRUPTED = 130;
+
+/** Most threads one process may start; more is a typo, not a machine. */
+export const MAX_THREADS = 1024;
+
+/** Quote a command-line word for a POSIX shell when it needs it. */
+export function shellWord(word: string): string {
+  return /^[A-Za-z0-9_./:=@%+-]+$/.test(word) ? word : `'${word.replace(/'/g, `'\\''`)}'`;
+}
+
+/** A path as short as it can be said from the current folder. */
+export function displayPath(path: string): string {
+  const rel = relative(process.cwd(), path);
+  return rel === '' ? '.' : rel.startsWith('..') || isAbsolute(rel) ? path : rel;
+}
+
+export interface ExecuteOptions {
+  readonly sweep: LoadedSweep;
+  readonly root: string;
+  readonly threads: number;
+  /** The command that resumes this run, for the closing lines. */
+  readonly resumeCommand: string;
+  readonly loggerName: string;
+}
+
+/**
+ * Run a loaded sweep with a progress display and signal handling, print the
+ * closing summary, and set the exit code: 0 all done, 1 some jobs failed,
+ * 130 stopped by a signal. Used by `run` and `demo`.
+ */
+export async function executeSweep(options: ExecuteOptions): Promise<RunSweepResult> {
+  const logger = createLogger({ name: options.loggerName });
+  const out = process.stdout;
+  const display = createProgressDisplay({ stream: out });
+  const signals = stopOnSignals((line) => process.stderr.write(`recallscape: ${line}\n`));
+  let result: RunSweepResult;
+  try {
+    result = await runSweep({
+      sweep: options.sweep,
+      root: options.root,
+      threads: options.threads,
+      signal: signals.graceful,
+      abandonSignal: signals.abandon,
+      onProgress: (p) => display.update(p),
+      onStart: (info) => {
+        const left = info.planned - info.withResults;
+        out.write(
+          `sweep ${options.sweep.spec.name}: ${info.planned} jobs, ${info.withResults} with results already; ` +
+            `running ${left} on ${info.threads} thread${info.threads === 1 ? '' : 's'} into ${displayPath(info.dir)}/\n`,
+        );
+      },
+      logger,
+    });
+  } finally {
+    display.stop(undefined);
+    signals.dispose();
+  }
+  const dir = displayPath(result.dir);
+  const lines: string[] = [];
+  lines.push('');
+  lines.push(
+    `sweep ${options.sweep.spec.name}: ${result.planned} jobs planned, ${result.alreadyDone} had results before this run, ` +
+      `${result.ran} ran now (${result.succeeded} succeeded, ${result.failed} failed)`,
+  );
+  lines.push(`results: ${displayPath(result.resultsDir)}/`);
+  if (result.stopped !== null) {
+    lines.push(
+      `stopped by a signal (${result.stopped === 'graceful' ? 'running jobs finished and were written' : 'running jobs were abandoned'}); ` +
+        `${result.missing} jobs still have no result.`,
+    );
+    lines.push(`resume with: ${options.resumeCommand}`);
+    process.exitCode = EXIT_INTERRUPTED;
+  } else if (result.failed > 0) {
+    lines.push(`${result.failed} jobs failed; their errors are in ${displayPath(result.failuresDir)}/`);
+    lines.push(`failed jobs are retried when you run the same command again: ${options.resumeCommand}`);
+    process.exitCode = EXIT_FAILURE;
+  } else {
+    lines.push(`every job has a result. build a report with: recallscape report ${shellWord(dir)}`);
+    process.exitCode = EXIT_OK;
+  }
+  out.write(`${lines.join('\n')}\n`);
+  return result;
+}
+
+interface RunFlags {
+  readonly out: string;
+  readonly threads?: string;
+  readonly maxJobs: string;
+  readonly yes?: boolean;
+}
+
 export function registerRun(program: Command): void {
   program
     .command('run')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape run is not built yet');
-    });
+    .description('Run every job of a sweep file that has no result yet, on this machine; run it again to resume')
+    .argument('<file>', 'sweep file (YAML or JSON)')
+    .option('--out <dir>', 'results root; results go to <dir>/<sweep name>', 'results')
+    .option('--threads <n>', 'worker threads (default: one per core)')
+    .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
+    .option('--yes', 'run even when the sweep has more jobs than the limit')
+    .action(
+      action(async (file: string, flags: RunFlags) => {
+        const threads = flags.threads === undefined ? defaultThreadCount() : parseWholeNumber('--threads', flags.threads, 1, MAX_THREADS);
+        const maxJobs = parseWholeNumber('--max-jobs', flags.maxJobs, 1);
+        // Everything is validated before runSweep creates the results folder.
+        const sweep = await loadSweepForCommand(file, { maxJobs, yes: flags.yes === true });
+        const words = ['recallscape', 'run', file, '--out', flags.out];
+        if (flags.threads !== undefined) words.push('--threads', String(threads));
+        if (flags.yes === true) words.push('--yes');
+        else if (flags.maxJobs !== String(DEFAULT_JOB_LIMIT)) words.push('--max-jobs', String(maxJobs));
+        await executeSweep({
+          sweep,
+          root: flags.out,
+          threads,
+          resumeCommand: words.map(shellWord).join(' '),
+          loggerName: 'run',
+        });
+      }),
+    );
 }

@@ -1,0 +1,181 @@
+import { InputError } from '../shared/errors.js';
+import { jobSeed } from '../shared/job-identity.js';
+import type { Point } from '../shared/schemas/records.js';
+import { assertJobLimit, countJobs, fullParams, iteratePoints } from '../shared/sweep/expand.js';
+import { loadSweepFile, type LoadedSweep } from '../shared/sweep/load.js';
+import { formatDuration } from './progress-display.js';
+
+/** Default ceiling on jobs per sweep; `--yes` or `--max-jobs` lifts it. */
+export const DEFAULT_JOB_LIMIT = 1_000_000;
+
+export interface LoadForCommandOptions {
+  readonly maxJobs: number;
+  readonly yes: boolean;
+}
+
+/**
+ * Load and validate a sweep file for a command, refusing more jobs than the
+ * limit unless the person said yes. Nothing is written, so a typo in a range
+ * costs nothing. Throws InputError.
+ */
+export async function loadSweepForCommand(file: string, options: LoadForCommandOptions): Promise<LoadedSweep> {
+  const sweep = await loadSweepFile(file, options.yes ? {} : { jobLimit: options.maxJobs });
+  if (!options.yes) assertJobLimit(sweep, options.maxJobs);
+  return sweep;
+}
+
+/** Parse `--threads`, `--max-jobs` and similar: a whole number in [min, max]. */
+export function parseWholeNumber(option: string, raw: string, min: number, max = Number.MAX_SAFE_INTEGER): number {
+  const value = Number(raw);
+  if (!/^\s*\d+\s*$/.test(raw) || !Number.isSafeInteger(value) || value < min || value > max) {
+    const message = `${option} must be a whole number from ${min} to ${max}, got "${raw}"`;
+    throw new InputError(message, [{ path: option, message }]);
+  }
+  return value;
+}
+
+export interface CalibrationFigures {
+  readonly jobs: number;
+  readonly seconds: number;
+  readonly ops: number;
+  /** Seconds of one core per model operation, or null if the jobs cost nothing. */
+  readonly secondsPerOp: number | null;
+  /** Messages of calibration jobs that threw. */
+  readonly failures: readonly string[];
+}
+
+export interface SweepPlan {
+  readonly name: string;
+  readonly source: string | null;
+  readonly model: string;
+  readonly modelVersion: string;
+  readonly sampler: string;
+  readonly variedNames: readonly string[];
+  readonly points: number;
+  readonly replicates: number;
+  readonly jobs: number;
+  /** Sum of model.cost over every job. */
+  readonly totalOps: number;
+  readonly sample: readonly Point[];
+  readonly calibration: CalibrationFigures | null;
+  readonly coreHours: number | null;
+}
+
+export interface PlanOptions {
+  /** Jobs to time for seconds-per-operation; 0 skips calibration. */
+  readonly calibrate: number;
+  /** Points shown as a sample. */
+  readonly sampleSize?: number;
+}
+
+/**
+ * Count and cost a sweep. The core-hour estimate is the sum of the model's
+ * own cost figure over every job, times seconds per operation measured by
+ * running a few real jobs (spread over the points) on this machine.
+ */
+export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
+  const pointCount = sweep.pointCount;
+  const replicates = sweep.spec.replicates;
+  const sampleSize = options.sampleSize ?? 5;
+  const wanted = Math.min(options.calibrate, pointCount);
+  // Timing jobs are spread evenly over the points (cost can vary a lot between them).
+  const timingIndices = new Set<number>();
+  for (let i = 0; i < wanted; i++) timingIndices.add(Math.floor((i * pointCount) / wanted));
+  const sample: Point[] = [];
+  const timingPoints: Point[] = [];
+  let opsPerReplicate = 0;
+  let index = 0;
+  for (const point of iteratePoints(sweep)) {
+    opsPerReplicate += Number(sweep.model.cost(fullParams(sweep, point)));
+    if (index < sampleSize) sample.push(point);
+    if (timingIndices.has(index)) timingPoints.push(point);
+    index++;
+  }
+  const totalOps = opsPerReplicate * replicates;
+
+  let calibration: CalibrationFigures | null = null;
+  if (timingPoints.length > 0) {
+    let seconds = 0;
+    let ops = 0;
+    let jobs = 0;
+    const failures: string[] = [];
+    // One untimed run first: the first call of a model includes compiling its
+    // code, which would inflate a small sample several times over.
+    try {
+      sweep.model.run(fullParams(sweep, timingPoints[0]!), jobSeed(sweep.spec.seed, 'calibration-warm-up'));
+    } catch {
+      // Reported below when the same point is timed.
+    }
+    for (const [i, point] of timingPoints.entries()) {
+      const params = fullParams(sweep, point);
+      const seed = jobSeed(sweep.spec.seed, `calibration-${i}`);
+      const started = performance.now();
+      try {
+        sweep.model.run(params, seed);
+      } catch (error) {
+        failures.push(error instanceof Error ? `${error.name}: ${error.message}` : String(error));
+        continue;
+      }
+      seconds += (performance.now() - started) / 1000;
+      ops += Number(sweep.model.cost(params));
+      jobs++;
+    }
+    calibration = { jobs, seconds, ops, secondsPerOp: jobs > 0 && ops > 0 ? seconds / ops : null, failures };
+  }
+  const secondsPerOp = calibration?.secondsPerOp ?? null;
+  return {
+    name: sweep.spec.name,
+    source: sweep.source,
+    model: sweep.model.id,
+    modelVersion: sweep.model.version,
+    sampler: sweep.spec.sampler.kind === 'grid' ? 'grid' : `${sweep.spec.sampler.kind} (${sweep.spec.sampler.points} points)`,
+    variedNames: sweep.variedNames,
+    points: pointCount,
+    replicates,
+    jobs: countJobs(sweep),
+    totalOps,
+    sample,
+    calibration,
+    coreHours: secondsPerOp === null ? null : (totalOps * secondsPerOp) / 3600,
+  };
+}
+
+function formatPoint(point: Point, names: readonly string[]): string {
+  if (names.length === 0) return '(no varied parameters)';
+  return names.map((n) => `${n}=${String(point[n])}`).join('  ');
+}
+
+const count = (n: number): string => n.toLocaleString('en-US');
+
+/** The plan as text for a person. */
+export function formatPlan(plan: SweepPlan, threads: number): string {
+  const lines: string[] = [];
+  const row = (label: string, value: string): void => {
+    lines.push(`${label.padEnd(12)}${value}`);
+  };
+  row('sweep', plan.source === null ? plan.name : `${plan.name} (from ${plan.source})`);
+  row('model', `${plan.model} version ${plan.modelVersion}`);
+  row('sampler', plan.sampler);
+  row('varied', plan.variedNames.length === 0 ? '(none)' : plan.variedNames.join(', '));
+  row('points', count(plan.points));
+  row('replicates', count(plan.replicates));
+  row('jobs', count(plan.jobs));
+  row('work', `${plan.totalOps.toPrecision(3)} operations (the model's own estimate)`);
+  const c = plan.calibration;
+  if (c === null) {
+    row('estimate', 'not calibrated (--calibrate 0); operations only');
+  } else {
+    for (const failure of c.failures) row('calibration', `a timing job failed: ${failure}`);
+    if (c.secondsPerOp === null || plan.coreHours === null) {
+      row('estimate', c.jobs === 0 ? 'none: no timing job finished' : 'none: the timed jobs report zero cost');
+    } else {
+      row('calibration', `${c.jobs} job${c.jobs === 1 ? '' : 's'} timed (after one warm-up run) in ${c.seconds.toFixed(3)} s, ${c.secondsPerOp.toPrecision(3)} s per operation`);
+      const wall = (plan.coreHours * 3600) / Math.max(1, threads);
+      row('estimate', `${plan.coreHours.toPrecision(3)} core-hours, about ${formatDuration(wall)} on ${threads} thread${threads === 1 ? '' : 's'} (timings on a busy machine run high)`);
+    }
+  }
+  lines.push('');
+  lines.push(plan.sample.length < plan.points ? `first ${plan.sample.length} of ${count(plan.points)} points:` : 'points:');
+  for (const point of plan.sample) lines.push(`  ${formatPoint(point, plan.variedNames)}`);
+  return `${lines.join('\n')}\n`;
+}
