@@ -1,19 +1,29 @@
 import { Command, CommanderError } from 'commander';
 import { CODE_VERSION } from '../shared/version.js';
 import { EXIT_INPUT } from './cli-support.js';
-import { registerSimulate } from './commands/simulate.js';
-import { registerSchema } from './commands/schema.js';
-import { registerPlan } from './commands/plan.js';
-import { registerRun } from './commands/run.js';
-import { registerDemo } from './commands/demo.js';
-import { registerSubmit } from './commands/submit.js';
-import { registerWorker } from './commands/worker.js';
-import { registerProgress } from './commands/progress.js';
-import { registerRequeue } from './commands/requeue.js';
-import { registerGather } from './commands/gather.js';
-import { registerCancel } from './commands/cancel.js';
-import { registerReport } from './commands/report.js';
-import { registerInspect } from './commands/inspect.js';
+
+type Register = (program: Command) => void;
+
+/**
+ * Sub-commands are loaded on demand: the queue commands pull in BullMQ and
+ * ioredis, the report commands the renderers, and a plain `run` or
+ * `simulate` should not pay for them at every start.
+ */
+const COMMANDS: Readonly<Record<string, () => Promise<Register>>> = {
+  demo: async () => (await import('./commands/demo.js')).registerDemo,
+  simulate: async () => (await import('./commands/simulate.js')).registerSimulate,
+  schema: async () => (await import('./commands/schema.js')).registerSchema,
+  plan: async () => (await import('./commands/plan.js')).registerPlan,
+  run: async () => (await import('./commands/run.js')).registerRun,
+  submit: async () => (await import('./commands/submit.js')).registerSubmit,
+  worker: async () => (await import('./commands/worker.js')).registerWorker,
+  progress: async () => (await import('./commands/progress.js')).registerProgress,
+  requeue: async () => (await import('./commands/requeue.js')).registerRequeue,
+  gather: async () => (await import('./commands/gather.js')).registerGather,
+  cancel: async () => (await import('./commands/cancel.js')).registerCancel,
+  report: async () => (await import('./commands/report.js')).registerReport,
+  inspect: async () => (await import('./commands/inspect.js')).registerInspect,
+};
 
 const program = new Command()
   .name('recallscape')
@@ -30,22 +40,13 @@ const program = new Command()
     process.exit(EXIT_INPUT);
   });
 
-for (const register of [
-  registerDemo,
-  registerSimulate,
-  registerSchema,
-  registerPlan,
-  registerRun,
-  registerSubmit,
-  registerWorker,
-  registerProgress,
-  registerRequeue,
-  registerGather,
-  registerCancel,
-  registerReport,
-  registerInspect,
-]) {
-  register(program);
+// The first word that is not an option names the sub-command; anything else
+// (help, a typo, no command) loads them all so help and errors list them.
+const first = process.argv.slice(2).find((arg) => !arg.startsWith('-'));
+const wanted = first !== undefined && Object.hasOwn(COMMANDS, first) ? [first] : Object.keys(COMMANDS);
+for (const name of wanted) {
+  const load = COMMANDS[name];
+  if (load !== undefined) (await load())(program);
 }
 
 await program.parseAsync(process.argv);

@@ -7,29 +7,31 @@ import { parseSweepText, type LoadedSweep } from '../shared/sweep/load.js';
  *
  * Two sequences of six patterns share some hypercolumns (patternOverlap) over
  * some consecutive positions (overlapLength); a longer presynaptic trace
- * (tauZPre) carries more context past the shared stretch. overlapLength 0 is
- * the control row where the sequences share nothing.
+ * (tauZPre) carries more context past the shared stretch, so the border of
+ * recall moves to higher overlap as tauZPre grows. overlapLength 0 is the
+ * control row where the sequences share nothing. Input noise makes trials
+ * near the border differ, so rates between 0 and 1 appear there.
  *
- * Size: 11 x 5 x 2 = 110 points x 128 replicates = 14,080 jobs of about
- * 10 ms of CPU each (H=10, M=20, L=6, K=2): about two minutes on 2 cores
- * (127 s wall, 142 s CPU, measured on a shared 2-core machine); longer on a
- * busy one.
+ * Size: 11 x 5 x 3 = 165 points x 64 replicates = 10,560 jobs of 10 to 20 ms
+ * of CPU each (H=10, M=20, L=6, K=2): 66 s for 40 replicates on an idle
+ * 2-core machine, so about two minutes for these 64.
  */
 export const DEMO_SWEEP_YAML = `# The built-in demo of recallscape (\`recallscape demo\` runs exactly this sweep).
 # Where does recall of two stored sequences break down as they share more?
 name: demo-overlap
 model: bcpnn-sequences
 seed: 2026
-replicates: 128
+replicates: 64
 fixed:
   hypercolumns: 10
   minicolumns: 20
   sequenceLength: 6
   sequenceCount: 2
+  noise: 2            # input noise (sd per unit and step): trials near the border differ
 vary:
   patternOverlap: { from: 0, to: 1, steps: 11 }
   overlapLength: { list: [0, 1, 2, 3, 4] }
-  tauZPre: { list: [50, 100] }
+  tauZPre: { list: [50, 75, 100] }
 sampler: { kind: grid }
 report: { x: patternOverlap, y: overlapLength, facet: tauZPre, metric: success }
 `;

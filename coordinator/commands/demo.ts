@@ -1,6 +1,7 @@
 import type { Command } from 'commander';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
 import { action } from '../cli-support.js';
+import { buildReport } from '../summarize/build-report.js';
 import { demoSweep } from '../demo-sweep.js';
 import { parseWholeNumber } from '../plan-sweep.js';
 import { MAX_THREADS, displayPath, executeSweep, shellWord } from './run.js';
@@ -10,13 +11,10 @@ interface DemoFlags {
   readonly threads?: string;
 }
 
-/**
- * REPORT STEP of the demo: build the report of the finished sweep folder and
- * return the path of its index page (or null when no report was built).
- * The lead wires buildReport() from coordinator/summarize/ in here.
- */
-async function buildDemoReport(_dir: string): Promise<string | null> {
-  return null;
+/** The demo ends with the report page of the finished sweep; returns its path. */
+async function buildDemoReport(dir: string): Promise<string | null> {
+  const report = await buildReport({ dir });
+  return report.indexHtml;
 }
 
 export function registerDemo(program: Command): void {
