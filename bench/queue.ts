@@ -1,4 +1,223 @@
-// Placeholder until this benchmark section is written.
+/**
+ * The queue path (submit -> Redis -> worker -> result shard -> gather) with
+ * the no-op model, so every millisecond measured is overhead:
+ * - time to submit 100,000 jobs, and to submit the same sweep again;
+ * - Redis memory per 1,000 waiting jobs;
+ * - jobs per second and per-job overhead with 1 and 2 worker processes
+ *   (`recallscape worker --threads 1`, simulations in worker threads), without
+ *   and with `--prefetch 4` (jobs held beyond the running one), on
+ *   10,000 jobs to keep the section short (RECALLSCAPE_BENCH_QUEUE_JOBS changes it);
+ * - Redis memory of a finished sweep before and after `gather`.
+ * Runs against a redis-server of its own on a free port when `redis-server`
+ * is installed (memory figures need a quiet server), else against
+ * RECALLSCAPE_REDIS_URL or 127.0.0.1:6379 with a unique queue, deleted afterwards.
+ */
+import { spawn, type ChildProcess } from 'node:child_process';
+import { randomBytes } from 'node:crypto';
+import { closeSync, fdatasyncSync, openSync, writeSync } from 'node:fs';
+import { mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { createServer } from 'node:net';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { setTimeout as sleep } from 'node:timers/promises';
+import { Redis } from 'ioredis';
+import { gatherSweep } from '../coordinator/gather.js';
+import { cancelSweep } from '../coordinator/cancel.js';
+import { queueSettings, type QueueSettings } from '../coordinator/queue-session.js';
+import { submitSweep } from '../coordinator/submit-sweep.js';
+import { REDIS_URL_ENV } from '../shared/redis-url.js';
+
+const CLI = fileURLToPath(new URL('../../bin/recallscape.js', import.meta.url));
+const SUBMIT_JOBS = 100_000;
+const RUN_JOBS = Number(process.env['RECALLSCAPE_BENCH_QUEUE_JOBS'] ?? 10_000);
+
+function freePort(): Promise<number> {
+  return new Promise((done, fail) => {
+    const server = createServer();
+    server.on('error', fail);
+    server.listen(0, '127.0.0.1', () => {
+      const address = server.address();
+      server.close(() => done(typeof address === 'object' && address !== null ? address.port : 0));
+    });
+  });
+}
+
+interface Server {
+  readonly url: string;
+  readonly own: boolean;
+  stop(): Promise<void>;
+}
+
+async function startServer(): Promise<Server> {
+  const port = await freePort();
+  const child = spawn('redis-server', ['--port', String(port), '--bind', '127.0.0.1', '--save', '', '--appendonly', 'no'], { stdio: 'ignore' });
+  const spawned = await new Promise<boolean>((done) => {
+    child.once('error', () => done(false));
+    child.once('spawn', () => done(true));
+  });
+  if (!spawned) {
+    const url = process.env[REDIS_URL_ENV] ?? 'redis://127.0.0.1:6379';
+    return { url, own: false, stop: async () => undefined };
+  }
+  const url = `redis://127.0.0.1:${port}`;
+  for (let i = 0; i < 100; i++) {
+    const probe = new Redis(url, { lazyConnect: true, retryStrategy: () => null, maxRetriesPerRequest: 0 });
+    probe.on('error', () => undefined);
+    const ok = await probe.connect().then(
+      () => true,
+      () => false,
+    );
+    probe.disconnect();
+    if (ok) break;
+    await sleep(100);
+  }
+  return {
+    url,
+    own: true,
+    async stop() {
+      const closed = new Promise((done) => child.once('close', done));
+      child.kill('SIGTERM');
+      await closed;
+    },
+  };
+}
+
+async function usedMemory(client: Redis): Promise<number> {
+  // Let lazy frees finish so the figure is what the data holds.
+  await sleep(300);
+  const info = await client.info('memory');
+  return Number(/used_memory:(\d+)/.exec(info)?.[1] ?? NaN);
+}
+
+function startWorker(url: string, settings: QueueSettings, out: string, prefetch: number): { child: ChildProcess; ready: Promise<void> } {
+  const child = spawn(process.execPath, [CLI, 'worker', '--redis', url, '--threads', '1', '--prefetch', String(prefetch), '--out', out, '--queue', settings.queue.name, '--prefix', settings.queue.prefix], {
+    stdio: ['ignore', 'ignore', 'pipe'],
+    env: { ...process.env, RECALLSCAPE_LOG_LEVEL: 'info' },
+  });
+  const ready = new Promise<void>((done, fail) => {
+    let text = '';
+    child.stderr?.on('data', (d: Buffer) => {
+      text += d.toString();
+      if (text.includes('worker ready')) done();
+    });
+    child.once('close', () => fail(new Error(`worker exited early: ${text.slice(-500)}`)));
+  });
+  return { child, ready };
+}
+
+async function stopWorker(child: ChildProcess): Promise<void> {
+  if (child.exitCode !== null) return;
+  const closed = new Promise((done) => child.once('close', done));
+  child.kill('SIGTERM');
+  await closed;
+}
+
+const ms = (t0: number): number => performance.now() - t0;
+
+async function throughput(url: string, client: Redis, workers: number, prefetch: number, root: string, file: string): Promise<void> {
+  const tag = randomBytes(3).toString('hex');
+  const settings = queueSettings({ redis: url, queue: `bench-${tag}`, prefix: `rsb${tag}`, connectTimeout: '10000' });
+  const out = join(root, `run-${workers}-${prefetch}`);
+  const procs = Array.from({ length: workers }, () => startWorker(url, settings, out, prefetch));
+  await Promise.all(procs.map((p) => p.ready));
+  const t0 = performance.now();
+  await submitSweep(file, out, settings, undefined);
+  const completedKey = `${settings.queue.prefix}:${settings.queue.name}:completed`;
+  while ((await client.zcard(completedKey)) < RUN_JOBS) await sleep(50);
+  const wall = ms(t0) / 1000;
+  // finishedOn scores: rate between the first and last finished job, without start-up and submit.
+  const first = Number((await client.zrange(completedKey, 0, '0', 'WITHSCORES'))[1]);
+  const last = Number((await client.zrange(completedKey, -1, '-1', 'WITHSCORES'))[1]);
+  await Promise.all(procs.map((p) => stopWorker(p.child)));
+  const steady = (RUN_JOBS - 1) / ((last - first) / 1000);
+  console.log(
+    `  ${workers} worker(s) x 1 thread, prefetch ${prefetch}: ${steady.toFixed(0)} jobs/s steady (${((1000 * workers) / steady).toFixed(2)} ms per job per worker), ` +
+      `${(RUN_JOBS / wall).toFixed(0)} jobs/s including submit (${RUN_JOBS} jobs in ${wall.toFixed(1)} s)`,
+  );
+  if (workers === 1 && prefetch === 0) {
+    const kept = await usedMemory(client);
+    const dir = join(out, 'bench-run');
+    const g = await gatherSweep(dir, settings, undefined);
+    const after = await usedMemory(client);
+    console.log(
+      `  finished sweep in Redis: ${((kept - after) / g.removed).toFixed(0)} bytes per completed job kept until gathered; ` +
+        `after gather ${g.removed} jobs freed, the queue keeps ${((after - baseline) / 2 ** 20).toFixed(2)} MB (events stream and metadata, independent of sweep size)`,
+    );
+  }
+  await deleteQueue(client, settings.queue.prefix);
+}
+
+let baseline = 0;
+
+/** Median time of a 300-byte append plus fdatasync in `dir`, the durability cost a worker pays per job. */
+async function syncLatency(dir: string): Promise<number> {
+  const fd = openSync(join(dir, 'sync-probe'), 'a');
+  const times: number[] = [];
+  try {
+    for (let i = 0; i < 100; i++) {
+      const t0 = performance.now();
+      writeSync(fd, `${'x'.repeat(299)}\n`);
+      fdatasyncSync(fd);
+      times.push(performance.now() - t0);
+    }
+  } finally {
+    closeSync(fd);
+  }
+  times.sort((a, b) => a - b);
+  return times[50] ?? NaN;
+}
+
+async function deleteQueue(client: Redis, prefix: string): Promise<void> {
+  let cursor = '0';
+  do {
+    const [next, keys] = await client.scan(cursor, 'MATCH', `${prefix}:*`, 'COUNT', 1000);
+    cursor = next;
+    if (keys.length > 0) await client.del(...keys);
+  } while (cursor !== '0');
+}
+
 export async function run(): Promise<void> {
-  console.log('(section queue not written yet)');
+  const server = await startServer();
+  const root = await mkdtemp(join(tmpdir(), 'rs-bench-queue-'));
+  const client = new Redis(server.url, { maxRetriesPerRequest: 2 });
+  const tag = randomBytes(3).toString('hex');
+  const prefix = `rsb${tag}`;
+  try {
+    console.log(`  Redis: ${server.own ? 'a redis-server of its own' : 'the shared server (memory figures include other traffic)'}; no-op model`);
+    baseline = await usedMemory(client);
+
+    const big = join(root, 'big.yaml');
+    await writeFile(big, `name: bench-submit\nmodel: no-op\nreplicates: ${SUBMIT_JOBS / 100}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`);
+    const settings = queueSettings({ redis: server.url, queue: `bench-${tag}`, prefix, connectTimeout: '10000' });
+    let t0 = performance.now();
+    const first = await submitSweep(big, join(root, 'submit'), settings, undefined);
+    const firstMs = ms(t0);
+    const waiting = await usedMemory(client);
+    t0 = performance.now();
+    const second = await submitSweep(big, join(root, 'submit'), settings, undefined);
+    const secondMs = ms(t0);
+    console.log(`  submit ${first.enqueued} jobs: ${(firstMs / 1000).toFixed(2)} s (${(first.enqueued / (firstMs / 1000)).toFixed(0)} jobs/s)`);
+    console.log(`  submit the same sweep again: ${(secondMs / 1000).toFixed(2)} s, ${second.enqueued} added, ${second.inQueue} already queued`);
+    console.log(`  Redis memory: ${((waiting - baseline) / (first.enqueued / 1000) / 1024).toFixed(1)} KiB per 1,000 waiting jobs (${((waiting - baseline) / 2 ** 20).toFixed(1)} MB for ${first.enqueued})`);
+    t0 = performance.now();
+    const cancelled = await cancelSweep(join(root, 'submit', 'bench-submit'), settings, undefined);
+    console.log(`  cancel ${cancelled.removed} waiting jobs: ${(ms(t0) / 1000).toFixed(2)} s`);
+    await deleteQueue(client, prefix);
+
+    const small = join(root, 'run.yaml');
+    await writeFile(small, `name: bench-run\nmodel: no-op\nreplicates: ${Math.max(1, Math.round(RUN_JOBS / 100))}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`);
+    console.log(`  queue path, ${RUN_JOBS} no-op jobs (records fdatasync'ed before each acknowledgement):`);
+    console.log(`  (one append + fdatasync on this disk takes ${(await syncLatency(root)).toFixed(2)} ms now: part of every job's overhead)`);
+    baseline = await usedMemory(client);
+    for (const prefetch of [0, 4]) {
+      await throughput(server.url, client, 1, prefetch, root, small);
+      await throughput(server.url, client, 2, prefetch, root, small);
+    }
+  } finally {
+    await deleteQueue(client, prefix).catch(() => undefined);
+    client.disconnect();
+    await server.stop();
+    await rm(root, { recursive: true, force: true });
+  }
 }

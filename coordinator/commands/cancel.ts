@@ -1,11 +1,32 @@
 import type { Command } from 'commander';
+import { createLogger } from '../../shared/logger.js';
+import { action } from '../cli-support.js';
+import { cancelSweep } from '../cancel.js';
+import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+interface CancelOptions extends QueueCliOptions {
+  readonly json?: boolean;
+}
+
 export function registerCancel(program: Command): void {
-  program
-    .command('cancel')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape cancel is not built yet');
-    });
+  addQueueOptions(
+    program
+      .command('cancel')
+      .argument('<dir>', 'the sweep folder (<results root>/<name>)')
+      .description('Remove the sweep\'s waiting jobs from the queue; running jobs finish and keep their results (`requeue` resumes)')
+      .option('--json', 'print the counts as one JSON object'),
+  ).action(
+    action(async (dir: string, options: CancelOptions) => {
+      const settings = queueSettings(options);
+      const logger = createLogger({ name: 'cancel' });
+      const r = await cancelSweep(dir, settings, logger);
+      if (options.json === true) {
+        process.stdout.write(`${JSON.stringify(r)}\n`);
+        return;
+      }
+      process.stdout.write(
+        `sweep      ${r.name}\nremoved    ${r.removed} waiting job(s)\nrunning    ${r.active} job(s) will finish and keep their results\n`,
+      );
+    }),
+  );
 }

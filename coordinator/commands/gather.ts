@@ -1,11 +1,38 @@
 import type { Command } from 'commander';
+import { createLogger } from '../../shared/logger.js';
+import { action } from '../cli-support.js';
+import { gatherSweep } from '../gather.js';
+import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+interface GatherOptions extends QueueCliOptions {
+  readonly json?: boolean;
+}
+
 export function registerGather(program: Command): void {
-  program
-    .command('gather')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape gather is not built yet');
-    });
+  addQueueOptions(
+    program
+      .command('gather')
+      .argument('<dir>', 'the sweep folder (<results root>/<name>)')
+      .description('Copy records of finished jobs held in Redis into this folder, then free them in Redis (for workers without a shared disk)')
+      .option('--json', 'print the counts as one JSON object'),
+  ).action(
+    action(async (dir: string, options: GatherOptions) => {
+      const settings = queueSettings(options);
+      const logger = createLogger({ name: 'gather' });
+      const r = await gatherSweep(dir, settings, logger);
+      if (options.json === true) {
+        process.stdout.write(`${JSON.stringify(r)}\n`);
+        return;
+      }
+      const lines = [
+        `sweep      ${r.name}`,
+        `found      ${r.found} finished job(s) in Redis`,
+        `copied     ${r.copied} record(s)${r.writer === null ? '' : ` into results/${r.writer}.ndjson`}`,
+        `on disk    ${r.alreadyOnDisk} already there`,
+        `freed      ${r.removed} job(s) removed from Redis`,
+      ];
+      if (r.rejected > 0) lines.push(`rejected   ${r.rejected} return value(s) that are not records of this sweep (left in Redis)`);
+      process.stdout.write(`${lines.join('\n')}\n`);
+    }),
+  );
 }

@@ -1,11 +1,138 @@
+import { setTimeout as sleep } from 'node:timers/promises';
+import cliProgress from 'cli-progress';
 import type { Command } from 'commander';
+import { createLogger } from '../../shared/logger.js';
+import { ResultStore } from '../../shared/store/result-store.js';
+import { action } from '../cli-support.js';
+import { formatDuration } from '../progress-display.js';
+import { sweepProgress, type ProgressSnapshot } from '../queue-progress.js';
+import { addQueueOptions, openQueueSession, optionalQueueSettings, type QueueCliOptions, type QueueSession } from '../queue-session.js';
+import { asServiceError } from '../redis-connect.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+interface ProgressOptions extends QueueCliOptions {
+  readonly follow?: boolean;
+  readonly json?: boolean;
+}
+
+const FOLLOW_INTERVAL_MS = 2_000;
+
 export function registerProgress(program: Command): void {
-  program
-    .command('progress')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape progress is not built yet');
-    });
+  addQueueOptions(
+    program
+      .command('progress')
+      .argument('<dir>', 'the sweep folder (<results root>/<name>)')
+      .description('How far a sweep is: finished jobs from the result files, waiting/running/failed jobs from the queue, rate and time left')
+      .option('--follow', 'redraw a live progress bar every 2 s until the sweep is finished (Ctrl-C stops watching)')
+      .option('--json', 'print the figures as one JSON object'),
+    false,
+  ).action(
+    action(async (dir: string, options: ProgressOptions) => {
+      const settings = optionalQueueSettings(options);
+      const store = ResultStore.open(dir);
+      const sweep = await store.readSweep();
+      const logger = createLogger({ name: 'progress' });
+      const session: QueueSession | undefined = settings === undefined ? undefined : await openQueueSession(settings, logger);
+      const snapshot = async (): Promise<ProgressSnapshot> => {
+        try {
+          return await sweepProgress(store, sweep, session === undefined ? undefined : { client: session.client, target: session.settings.queue });
+        } catch (error) {
+          throw settings === undefined ? error : asServiceError(error, settings.redis);
+        }
+      };
+      try {
+        if (options.follow === true) {
+          await follow(snapshot);
+        } else {
+          const s = await snapshot();
+          process.stdout.write(options.json === true ? `${JSON.stringify(s)}\n` : describe(s));
+        }
+      } finally {
+        await session?.close();
+      }
+    }),
+  );
+}
+
+function percent(part: number, whole: number): string {
+  return whole === 0 ? '100%' : `${Math.floor((100 * part) / whole)}%`;
+}
+
+export function describe(s: ProgressSnapshot): string {
+  const lines = [`sweep     ${s.name} (hash ${s.hash.slice(0, 16)})`, `planned   ${s.planned}`];
+  let finished = `finished  ${s.finished} (${percent(s.finished, s.planned)})`;
+  if (s.queue !== null && s.queue.finishedNotGathered > 0) {
+    finished += `: ${s.onDisk} on disk, ${s.queue.finishedNotGathered} only in Redis (\`recallscape gather ${s.dir}\` copies them here)`;
+  }
+  lines.push(finished);
+  if (s.queue !== null) {
+    lines.push(`queue     waiting ${s.queue.waiting}, active ${s.queue.active}, delayed ${s.queue.delayed} (retry backoff), failed ${s.queue.failed}`);
+  } else {
+    lines.push('queue     (not asked: give --redis URL to see waiting and running jobs)');
+  }
+  const rate = s.perMinute === null ? 'unknown yet' : `${s.perMinute.toFixed(s.perMinute >= 100 ? 0 : 1)} jobs/min`;
+  const eta = s.etaSeconds === null ? '?' : formatDuration(s.etaSeconds);
+  lines.push(`rate      ${rate}, time left ~${eta}`);
+  const kinds = Object.entries(s.failuresByKind).map(([kind, n]) => `${kind} ${n}`);
+  lines.push(
+    kinds.length === 0
+      ? 'failures  none recorded here'
+      : `failures  ${kinds.join(', ')} attempts; ${s.failingJobs} job(s) still without a result${s.queue !== null && s.queue.failed > 0 ? ` (\`recallscape requeue ${s.dir} --failed\` retries them)` : ''}`,
+  );
+  if (s.warnings > 0) lines.push(`warnings  ${s.warnings} damaged or conflicting lines in the result files`);
+  return `${lines.join('\n')}\n`;
+}
+
+/** One line for --follow when stdout is not a terminal (a log file, a pipe). */
+export function followLine(s: ProgressSnapshot): string {
+  const q = s.queue;
+  const queue = q === null ? '' : ` | waiting ${q.waiting} | active ${q.active} | delayed ${q.delayed} | failed ${q.failed}`;
+  const rate = s.perMinute === null ? '?' : s.perMinute.toFixed(1);
+  const eta = s.etaSeconds === null ? '?' : formatDuration(s.etaSeconds);
+  return `finished ${s.finished}/${s.planned} (${percent(s.finished, s.planned)})${queue} | ${rate} jobs/min | left ~${eta}`;
+}
+
+async function follow(snapshot: () => Promise<ProgressSnapshot>): Promise<void> {
+  let stop = false;
+  const onSignal = (): void => {
+    stop = true;
+  };
+  process.once('SIGINT', onSignal);
+  // A live bar on a terminal; elsewhere one plain line per redraw.
+  const bar =
+    process.stdout.isTTY === true
+      ? new cliProgress.SingleBar({
+          format: 'finished [{bar}] {percentage}% {value}/{total} | waiting {waiting} | active {active} | failed {failed} | {rate}/min | left ~{timeLeft}',
+          barCompleteChar: '#',
+          barIncompleteChar: '.',
+          hideCursor: true,
+          fps: 1,
+        })
+      : undefined;
+  let last: ProgressSnapshot | undefined;
+  try {
+    for (let first = true; ; first = false) {
+      const s = await snapshot();
+      last = s;
+      if (bar === undefined) {
+        process.stdout.write(`${followLine(s)}\n`);
+      } else {
+        const payload = {
+          waiting: s.queue?.waiting ?? '?',
+          active: s.queue?.active ?? '?',
+          failed: s.queue?.failed ?? s.failingJobs,
+          rate: s.perMinute === null ? '?' : s.perMinute.toFixed(1),
+          timeLeft: s.etaSeconds === null ? '?' : formatDuration(s.etaSeconds),
+        };
+        if (first) bar.start(s.planned, s.finished, payload);
+        else bar.update(s.finished, payload);
+      }
+      if (s.finished >= s.planned || stop) break;
+      for (let waited = 0; waited < FOLLOW_INTERVAL_MS && !stop; waited += 200) await sleep(200);
+      if (stop) break;
+    }
+  } finally {
+    bar?.stop();
+    process.removeListener('SIGINT', onSignal);
+  }
+  if (last !== undefined) process.stdout.write(describe(last));
 }

@@ -1,11 +1,41 @@
 import type { Command } from 'commander';
+import { createLogger } from '../../shared/logger.js';
+import { action } from '../cli-support.js';
+import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
+import { requeueSweep } from '../requeue.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+interface RequeueOptions extends QueueCliOptions {
+  readonly failed?: boolean;
+  readonly json?: boolean;
+}
+
 export function registerRequeue(program: Command): void {
-  program
-    .command('requeue')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape requeue is not built yet');
-    });
+  addQueueOptions(
+    program
+      .command('requeue')
+      .argument('<dir>', 'the sweep folder (<results root>/<name>)')
+      .description('Resume a sweep: queue every job that has no result and is not in the queue (also after Redis lost everything)')
+      .option('--failed', 'also give jobs in the failed set a fresh set of attempts')
+      .option('--json', 'print the counts as one JSON object'),
+  ).action(
+    action(async (dir: string, options: RequeueOptions) => {
+      const settings = queueSettings(options);
+      const logger = createLogger({ name: 'requeue' });
+      const r = await requeueSweep(dir, settings, options.failed === true, logger);
+      if (options.json === true) {
+        process.stdout.write(`${JSON.stringify(r)}\n`);
+        return;
+      }
+      const lines = [
+        `sweep      ${r.name}`,
+        `planned    ${r.planned}`,
+        `done       ${r.done} (results on disk)`,
+        `in queue   ${r.inQueue} (left as they are)`,
+      ];
+      if (options.failed === true) lines.push(`retried    ${r.retried} failed job(s) with fresh attempts`);
+      else if (r.failedKept > 0) lines.push(`failed     ${r.failedKept} left in the failed set (add --failed to retry them)`);
+      lines.push(`added      ${r.enqueued}`);
+      process.stdout.write(`${lines.join('\n')}\n`);
+    }),
+  );
 }

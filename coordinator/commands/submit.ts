@@ -1,11 +1,43 @@
 import type { Command } from 'commander';
+import { createLogger } from '../../shared/logger.js';
+import { action } from '../cli-support.js';
+import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
+import { submitSweep, type SubmitResult } from '../submit-sweep.js';
 
-// Placeholder until the command is built; it refuses to pretend.
+interface SubmitOptions extends QueueCliOptions {
+  readonly out: string;
+  readonly json?: boolean;
+}
+
 export function registerSubmit(program: Command): void {
-  program
-    .command('submit')
-    .description('(not built yet)')
-    .action(() => {
-      throw new Error('recallscape submit is not built yet');
-    });
+  addQueueOptions(
+    program
+      .command('submit')
+      .argument('<file>', 'sweep file (YAML or JSON)')
+      .description('Queue every job of a sweep that has no result yet, for workers on any machine; safe to repeat')
+      .option('--out <dir>', 'results root; the sweep gets the folder <dir>/<name>', 'results')
+      .option('--json', 'print the counts as one JSON object'),
+  ).action(
+    action(async (file: string, options: SubmitOptions) => {
+      const settings = queueSettings(options);
+      const logger = createLogger({ name: 'submit' });
+      const result = await submitSweep(file, options.out, settings, logger);
+      process.stdout.write(options.json === true ? `${JSON.stringify(result)}\n` : describe(result, settings.queue.name));
+    }),
+  );
+}
+
+function describe(r: SubmitResult, queue: string): string {
+  const lines = [
+    `sweep      ${r.name}`,
+    `hash       ${r.hash}`,
+    `folder     ${r.dir}`,
+    `planned    ${r.planned}`,
+    `done       ${r.done} (results on disk)`,
+    `in queue   ${r.inQueue} (already in Redis, waiting, running or not yet gathered)`,
+  ];
+  if (r.failedKept > 0) lines.push(`failed     ${r.failedKept} (in the failed set; \`recallscape requeue ${r.dir} --failed\` tries them again)`);
+  lines.push(`added      ${r.enqueued} to queue "${queue}"`);
+  if (r.enqueued + r.inQueue > 0) lines.push(`next       start workers: recallscape worker --redis URL --out <results root>`);
+  return `${lines.join('\n')}\n`;
 }

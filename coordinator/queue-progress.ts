@@ -1,0 +1,137 @@
+import type { Redis } from 'ioredis';
+import { jobIdPrefix, keyOfJobId, stateRedisKey, type QueueTarget } from '../shared/queue-names.js';
+import type { FailureKind } from '../shared/schemas/records.js';
+import type { ResultStore, StoreWarning } from '../shared/store/result-store.js';
+import { countJobs } from '../shared/sweep/expand.js';
+import type { LoadedSweep } from '../shared/sweep/load.js';
+import { collectSweepIds, SCAN_PAGE, WAITING_STATES } from './queue-scan.js';
+
+export interface QueueSide {
+  readonly waiting: number;
+  readonly active: number;
+  readonly delayed: number;
+  readonly failed: number;
+  /** Finished jobs whose record is only in Redis so far (no shared disk; `gather` copies them). */
+  readonly finishedNotGathered: number;
+}
+
+export interface ProgressSnapshot {
+  readonly name: string;
+  readonly hash: string;
+  readonly dir: string;
+  readonly planned: number;
+  /** Jobs with a record on disk. */
+  readonly onDisk: number;
+  /** Jobs finished anywhere: on disk, or completed in Redis and not yet gathered. */
+  readonly finished: number;
+  readonly queue: QueueSide | null;
+  /** Finished jobs per minute over the latest stretch of work (up to 10 minutes), or null if unknown. */
+  readonly perMinute: number | null;
+  /** Seconds until every planned job is finished at that rate, or null. */
+  readonly etaSeconds: number | null;
+  /** Failed attempts recorded in failures/ shards, by kind. */
+  readonly failuresByKind: Partial<Record<FailureKind, number>>;
+  /** Jobs that failed at least once and still have no result. */
+  readonly failingJobs: number;
+  readonly warnings: number;
+}
+
+/** Rate window: recent enough to follow a change in the number of workers. */
+const RATE_WINDOW_MS = 10 * 60_000;
+
+/** Finished jobs per minute from finish times, over the last stretch of work. */
+export function ratePerMinute(finishTimes: readonly number[]): number | null {
+  if (finishTimes.length < 2) return null;
+  // Loops, not Math.max(...xs): a sweep may have more finish times than a call has arguments.
+  let last = -Infinity;
+  for (const t of finishTimes) if (t > last) last = t;
+  let first = Infinity;
+  let count = 0;
+  for (const t of finishTimes) {
+    if (t < last - RATE_WINDOW_MS) continue;
+    count++;
+    if (t < first) first = t;
+  }
+  if (count < 2) return null;
+  const span = last - first;
+  if (span < 1_000) return null;
+  // n finish times span n-1 intervals.
+  return ((count - 1) / span) * 60_000;
+}
+
+/**
+ * Everything `progress` shows, from the files and (when a client is given)
+ * from the queue, for this sweep's job ids only.
+ */
+export async function sweepProgress(store: ResultStore, sweep: LoadedSweep, redis?: { client: Redis; target: QueueTarget }): Promise<ProgressSnapshot> {
+  const planned = countJobs(sweep);
+  let warnings = 0;
+  const onWarning = (_w: StoreWarning): void => {
+    warnings++;
+  };
+  const doneKeys = new Set<string>();
+  const finishTimes: number[] = [];
+  for await (const record of store.records({ onWarning })) {
+    if (record.sweepHash !== sweep.hash) continue;
+    doneKeys.add(record.key);
+    const t = Date.parse(record.finishedAt);
+    if (Number.isFinite(t)) finishTimes.push(t);
+  }
+  const onDisk = doneKeys.size;
+  const failuresByKind: Partial<Record<FailureKind, number>> = {};
+  const failingKeys = new Set<string>();
+  for await (const failure of store.failures({ onWarning })) {
+    if (failure.sweepHash !== sweep.hash) continue;
+    failuresByKind[failure.kind] = (failuresByKind[failure.kind] ?? 0) + 1;
+    if (!doneKeys.has(failure.key)) failingKeys.add(failure.key);
+  }
+
+  let queue: QueueSide | null = null;
+  if (redis !== undefined) {
+    const { client, target } = redis;
+    const size = async (states: Parameters<typeof collectSweepIds>[3]): Promise<number> => (await collectSweepIds(client, target, sweep.hash, states)).size;
+    // Completed jobs carry their finish time as the sorted-set score: rate and totals without reading records.
+    let finishedNotGathered = 0;
+    const prefix = jobIdPrefix(sweep.hash);
+    const completedKey = stateRedisKey(target, 'completed');
+    for (let start = 0; ; start += SCAN_PAGE) {
+      const page = await client.zrange(completedKey, start, String(start + SCAN_PAGE - 1), 'WITHSCORES');
+      for (let i = 0; i + 1 < page.length; i += 2) {
+        const id = page[i] as string;
+        if (!id.startsWith(prefix)) continue;
+        const key = keyOfJobId(id);
+        if (key === undefined || doneKeys.has(key)) continue;
+        doneKeys.add(key);
+        finishedNotGathered++;
+        finishTimes.push(Number(page[i + 1]));
+      }
+      if (page.length < 2 * SCAN_PAGE) break;
+    }
+    queue = {
+      waiting: await size(WAITING_STATES),
+      active: await size(['active']),
+      delayed: await size(['delayed']),
+      failed: await size(['failed']),
+      finishedNotGathered,
+    };
+  }
+  for (const key of doneKeys) failingKeys.delete(key);
+  const finished = doneKeys.size;
+  const perMinute = ratePerMinute(finishTimes);
+  const left = Math.max(0, planned - finished);
+  const etaSeconds = left === 0 ? 0 : perMinute === null ? null : (left / perMinute) * 60;
+  return {
+    name: sweep.spec.name,
+    hash: sweep.hash,
+    dir: store.dir,
+    planned,
+    onDisk,
+    finished,
+    queue,
+    perMinute,
+    etaSeconds,
+    failuresByKind,
+    failingJobs: failingKeys.size,
+    warnings,
+  };
+}

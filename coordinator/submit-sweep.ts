@@ -1,0 +1,29 @@
+import type { Logger } from '../shared/logger.js';
+import { ResultStore } from '../shared/store/result-store.js';
+import { loadSweepFile } from '../shared/sweep/load.js';
+import { enqueueMissing, type EnqueueReport } from './enqueue-missing.js';
+import { withQueue, type QueueSettings } from './queue-session.js';
+
+export interface SubmitResult extends EnqueueReport {
+  readonly name: string;
+  readonly hash: string;
+  readonly dir: string;
+}
+
+/**
+ * Validate the sweep file (bad input -> InputError before Redis or the disk
+ * is touched), reach Redis (ServiceError before the disk is touched), write
+ * or check sweep.json, then enqueue every job without a result. Running it
+ * again, or after it was killed half-way, only adds what is missing.
+ */
+export async function submitSweep(file: string, resultsRoot: string, settings: QueueSettings, logger: Logger | undefined, onChunk?: (r: EnqueueReport) => void): Promise<SubmitResult> {
+  const sweep = await loadSweepFile(file);
+  return withQueue(settings, logger, async ({ client, queue }) => {
+    const store = ResultStore.at(resultsRoot, sweep.spec.name);
+    await store.prepare(sweep);
+    const done = await store.completedKeys();
+    const report = await enqueueMissing(client, queue, settings.queue, sweep, done, onChunk === undefined ? {} : { onChunk });
+    logger?.info({ sweep: sweep.spec.name, enqueued: report.enqueued, redis: settings.redis.masked, queue: settings.queue.name }, 'sweep submitted');
+    return { ...report, name: sweep.spec.name, hash: sweep.hash, dir: store.dir };
+  });
+}

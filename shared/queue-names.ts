@@ -1,0 +1,66 @@
+import { z } from 'zod';
+import { InputError } from './errors.js';
+
+/** One queue serves every sweep, so any worker serves any sweep. */
+export const DEFAULT_QUEUE_NAME = 'recallscape';
+/** BullMQ's key prefix: every Redis key of the queue starts with `<prefix>:<queue>:`. */
+export const DEFAULT_QUEUE_PREFIX = 'rs';
+
+/** BullMQ builds Redis keys by joining with ':', so neither part may contain one. */
+const NamePartSchema = z
+  .string()
+  .min(1, 'must not be empty')
+  .max(64, 'at most 64 characters')
+  .regex(/^[A-Za-z0-9._-]+$/, 'letters, digits, ".", "_" and "-" only');
+
+export interface QueueTarget {
+  readonly name: string;
+  readonly prefix: string;
+}
+
+/** Check `--queue` and `--prefix`; InputError (exit 2) naming the option. */
+export function queueTarget(name: string, prefix: string): QueueTarget {
+  for (const [option, value] of [['--queue', name], ['--prefix', prefix]] as const) {
+    const checked = NamePartSchema.safeParse(value);
+    if (!checked.success) {
+      const message = checked.error.issues.map((i) => i.message).join('; ');
+      throw new InputError(`${option}: ${message} (got "${value}")`, [{ path: option, message }]);
+    }
+  }
+  return { name, prefix };
+}
+
+/** Number of sweep-hash hex digits in a job id: 64 bits keep sweeps apart in one queue. */
+export const JOB_ID_HASH_DIGITS = 16;
+
+/**
+ * BullMQ job id of a planned job: `<first 16 hex of sweep hash>-<job key>`.
+ * The dash makes it non-numeric (BullMQ treats integer-looking ids as its own
+ * counter values) and it contains no ':' (a key separator).
+ */
+export function jobIdFor(sweepHash: string, key: string): string {
+  return `${jobIdPrefix(sweepHash)}${key}`;
+}
+
+/** Every job id of a sweep starts with this. */
+export function jobIdPrefix(sweepHash: string): string {
+  if (!/^[0-9a-f]{16,}$/.test(sweepHash)) throw new RangeError(`not a sweep hash: "${sweepHash}"`);
+  return `${sweepHash.slice(0, JOB_ID_HASH_DIGITS)}-`;
+}
+
+const JOB_ID_PATTERN = /^([0-9a-f]{16})-([0-9a-f]{32})$/;
+
+/** The job key inside a job id of ours, or undefined for any other id. */
+export function keyOfJobId(id: string): string | undefined {
+  return JOB_ID_PATTERN.exec(id)?.[2];
+}
+
+/** Redis key of a job's hash, as BullMQ lays it out (`<prefix>:<queue>:<id>`). */
+export function jobRedisKey(target: QueueTarget, id: string): string {
+  return `${target.prefix}:${target.name}:${id}`;
+}
+
+/** Redis key of one of BullMQ's state sets/lists (`wait`, `active`, `failed`, ...). */
+export function stateRedisKey(target: QueueTarget, state: string): string {
+  return `${target.prefix}:${target.name}:${state}`;
+}

@@ -1,0 +1,147 @@
+import { mkdir, readdir, stat } from 'node:fs/promises';
+import { join, relative } from 'node:path';
+import { Queue } from 'bullmq';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { findModel } from '../../shared/models/registry.js';
+import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
+import { parseSweepText } from '../../shared/sweep/load.js';
+import { jobIdFor } from '../../shared/queue-names.js';
+import { ResultStore } from '../../shared/store/result-store.js';
+import { SHARED_REDIS, deleteKeys, inspector, readNdjson, removeDir, runCli, startCli, stopCli, tempDir, uniqueQueue, waitFor, type Running } from './helpers.js';
+
+// Jobs pushed straight into the queue, bypassing submit: the worker must treat them as untrusted.
+
+let base = '';
+let resultsRoot = '';
+const queue = uniqueQueue();
+let worker: Running;
+
+beforeAll(async () => {
+  base = await tempDir('hostile');
+  resultsRoot = join(base, 'deep', 'a', 'results');
+  await mkdir(resultsRoot, { recursive: true });
+  worker = startCli(['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', resultsRoot, ...queue.flags]);
+  await waitFor('the worker to be ready', async () => (worker.output().includes('worker ready') ? true : undefined), 60_000);
+});
+
+afterAll(async () => {
+  if (worker !== undefined) await stopCli(worker, 5_000);
+  await deleteKeys(SHARED_REDIS, queue.prefix);
+  await removeDir(base);
+});
+
+/** Every file below a folder, as paths relative to `base`. */
+async function filesUnder(folder: string): Promise<string[]> {
+  const out: string[] = [];
+  for (const entry of await readdir(folder, { recursive: true })) {
+    const full = join(folder, entry);
+    if ((await stat(full)).isFile()) out.push(relative(base, full));
+  }
+  return out;
+}
+
+const HASH = 'c0ffee'.padEnd(64, '0');
+const KEY = 'ab'.repeat(16);
+
+describe('a worker given hostile payloads', () => {
+  it('fails each one as invalid without retries, writes nothing outside the results root, and then serves a valid job', async () => {
+    const bcpnn = findModel('bcpnn-sequences');
+    const valid = parseSweepText('name: hostile-ok\nmodel: no-op\nfixed: { value: 4 }\n', 'inline');
+    const validJob = expandJobs(valid).next().value;
+    if (validJob === undefined) throw new Error('the valid sweep has no job');
+    const hostile: Record<string, unknown> = {
+      'wrong-types': { v: 1, sweep: { name: 42, hash: 'zz' }, key: 7, model: ['no-op'], params: 'x', point: null, replicate: -1, seed: 'seed' },
+      'huge-numbers': {
+        v: 1,
+        sweep: { name: 'hostile-big', hash: HASH },
+        key: KEY,
+        model: 'bcpnn-sequences',
+        modelVersion: bcpnn?.version ?? '?',
+        params: { hypercolumns: 1e12, minicolumns: 1e12 },
+        point: {},
+        replicate: 0,
+        seed: 1,
+      },
+      'path-in-name': { v: 1, sweep: { name: '../../etc/passwd', hash: HASH }, key: KEY, model: 'no-op', modelVersion: '1', params: {}, point: {}, replicate: 0, seed: 1 },
+      'huge-string': { v: 1, sweep: { name: 'hostile-str', hash: HASH }, key: KEY, model: 'm'.repeat(1_000_000), modelVersion: '1', params: {}, point: {}, replicate: 0, seed: 1 },
+      'not-an-object': 'rm -rf /',
+    };
+    const client = await inspector(SHARED_REDIS);
+    const q = new Queue(queue.name, { connection: client.duplicate(), prefix: queue.prefix });
+    try {
+      // The same retry policy submit uses, so "no retries" is the worker's decision.
+      const opts = { attempts: 4, backoff: { type: 'exponential', delay: 1_000 } };
+      for (const [id, data] of Object.entries(hostile)) await q.add('hostile', data, { ...opts, jobId: `hostile-${id}` });
+      await q.add('valid', toPayload(valid, validJob), { ...opts, jobId: 'valid-after' });
+
+      await waitFor('the valid job to complete', async () => ((await q.getJobState('valid-after')) === 'completed' ? true : undefined), 60_000, 250);
+      const expectations: Record<string, RegExp> = {
+        'wrong-types': /invalid.*payload\.sweep\.name/,
+        'huge-numbers': /invalid.*hypercolumns/,
+        'path-in-name': /invalid.*sweep\.name/,
+        'huge-string': /invalid.*payload\.model/,
+        'not-an-object': /invalid/,
+      };
+      for (const [id, pattern] of Object.entries(expectations)) {
+        const job = await q.getJob(`hostile-${id}`);
+        expect(await job?.getState(), id).toBe('failed');
+        expect(job?.failedReason, id).toMatch(pattern);
+        // Unrecoverable: one attempt although four were allowed.
+        expect(job?.attemptsMade, id).toBe(1);
+        expect((job?.failedReason ?? '').length, id).toBeLessThan(5_000);
+      }
+    } finally {
+      await q.close();
+      client.disconnect();
+    }
+
+    // Still alive and serving, and it wrote the valid record where it belongs.
+    expect(worker.child.exitCode).toBeNull();
+    const written = await readNdjson(join(resultsRoot, 'hostile-ok', 'results'));
+    expect(written.map((r) => r['key'])).toEqual([validJob.key]);
+    const files = await filesUnder(base);
+    for (const file of files) expect(file.startsWith(join('deep', 'a', 'results'))).toBe(true);
+    await expect(stat(join(base, 'deep', 'etc'))).rejects.toThrow();
+    // Only folders named by valid sweep names appear under the root.
+    expect((await readdir(resultsRoot)).every((n) => /^[a-z0-9._-]+$/.test(n) && !n.includes('..'))).toBe(true);
+  });
+});
+
+describe('requeue --failed', () => {
+  it('gives a job that failed for good a fresh start, and progress counts its failure by kind', async () => {
+    const text = 'name: retry-me\nmodel: no-op\nreplicates: 3\n';
+    const sweep = parseSweepText(text, 'inline');
+    const store = ResultStore.at(resultsRoot, 'retry-me');
+    await store.prepare(sweep);
+    const jobs = [...expandJobs(sweep)];
+    const broken = jobs[0];
+    if (broken === undefined) throw new Error('no job');
+    const client = await inspector(SHARED_REDIS);
+    const q = new Queue(queue.name, { connection: client.duplicate(), prefix: queue.prefix });
+    const flags = ['--redis', SHARED_REDIS, '--json', ...queue.flags];
+    try {
+      // The first job arrives asking for a model version no worker has: it fails without retries.
+      await q.add('retry-me', { ...toPayload(sweep, broken), modelVersion: '999' }, { jobId: jobIdFor(sweep.hash, broken.key), attempts: 4 });
+      await waitFor('the job to fail', async () => ((await q.getJobState(jobIdFor(sweep.hash, broken.key))) === 'failed' ? true : undefined), 60_000, 200);
+      const job = await q.getJob(jobIdFor(sweep.hash, broken.key));
+      expect(job?.failedReason).toMatch(/^unsupported: job needs no-op version 999/);
+
+      // Plain requeue leaves the failed job alone and queues the two others.
+      const plain = JSON.parse((await runCli(['requeue', store.dir, ...flags])).stdout) as Record<string, number>;
+      expect(plain).toMatchObject({ planned: 3, enqueued: 2, failedKept: 1, retried: 0 });
+      await waitFor('two results', async () => ((await readNdjson(store.resultsDir)).length === 2 ? true : undefined), 60_000, 200);
+      const before = JSON.parse((await runCli(['progress', store.dir, ...flags])).stdout) as Record<string, unknown>;
+      expect(before).toMatchObject({ planned: 3, finished: 2, failingJobs: 1, failuresByKind: { unsupported: 1 } });
+      expect((before['queue'] as Record<string, number>)['failed']).toBe(1);
+
+      const retried = JSON.parse((await runCli(['requeue', store.dir, '--failed', ...flags])).stdout) as Record<string, number>;
+      expect(retried).toMatchObject({ retried: 1, enqueued: 0 });
+      await waitFor('three results', async () => ((await readNdjson(store.resultsDir)).length === 3 ? true : undefined), 60_000, 200);
+      const keys = (await readNdjson(store.resultsDir)).map((r) => r['key']).sort();
+      expect(keys).toEqual(jobs.map((j) => j.key).sort());
+    } finally {
+      await q.close();
+      client.disconnect();
+    }
+  });
+});

@@ -1,0 +1,71 @@
+import { writeFile } from 'node:fs/promises';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { jobIdFor } from '../../shared/queue-names.js';
+import { expandJobs } from '../../shared/sweep/expand.js';
+import { loadSweepFile } from '../../shared/sweep/load.js';
+import { SHARED_REDIS, deleteKeys, inspector, removeDir, runCli, startCli, tempDir, uniqueQueue, waitFor } from './helpers.js';
+
+let root = '';
+const queue = uniqueQueue();
+
+beforeAll(async () => {
+  root = await tempDir('submit');
+});
+
+afterAll(async () => {
+  await deleteKeys(SHARED_REDIS, queue.prefix);
+  await removeDir(root);
+});
+
+const waitKey = `${queue.prefix}:${queue.name}:wait`;
+
+describe('submit', () => {
+  it('killed during a large submit and run again, leaves every job in the queue exactly once', async () => {
+    const file = join(root, 'big.yaml');
+    await writeFile(file, 'name: big-submit\nmodel: no-op\nseed: 1\nreplicates: 100\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n');
+    const out = join(root, 'results');
+    const client = await inspector(SHARED_REDIS);
+    try {
+      const first = startCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, ...queue.flags]);
+      await waitFor('some jobs in Redis', async () => ((await client.llen(waitKey)) >= 1_000 ? true : undefined), 90_000, 20);
+      first.child.kill('SIGKILL');
+      await first.exited;
+      const partial = await client.llen(waitKey);
+      // Killed part-way: the test is only meaningful if the first submit did not finish.
+      expect(partial).toBeLessThan(10_000);
+
+      const second = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags]);
+      expect(second.code, second.stderr).toBe(0);
+      const report = JSON.parse(second.stdout) as Record<string, number>;
+      expect(report['planned']).toBe(10_000);
+      expect(report['inQueue'] ?? 0).toBeGreaterThanOrEqual(partial);
+      expect((report['inQueue'] ?? 0) + (report['enqueued'] ?? 0)).toBe(10_000);
+
+      const ids = await client.lrange(waitKey, 0, -1);
+      expect(ids).toHaveLength(10_000);
+      expect(new Set(ids).size).toBe(10_000);
+      // Every planned job is there under its id (expected ids from the sweep module, not from submit).
+      const sweep = await loadSweepFile(file);
+      const expected = new Set([...expandJobs(sweep)].map((job) => jobIdFor(sweep.hash, job.key)));
+      expect(expected.size).toBe(10_000);
+      expect(ids.every((id) => expected.has(id))).toBe(true);
+
+      // A third submit adds nothing.
+      const third = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags]);
+      expect(JSON.parse(third.stdout)).toMatchObject({ enqueued: 0, inQueue: 10_000 });
+      expect(await client.llen(waitKey)).toBe(10_000);
+
+      // cancel removes them all, requeue puts them all back.
+      const dir = join(out, 'big-submit');
+      const cancelled = await runCli(['cancel', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags]);
+      expect(JSON.parse(cancelled.stdout)).toMatchObject({ removed: 10_000, active: 0 });
+      expect(await client.llen(waitKey)).toBe(0);
+      const requeued = await runCli(['requeue', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags]);
+      expect(JSON.parse(requeued.stdout)).toMatchObject({ enqueued: 10_000, done: 0 });
+      expect(await client.llen(waitKey)).toBe(10_000);
+    } finally {
+      client.disconnect();
+    }
+  });
+});
