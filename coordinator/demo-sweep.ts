@@ -1,3 +1,4 @@
+import YAML from 'yaml';
 import { parseSweepText, type LoadedSweep } from '../shared/sweep/load.js';
 
 /**
@@ -39,6 +40,14 @@ report: { x: patternOverlap, y: overlapLength, facet: tauZPre, metric: success }
 /** Where the copy of the demo sweep lives in the repository. */
 export const DEMO_SWEEP_EXAMPLE = 'examples/demo.yaml';
 
-export function demoSweep(): LoadedSweep {
-  return parseSweepText(DEMO_SWEEP_YAML, 'built-in demo');
+/**
+ * The demo sweep, or a smaller copy of it with fewer replicates per point for
+ * a quick look (its own folder name, since it is a different sweep).
+ */
+export function demoSweep(replicates?: number): LoadedSweep {
+  if (replicates === undefined) return parseSweepText(DEMO_SWEEP_YAML, 'built-in demo');
+  const doc = YAML.parse(DEMO_SWEEP_YAML) as { name: string; replicates: number };
+  doc.name = `${doc.name}-${replicates}x`;
+  doc.replicates = replicates;
+  return parseSweepText(JSON.stringify(doc), `built-in demo, ${replicates} replicates per point`);
 }

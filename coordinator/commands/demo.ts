@@ -9,12 +9,7 @@ import { MAX_THREADS, displayPath, executeSweep, shellWord } from './run.js';
 interface DemoFlags {
   readonly out: string;
   readonly threads?: string;
-}
-
-/** The demo ends with the report page of the finished sweep; returns its path. */
-async function buildDemoReport(dir: string): Promise<string | null> {
-  const report = await buildReport({ dir });
-  return report.indexHtml;
+  readonly replicates?: string;
 }
 
 export function registerDemo(program: Command): void {
@@ -23,27 +18,30 @@ export function registerDemo(program: Command): void {
     .description('Run the built-in demo sweep (recall of two overlapping sequences) on this machine, a couple of minutes on 2 cores')
     .option('--out <dir>', 'results root; the demo goes to <dir>/demo-overlap', 'results')
     .option('--threads <n>', 'worker threads (default: one per core)')
+    .option('--replicates <n>', 'trials per point for a quicker look (default 64; results go to demo-overlap-<n>x)')
     .action(
       action(async (flags: DemoFlags) => {
         const threads = flags.threads === undefined ? defaultThreadCount() : parseWholeNumber('--threads', flags.threads, 1, MAX_THREADS);
-        const sweep = demoSweep();
+        const replicates = flags.replicates === undefined ? undefined : parseWholeNumber('--replicates', flags.replicates, 1, 10_000);
+        const sweep = demoSweep(replicates);
         const words = ['recallscape', 'demo', '--out', flags.out];
         if (flags.threads !== undefined) words.push('--threads', String(threads));
+        if (replicates !== undefined) words.push('--replicates', String(replicates));
         const result = await executeSweep({
           sweep,
           root: flags.out,
           threads,
           resumeCommand: words.map(shellWord).join(' '),
           loggerName: 'demo',
+          reportHint: false,
         });
         if (result.stopped !== null) return;
-        const dir = displayPath(result.dir);
-        process.stdout.write(`demo results: ${dir}/ (sweep.json, results/, failures/)\n`);
-        const report = await buildDemoReport(result.dir);
+        // The demo ends with the report of the finished sweep.
+        const report = await buildReport({ dir: result.dir });
+        const diagrams = report.files.filter((f) => f.endsWith('.svg')).length;
         process.stdout.write(
-          report === null
-            ? `summary: run \`recallscape report ${shellWord(dir)}\` to write tables and phase diagrams to ${dir}/report/\n`
-            : `summary: ${displayPath(report)}\n`,
+          `report: ${displayPath(report.reportDir)}/ (${diagrams} phase diagrams as SVG and PNG, tables as CSV and Markdown)\n` +
+            (report.indexHtml === null ? '' : `open ${displayPath(report.indexHtml)} in a browser\n`),
         );
       }),
     );

@@ -32,6 +32,8 @@ export interface ExecuteOptions {
   /** The command that resumes this run, for the closing lines. */
   readonly resumeCommand: string;
   readonly loggerName: string;
+  /** Whether to end with the hint to build a report (the demo builds it itself). */
+  readonly reportHint?: boolean;
 }
 
 /**
@@ -86,7 +88,11 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
     lines.push(`failed jobs are retried when you run the same command again: ${options.resumeCommand}`);
     process.exitCode = EXIT_FAILURE;
   } else {
-    lines.push(`every job has a result. build a report with: recallscape report ${shellWord(dir)}`);
+    lines.push(
+      options.reportHint === false
+        ? 'every job has a result.'
+        : `every job has a result. build a report with: recallscape report ${shellWord(dir)}`,
+    );
     process.exitCode = EXIT_OK;
   }
   out.write(`${lines.join('\n')}\n`);

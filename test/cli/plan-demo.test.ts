@@ -81,4 +81,24 @@ describe('recallscape demo', () => {
     expect(stored.sweep.model).toBe('bcpnn-sequences');
     expect(Object.keys(stored.sweep.vary)).toEqual(['patternOverlap', 'overlapLength', 'tauZPre']);
   });
+
+  it('ends by building the report of the finished sweep and says where it is', async () => {
+    const result = await runCli(['demo', '--out', 'quick-out', '--threads', '2', '--replicates', '1'], dir);
+    expect(result.code).toBe(0);
+    expect(result.stdout).toContain('sweep demo-overlap-1x: 165 jobs planned');
+    expect(result.stdout).toContain('report: quick-out/demo-overlap-1x/report/ (3 phase diagrams');
+    expect(result.stdout).toContain('open quick-out/demo-overlap-1x/report/index.html in a browser');
+    const reportDir = join(dir, 'quick-out', 'demo-overlap-1x', 'report');
+    const files = (await readdir(reportDir)).sort();
+    // One diagram per tauZPre value of the demo sweep (50, 75, 100).
+    expect(files.filter((f) => f.endsWith('.svg'))).toEqual([
+      'phase-success-tauZPre-100.svg',
+      'phase-success-tauZPre-50.svg',
+      'phase-success-tauZPre-75.svg',
+    ]);
+    const csv = (await readFile(join(reportDir, 'points.csv'), 'utf8')).trim().split('\n');
+    expect(csv).toHaveLength(1 + 11 * 5 * 3);
+    const html = await readFile(join(reportDir, 'index.html'), 'utf8');
+    expect(html).toContain('165 of 165');
+  });
 });
