@@ -1,6 +1,6 @@
 import type { Logger } from '../shared/logger.js';
 import { ResultStore } from '../shared/store/result-store.js';
-import { loadSweepFile } from '../shared/sweep/load.js';
+import { loadSweepFile, type LoadedSweep } from '../shared/sweep/load.js';
 import { enqueueMissing, type EnqueueReport } from './enqueue-missing.js';
 import { withQueue, type QueueSettings } from './queue-session.js';
 
@@ -11,13 +11,13 @@ export interface SubmitResult extends EnqueueReport {
 }
 
 /**
- * Validate the sweep file (bad input -> InputError before Redis or the disk
+ * Validate the sweep file unless given a loaded sweep (bad input -> InputError before Redis or the disk
  * is touched), reach Redis (ServiceError before the disk is touched), write
  * or check sweep.json, then enqueue every job without a result. Running it
  * again, or after it was killed half-way, only adds what is missing.
  */
-export async function submitSweep(file: string, resultsRoot: string, settings: QueueSettings, logger: Logger | undefined, onChunk?: (r: EnqueueReport) => void): Promise<SubmitResult> {
-  const sweep = await loadSweepFile(file);
+export async function submitSweep(source: string | LoadedSweep, resultsRoot: string, settings: QueueSettings, logger: Logger | undefined, onChunk?: (r: EnqueueReport) => void): Promise<SubmitResult> {
+  const sweep = typeof source === 'string' ? await loadSweepFile(source) : source;
   return withQueue(settings, logger, async ({ client, queue }) => {
     const store = ResultStore.at(resultsRoot, sweep.spec.name);
     await store.prepare(sweep);

@@ -1,12 +1,15 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action } from '../cli-support.js';
+import { DEFAULT_JOB_LIMIT, loadSweepForCommand, parseWholeNumber } from '../plan-sweep.js';
 import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
 import { submitSweep, type SubmitResult } from '../submit-sweep.js';
 
 interface SubmitOptions extends QueueCliOptions {
   readonly out: string;
   readonly json?: boolean;
+  readonly maxJobs: string;
+  readonly yes?: boolean;
 }
 
 export function registerSubmit(program: Command): void {
@@ -16,12 +19,17 @@ export function registerSubmit(program: Command): void {
       .argument('<file>', 'sweep file (YAML or JSON)')
       .description('Queue every job of a sweep that has no result yet, for workers on any machine; safe to repeat')
       .option('--out <dir>', 'results root; the sweep gets the folder <dir>/<name>', 'results')
-      .option('--json', 'print the counts as one JSON object'),
+      .option('--json', 'print the counts as one JSON object')
+      .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
+      .option('--yes', 'queue the sweep even when it has more jobs than --max-jobs'),
   ).action(
     action(async (file: string, options: SubmitOptions) => {
       const settings = queueSettings(options);
+      // Bad files and oversized sweeps are refused before Redis or the disk is touched.
+      const maxJobs = parseWholeNumber('--max-jobs', options.maxJobs, 1);
+      const sweep = await loadSweepForCommand(file, { maxJobs, yes: options.yes === true });
       const logger = createLogger({ name: 'submit' });
-      const result = await submitSweep(file, options.out, settings, logger);
+      const result = await submitSweep(sweep, options.out, settings, logger);
       process.stdout.write(options.json === true ? `${JSON.stringify(result)}\n` : describe(result, settings.queue.name));
     }),
   );

@@ -1,4 +1,4 @@
-import { writeFile } from 'node:fs/promises';
+import { readdir, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { jobIdFor } from '../../shared/queue-names.js';
@@ -21,6 +21,28 @@ afterAll(async () => {
 const waitKey = `${queue.prefix}:${queue.name}:wait`;
 
 describe('submit', () => {
+  it('refuses a sweep over the job limit without --yes, touching neither Redis nor the disk', async () => {
+    const file = join(root, 'limit.yaml');
+    await writeFile(file, 'name: over-limit\nmodel: no-op\nseed: 1\nreplicates: 10\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n');
+    const out = join(root, 'limit-results');
+    const client = await inspector(SHARED_REDIS);
+    try {
+      const refused = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--max-jobs', '50', ...queue.flags]);
+      expect(refused.code).toBe(2);
+      expect(refused.stderr).toContain('100 jobs');
+      expect(refused.stderr).toContain('--yes');
+      expect(await client.keys(`${queue.prefix}:*`)).toEqual([]);
+      await expect(readdir(out)).rejects.toThrow(/ENOENT/);
+
+      const accepted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--max-jobs', '50', '--yes', '--json', ...queue.flags]);
+      expect(accepted.code, accepted.stderr).toBe(0);
+      expect(JSON.parse(accepted.stdout)).toMatchObject({ planned: 100, enqueued: 100 });
+      await runCli(['cancel', join(out, 'over-limit'), '--redis', SHARED_REDIS, ...queue.flags]);
+    } finally {
+      client.disconnect();
+    }
+  });
+
   it('killed during a large submit and run again, leaves every job in the queue exactly once', async () => {
     const file = join(root, 'big.yaml');
     await writeFile(file, 'name: big-submit\nmodel: no-op\nseed: 1\nreplicates: 100\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n');
