@@ -1,5 +1,5 @@
 import { resolve, sep } from 'node:path';
-import { UnrecoverableError, Worker, type Job } from 'bullmq';
+import { UnrecoverableError, WaitingError, Worker, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
 import type { Logger } from '../shared/logger.js';
 import type { QueueTarget } from '../shared/queue-names.js';
@@ -63,7 +63,7 @@ export class QueueConsumer {
 
   constructor(private readonly options: QueueConsumerOptions) {
     this.root = resolve(options.resultsRoot);
-    this.worker = new Worker(options.queue.name, (job) => this.process(job), {
+    this.worker = new Worker(options.queue.name, (job, token) => this.process(job, token), {
       connection: options.connection,
       prefix: options.queue.prefix,
       concurrency: options.pool.threads + (options.prefetch ?? 0),
@@ -107,15 +107,6 @@ export class QueueConsumer {
     this.closeWriters();
   }
 
-  /**
-   * Stop at once: running jobs are not acknowledged, so their locks expire
-   * and another worker takes them over.
-   */
-  async closeNow(): Promise<void> {
-    await this.worker.close(true);
-    this.closeWriters();
-  }
-
   private closeWriters(): void {
     for (const writer of this.writers.values()) {
       try {
@@ -127,7 +118,7 @@ export class QueueConsumer {
     this.writers.clear();
   }
 
-  private async process(job: Job): Promise<ResultRecord> {
+  private async process(job: Job, token: string | undefined): Promise<ResultRecord> {
     this.options.logger.debug({ job: job.id, attempt: job.attemptsMade + 1 }, 'job started');
     // The payload is untrusted: check the one field used for a path before anything else.
     const folder = this.sweepFolderOf(job.data);
@@ -145,10 +136,13 @@ export class QueueConsumer {
     try {
       outcome = await this.options.pool.run(job.data);
     } catch (error) {
-      // The pool is shutting down or broken: the job may run elsewhere.
+      // The pool is shutting down or broken: the job never ran here. Hand it
+      // back to the queue without using one of its attempts, so a worker in a
+      // crash loop cannot exhaust other jobs' retries.
       const message = error instanceof Error ? error.message : String(error);
       if (error instanceof Error && error.name === 'PoolBroken') this.options.onFatal?.(message);
-      throw new Error(`crashed: ${message}`);
+      await job.moveToWait(token);
+      throw new WaitingError(`not run here (${message}); back in the queue`);
     }
     if (outcome.ok) {
       const writer = this.writerFor(folder);

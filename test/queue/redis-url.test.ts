@@ -53,6 +53,25 @@ describe('Redis URLs', () => {
     expect(maskRedisUrl('redis://:top secret@host:bad')).toBe('redis://:***@host:bad');
     expect(maskRedisUrl('redis://user:pw@h/0')).toBe('redis://user:***@h/0');
     expect(maskRedisUrl('redis://h:6379')).toBe('redis://h:6379');
+    // Raw passwords with '/', '#', '?' or '@' break URL parsing: the error about it must not show them.
+    expect(maskRedisUrl('redis://:ab/cd@127.0.0.1:1')).toBe('redis://:***@127.0.0.1:1');
+    expect(maskRedisUrl('redis://:ab#c?d@host')).toBe('redis://:***@host');
+    expect(maskRedisUrl('redis://:p@ss@host')).toBe('redis://:***@host');
+    expect(maskRedisUrl('redis:/:secret@host')).toBe('***@host');
+    expect(maskRedisUrl('redis://secret@host')).toBe('redis://***@host');
+    for (const raw of ['redis://:zq9/xk7@127.0.0.1:1', 'redis://:zq9#xk7@127.0.0.1', 'redis://:zq9?xk7@127.0.0.1']) {
+      const error = (() => {
+        try {
+          parseRedisUrl(raw);
+          return undefined;
+        } catch (e) {
+          return e as Error;
+        }
+      })();
+      expect(error?.name).toBe('InputError');
+      expect(error?.message).not.toContain('zq9');
+      expect(error?.message).not.toContain('xk7');
+    }
   });
 
   it('takes the URL from the option first, then from RECALLSCAPE_REDIS_URL, and asks for one when neither is set', () => {
