@@ -1,6 +1,6 @@
 import { Command, CommanderError } from 'commander';
 import { CODE_VERSION } from '../shared/version.js';
-import { EXIT_INPUT } from './cli-support.js';
+import { EXIT_FAILURE, EXIT_INPUT } from './cli-support.js';
 
 type Register = (program: Command) => void;
 
@@ -24,6 +24,14 @@ const COMMANDS: Readonly<Record<string, () => Promise<Register>>> = {
   report: async () => (await import('./commands/report.js')).registerReport,
   inspect: async () => (await import('./commands/inspect.js')).registerInspect,
 };
+
+// Output that cannot be written (a closed pipe, a full disk) ends the command
+// with one line instead of an unhandled 'error' event and a stack trace.
+process.stdout.on('error', (error: NodeJS.ErrnoException) => {
+  if (error.code === 'EPIPE') process.exit(0);
+  process.stderr.write(`recallscape: cannot write the output: ${error.message}\n`);
+  process.exit(EXIT_FAILURE);
+});
 
 const program = new Command()
   .name('recallscape')

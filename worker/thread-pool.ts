@@ -82,13 +82,6 @@ export class ThreadPool {
     for (let i = 0; i < this.threads; i++) this.spawn();
   }
 
-  /** Jobs waiting for a thread plus jobs running. */
-  get pending(): number {
-    let running = 0;
-    for (const slot of this.slots) if (slot.task !== undefined) running++;
-    return running + this.queue.length;
-  }
-
   run(payload: unknown): Promise<JobOutcome> {
     if (this.state === 'broken') return Promise.reject(namedError('PoolBroken', this.brokenReason));
     if (this.state === 'terminated') return Promise.reject(namedError('PoolTerminated', 'the thread pool was terminated'));
