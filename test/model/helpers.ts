@@ -1,6 +1,7 @@
 import { bcpnnSequences, trainTrial } from '../../shared/models/bcpnn-sequences/index.js';
 import type { BcpnnParams } from '../../shared/models/bcpnn-sequences/params.js';
-import type { TrainedNetwork } from '../../shared/models/bcpnn-sequences/training.js';
+import { activeAt } from '../../shared/models/bcpnn-sequences/scoring.js';
+import { classJoint, type TrainedNetwork } from '../../shared/models/bcpnn-sequences/training.js';
 import type { ReferenceConfig } from './reference-model.js';
 
 /** Validated parameters; throws with the zod message if the test itself is wrong. */
@@ -12,7 +13,7 @@ export function params(input: Record<string, unknown>): BcpnnParams {
 export function densePJoint(net: TrainedNetwork): Float64Array {
   const out = new Float64Array(net.N * net.N);
   for (let i = 0; i < net.N; i++) {
-    for (let j = 0; j < net.N; j++) out[i * net.N + j] = net.classPJoint[net.classOf[i]! * net.G + net.classOf[j]!]!;
+    for (let j = 0; j < net.N; j++) out[i * net.N + j] = classJoint(net, net.classOf[i]!, net.classOf[j]!);
   }
   return out;
 }
@@ -64,4 +65,16 @@ export function maxAbsError(a: ArrayLike<number>, b: ArrayLike<number>): number 
     worst = Number.isNaN(d) ? Infinity : Math.max(worst, d);
   }
   return worst;
+}
+
+/**
+ * Active ids of every step of a row-major steps x nPatterns match table,
+ * through the production per-step decoder `activeAt` (recall.ts calls it
+ * once per step on that step's matches).
+ */
+export function activeFromMatches(matches: ArrayLike<number>, nPatterns: number, threshold: number): Int32Array {
+  const steps = Math.floor(matches.length / nPatterns);
+  const out = new Int32Array(steps);
+  for (let t = 0; t < steps; t++) out[t] = activeAt(matches, t * nPatterns, nPatterns, threshold);
+  return out;
 }

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { bcpnnSequences } from '../../shared/models/bcpnn-sequences/index.js';
+import { resolveShape } from '../../shared/models/bcpnn-sequences/params.js';
 
 /** The issues of a rejected input as "path: message" lines. */
 function rejection(input: unknown): string[] {
@@ -54,6 +55,33 @@ describe('bcpnn-sequences parameters', () => {
     expect(rejection({ overlapStart: 5, overlapLength: 2 })[0]).toMatch(/^overlapStart: overlapStart \+ overlapLength must be <= sequenceLength \(6\)/);
     expect(rejection({ overlapLength: 5 })[0]).toMatch(/^overlapStart: the default overlapStart .* set overlapStart to 1/);
     expect(bcpnnSequences.params.safeParse({ overlapLength: 5, overlapStart: 1 }).success).toBe(true);
+  });
+
+  it('keeps rejecting generated sequences whose default overlap window would start at the cue', () => {
+    // L = 2, k = 1: floor((L - k)/2) = 0, and the generator could copy into the cues.
+    expect(rejection({ sequenceLength: 2 })[0]).toMatch(/^overlapStart: the default overlapStart floor\(\(L - k\)\/2\) = 0 .* set overlapStart to 1/);
+    expect(bcpnnSequences.params.safeParse({ sequenceLength: 2, overlapStart: 1 }).success).toBe(true);
+  });
+
+  it('accepts explicit sequences of length 2 under the defaults and compares position 1 in achievedOverlap', () => {
+    // Position 1: [1, 2] against [1, 0] agree in hypercolumn 0 only, overlap 1/2 (by hand).
+    const sequences = [[[0, 1], [1, 2]], [[2, 3], [1, 0]]];
+    const parsed = bcpnnSequences.params.safeParse({ sequences, minicolumns: 4 });
+    expect(parsed.success).toBe(true);
+    const p = bcpnnSequences.params.parse({ sequences, minicolumns: 4, recallDuration: 100 });
+    expect(resolveShape(p).start).toBe(1);
+    expect(bcpnnSequences.run(p, 1).metrics['achievedOverlap']).toBe(0.5);
+  });
+
+  it('accepts explicit sequences with any overlapLength up to L - 1 when overlapStart is left out', () => {
+    const three = [[[0], [1], [2]], [[3], [4], [5]]];
+    for (const overlapLength of [0, 1, 2]) {
+      expect(bcpnnSequences.params.safeParse({ sequences: three, minicolumns: 6, overlapLength }).success, `k = ${overlapLength}`).toBe(true);
+    }
+    const two = [[[0], [1]], [[2], [3]]];
+    for (const overlapLength of [0, 1]) {
+      expect(bcpnnSequences.params.safeParse({ sequences: two, minicolumns: 4, overlapLength }).success, `k = ${overlapLength}`).toBe(true);
+    }
   });
 
   it('rejects zero hypercolumns and unknown parameter names', () => {

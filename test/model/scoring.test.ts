@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { activeFromMatches, decodeRuns, NONE, scoreRecall } from '../../shared/models/bcpnn-sequences/scoring.js';
+import { activeAt, decodeRuns, NONE, scoreRecall } from '../../shared/models/bcpnn-sequences/scoring.js';
+import { activeFromMatches } from './helpers.js';
 
 /** Active ids from a compact description: [id, steps] pairs. */
 function steps(...parts: [number, number][]): number[] {
@@ -15,6 +16,12 @@ describe('decoding matches into active patterns', () => {
 
   it('counts a maximum exactly at the threshold as active', () => {
     expect(Array.from(activeFromMatches([0.5, 0.2], 2, 0.5))).toEqual([0]);
+  });
+
+  it('takes the lowest id on a tie and reads the patterns from the given offset', () => {
+    // Row 0 is [0.9, 0.1] (ignored); row 1 at offset 2 is a tie [0.7, 0.7].
+    expect(activeAt([0.9, 0.1, 0.7, 0.7], 2, 2, 0.5)).toBe(0);
+    expect(activeAt([0.9, 0.1, 0.2, 0.7], 2, 2, 0.5)).toBe(1);
   });
 });
 

@@ -25,6 +25,19 @@ const DEFAULT_HYPERCOLUMNS = 10;
 const DEFAULT_SEQUENCE_COUNT = 2;
 const DEFAULT_SEQUENCE_LENGTH = 6;
 
+/**
+ * Default first overlapped position: floor((L - k)/2). The generator needs
+ * start >= 1 (copying into the cues could make them equal), so for generated
+ * sequences a default of 0 stays an error. With explicit sequences the window
+ * only picks the positions `achievedOverlap` compares (their cues are checked
+ * to differ), so the default is raised to 1 there: every explicit set,
+ * including L = 2, is accepted without setting overlapStart.
+ */
+export function defaultOverlapStart(L: number, k: number, explicitSequences: boolean): number {
+  const start = Math.floor((L - k) / 2);
+  return explicitSequences ? Math.max(1, start) : start;
+}
+
 interface NumberRule {
   readonly int?: boolean;
   readonly min: number;
@@ -77,7 +90,7 @@ const shape = {
     .describe('Number k of consecutive overlapped positions'),
   overlapStart: num('overlapStart', { int: true, min: 1, max: LIMITS.maxSequenceLength })
     .optional()
-    .describe('First overlapped position (default floor((L-k)/2))'),
+    .describe('First overlapped position (default floor((L-k)/2), at least 1 with explicit sequences)'),
   sequences: z
     .array(z.array(z.array(minicolumnIndex, { error: sequencesMessage }), { error: sequencesMessage }), { error: sequencesMessage })
     .optional()
@@ -203,7 +216,7 @@ export const bcpnnParamsSchema = z
 
     // Overlap window: start >= 1 keeps the cues apart; start + k <= L.
     const k = p.overlapLength;
-    const start = p.overlapStart ?? Math.floor((L - k) / 2);
+    const start = p.overlapStart ?? defaultOverlapStart(L, k, p.sequences !== undefined);
     if (k > L - 1) {
       issue('overlapLength', `overlapLength must be <= sequenceLength - 1 (${L - 1}) so that the cues differ, got ${k}`);
     } else if (start < 1) {
@@ -258,7 +271,7 @@ export function resolveShape(p: BcpnnParams): ResolvedShape {
     K,
     L,
     k,
-    start: p.overlapStart ?? Math.floor((L - k) / 2),
+    start: p.overlapStart ?? defaultOverlapStart(L, k, p.sequences !== undefined),
     nPattern: Math.round(p.patternDuration / p.dt),
     nGap: Math.round(p.gapDuration / p.dt),
     nRest: Math.round(p.restDuration / p.dt),
@@ -274,7 +287,7 @@ export const paramInfo: Readonly<Record<keyof typeof shape, ParamInfo>> = {
   sequenceLength: { unit: 'count', description: 'Patterns per sequence L; default 6' },
   patternOverlap: { unit: '1', description: 'Fraction of hypercolumns an overlapped pattern shares with sequence 1' },
   overlapLength: { unit: 'count', description: 'Number of consecutive overlapped positions k' },
-  overlapStart: { unit: 'count', description: 'First overlapped position (0 is the cue); default floor((L-k)/2)' },
+  overlapStart: { unit: 'count', description: 'First overlapped position (0 is the cue); default floor((L-k)/2), raised to 1 with explicit sequences' },
   sequences: { unit: 'minicolumn index', description: 'Explicit patterns [[[H ints] x L] x K], replacing the overlap generator' },
   dt: { unit: 'ms', description: 'Time step of training and recall' },
   tauZPre: { unit: 'ms', description: 'Time constant of the presynaptic z-traces' },

@@ -23,14 +23,6 @@ export function activeAt(matches: ArrayLike<number>, offset: number, nPatterns: 
   return bestValue >= threshold ? best : NONE;
 }
 
-/** Active ids of every step of a row-major steps x nPatterns match table. */
-export function activeFromMatches(matches: ArrayLike<number>, nPatterns: number, threshold: number): Int32Array {
-  const steps = Math.floor(matches.length / nPatterns);
-  const out = new Int32Array(steps);
-  for (let t = 0; t < steps; t++) out[t] = activeAt(matches, t * nPatterns, nPatterns, threshold);
-  return out;
-}
-
 export interface Run {
   readonly id: number;
   /** First step of the run. */

@@ -26,8 +26,22 @@ export interface TrainedNetwork {
   readonly classBias: Float64Array;
   readonly classPPre: Float64Array;
   readonly classPPost: Float64Array;
-  /** Row-major G x G, post-major like the weights. */
-  readonly classPJoint: Float64Array;
+  /**
+   * The pattern ids each class belongs to, and the nP x nP pattern joint
+   * coefficients: enough to give any class pJoint (classJoint) without
+   * keeping a second G x G matrix next to the weights.
+   */
+  readonly classPatterns: readonly (readonly number[])[];
+  readonly patternPJoint: Float64Array;
+  readonly nP: number;
+}
+
+/** pJoint between a unit of class g (post) and one of class g2 (pre). */
+export function classJoint(net: TrainedNetwork, g: number, g2: number): number {
+  const { classPatterns, patternPJoint, nP } = net;
+  let sum = 0;
+  for (const kk of classPatterns[g] as number[]) for (const l of classPatterns[g2] as number[]) sum += patternPJoint[kk * nP + l] as number;
+  return sum;
 }
 
 /** Segments at most this long use the exact scalar recurrence; longer ones the closed form. */
@@ -217,32 +231,30 @@ export function buildNetwork(set: PatternSet, traces: PatternTraces, p: BcpnnPar
   const nP = traces.nP;
   const classPPre = new Float64Array(G);
   const classPPost = new Float64Array(G);
-  const classPJoint = new Float64Array(G * G);
   for (let g = 0; g < G; g++) {
     for (const kk of classSets[g] as number[]) {
       classPPre[g] = (classPPre[g] as number) + (traces.pPre[kk] as number);
       classPPost[g] = (classPPost[g] as number) + (traces.pPost[kk] as number);
     }
   }
-  for (let g = 0; g < G; g++) {
-    for (let g2 = 0; g2 < G; g2++) {
-      let sum = 0;
-      for (const kk of classSets[g] as number[]) for (const l of classSets[g2] as number[]) sum += traces.pJoint[kk * nP + l] as number;
-      classPJoint[g * G + g2] = sum;
-    }
-  }
+  // The class pJoint is summed and turned into the weight in one pass: the
+  // only G x G array is the weights (200 MB at the cap G = 5000, not 400).
   const eps = p.eps;
   const eps2 = eps * eps;
   const classWeights = new Float64Array(G * G);
   const classBias = new Float64Array(G);
+  const pJoint = traces.pJoint;
   for (let g = 0; g < G; g++) {
     const post = (classPPost[g] as number) + eps;
     classBias[g] = Math.log(post);
+    const postSet = classSets[g] as number[];
     for (let g2 = 0; g2 < G; g2++) {
-      classWeights[g * G + g2] = Math.log(((classPJoint[g * G + g2] as number) + eps2) / (post * ((classPPre[g2] as number) + eps)));
+      let sum = 0;
+      for (const kk of postSet) for (const l of classSets[g2] as number[]) sum += pJoint[kk * nP + l] as number;
+      classWeights[g * G + g2] = Math.log((sum + eps2) / (post * ((classPPre[g2] as number) + eps)));
     }
   }
-  return { N, G, classOf, classWeights, classBias, classPPre, classPPost, classPJoint };
+  return { N, G, classOf, classWeights, classBias, classPPre, classPPost, classPatterns: classSets, patternPJoint: pJoint, nP };
 }
 
 export function train(set: PatternSet, p: BcpnnParams, shape: ResolvedShape): TrainedNetwork {
