@@ -1,4 +1,4 @@
-import { INPUT_ERROR_NAMES, formatIssues, type FieldIssue } from '../shared/errors.js';
+import { INPUT_ERROR_NAMES, InputError, formatIssues, type FieldIssue } from '../shared/errors.js';
 
 /** Exit codes shared by every command. */
 export const EXIT_OK = 0;
@@ -6,6 +6,19 @@ export const EXIT_OK = 0;
 export const EXIT_FAILURE = 1;
 /** The user's input is wrong; nothing was done. */
 export const EXIT_INPUT = 2;
+
+/**
+ * Parse a whole-number option (`--threads`, `--max-jobs`, `--lock-ms`, `--bins`...)
+ * in [min, max]; the InputError names the option and the allowed range.
+ */
+export function parseWholeNumber(option: string, raw: string, min: number, max = Number.MAX_SAFE_INTEGER): number {
+  const value = Number(raw);
+  if (!/^\s*\d+\s*$/.test(raw) || !Number.isSafeInteger(value) || value < min || value > max) {
+    const message = `${option} must be a whole number from ${min} to ${max}, got "${raw}"`;
+    throw new InputError(message, [{ path: option, message }]);
+  }
+  return value;
+}
 
 /**
  * Wrap a command action: known errors become one clear message on stderr and

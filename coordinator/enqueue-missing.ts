@@ -10,7 +10,6 @@ export interface EnqueueOptions {
   readonly chunkSize?: number;
   /** Also put jobs that sit in BullMQ's failed set back in the queue (fresh attempts). */
   readonly retryFailed?: boolean;
-  readonly onChunk?: (report: EnqueueReport) => void;
 }
 
 export interface EnqueueReport {
@@ -91,7 +90,6 @@ export async function enqueueMissing(
       }
     });
     if (toAdd.length > 0) await queue.addBulk(toAdd.map((e) => ({ name: e.name, data: e.data, opts: e.opts })));
-    options.onChunk?.({ ...report });
   };
 
   // Two chunks in flight: the next one is built and checked while Redis stores the last one.

@@ -1,7 +1,6 @@
-import { InputError } from '../shared/errors.js';
 import { jobSeed } from '../shared/job-identity.js';
 import type { Point } from '../shared/schemas/records.js';
-import { assertJobLimit, countJobs, fullParams, iteratePoints } from '../shared/sweep/expand.js';
+import { countJobs, fullParams, iteratePoints } from '../shared/sweep/expand.js';
 import { loadSweepFile, type LoadedSweep } from '../shared/sweep/load.js';
 import { formatDuration } from './progress-display.js';
 
@@ -19,19 +18,8 @@ export interface LoadForCommandOptions {
  * costs nothing. Throws InputError.
  */
 export async function loadSweepForCommand(file: string, options: LoadForCommandOptions): Promise<LoadedSweep> {
-  const sweep = await loadSweepFile(file, options.yes ? {} : { jobLimit: options.maxJobs });
-  if (!options.yes) assertJobLimit(sweep, options.maxJobs);
-  return sweep;
-}
-
-/** Parse `--threads`, `--max-jobs` and similar: a whole number in [min, max]. */
-export function parseWholeNumber(option: string, raw: string, min: number, max = Number.MAX_SAFE_INTEGER): number {
-  const value = Number(raw);
-  if (!/^\s*\d+\s*$/.test(raw) || !Number.isSafeInteger(value) || value < min || value > max) {
-    const message = `${option} must be a whole number from ${min} to ${max}, got "${raw}"`;
-    throw new InputError(message, [{ path: option, message }]);
-  }
-  return value;
+  // The loader counts the jobs (before expanding a grid) and refuses too many.
+  return loadSweepFile(file, options.yes ? {} : { jobLimit: options.maxJobs });
 }
 
 export interface CalibrationFigures {

@@ -4,13 +4,9 @@ import type { FailureKind } from '../shared/schemas/records.js';
 import type { ResultStore, StoreWarning } from '../shared/store/result-store.js';
 import { countJobs } from '../shared/sweep/expand.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
-import { collectSweepIds, SCAN_PAGE, WAITING_STATES } from './queue-scan.js';
+import { SCAN_PAGE, sweepQueueCounts, type QueueCounts } from './queue-scan.js';
 
-export interface QueueSide {
-  readonly waiting: number;
-  readonly active: number;
-  readonly delayed: number;
-  readonly failed: number;
+export interface QueueSide extends QueueCounts {
   /** Finished jobs whose record is only in Redis so far (no shared disk; `gather` copies them). */
   readonly finishedNotGathered: number;
 }
@@ -89,7 +85,6 @@ export async function sweepProgress(store: ResultStore, sweep: LoadedSweep, redi
   let queue: QueueSide | null = null;
   if (redis !== undefined) {
     const { client, target } = redis;
-    const size = async (states: Parameters<typeof collectSweepIds>[3]): Promise<number> => (await collectSweepIds(client, target, sweep.hash, states)).size;
     // Completed jobs carry their finish time as the sorted-set score: rate and totals without reading records.
     let finishedNotGathered = 0;
     const prefix = jobIdPrefix(sweep.hash);
@@ -107,13 +102,7 @@ export async function sweepProgress(store: ResultStore, sweep: LoadedSweep, redi
       }
       if (page.length < 2 * SCAN_PAGE) break;
     }
-    queue = {
-      waiting: await size(WAITING_STATES),
-      active: await size(['active']),
-      delayed: await size(['delayed']),
-      failed: await size(['failed']),
-      finishedNotGathered,
-    };
+    queue = { ...(await sweepQueueCounts(client, target, sweep.hash)), finishedNotGathered };
   }
   for (const key of doneKeys) failingKeys.delete(key);
   const finished = doneKeys.size;

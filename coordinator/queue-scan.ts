@@ -39,15 +39,17 @@ export async function collectSweepIds(client: Redis, target: QueueTarget, sweepH
 }
 
 export interface QueueCounts {
-  waiting: number;
-  active: number;
-  delayed: number;
-  failed: number;
-  /** Finished jobs whose record is still held in Redis (not gathered yet). */
-  completed: number;
+  readonly waiting: number;
+  readonly active: number;
+  readonly delayed: number;
+  readonly failed: number;
 }
 
-/** How many of this sweep's jobs are in each state (a snapshot). */
+/**
+ * How many of this sweep's jobs wait, run, wait out a retry backoff or sit in
+ * the failed set (a snapshot). Completed jobs are not counted here: progress
+ * reads them with their finish times in the same pass.
+ */
 export async function sweepQueueCounts(client: Redis, target: QueueTarget, sweepHash: string): Promise<QueueCounts> {
   const count = async (states: readonly ScanState[]): Promise<number> => (await collectSweepIds(client, target, sweepHash, states)).size;
   return {
@@ -55,7 +57,6 @@ export async function sweepQueueCounts(client: Redis, target: QueueTarget, sweep
     active: await count(['active']),
     delayed: await count(['delayed']),
     failed: await count(['failed']),
-    completed: await count(['completed']),
   };
 }
 

@@ -1,9 +1,9 @@
 import { Option, type Command } from 'commander';
 import { Queue } from 'bullmq';
-import { InputError } from '../shared/errors.js';
 import type { Logger } from '../shared/logger.js';
 import { DEFAULT_QUEUE_NAME, DEFAULT_QUEUE_PREFIX, queueTarget, type QueueTarget } from '../shared/queue-names.js';
 import { REDIS_URL_ENV, parseRedisUrl, resolveRedisUrl, type RedisTarget } from '../shared/redis-url.js';
+import { parseWholeNumber } from './cli-support.js';
 import { asServiceError, closeRedis, connectRedis } from './redis-connect.js';
 import type { Redis } from 'ioredis';
 
@@ -33,17 +33,6 @@ export function addQueueOptions(command: Command, redisRequired = true): Command
     );
 }
 
-/** Parse a positive whole number of milliseconds (or another unit) from an option. */
-export function positiveInt(option: string, text: string, min = 1, max = 2 ** 31 - 1): number {
-  const value = Number(text);
-  if (!/^\d+$/.test(text.trim()) || !Number.isSafeInteger(value) || value < min || value > max) {
-    throw new InputError(`${option}: expected a whole number from ${min} to ${max}, got "${text}"`, [
-      { path: option, message: `a whole number from ${min} to ${max}` },
-    ]);
-  }
-  return value;
-}
-
 export interface QueueSettings {
   readonly url: string;
   readonly redis: RedisTarget;
@@ -58,7 +47,7 @@ export function queueSettings(options: QueueCliOptions): QueueSettings {
     url,
     redis: parseRedisUrl(url),
     queue: queueTarget(options.queue, options.prefix),
-    connectTimeoutMs: positiveInt('--connect-timeout', options.connectTimeout, 100, 600_000),
+    connectTimeoutMs: parseWholeNumber('--connect-timeout', options.connectTimeout, 100, 600_000),
   };
 }
 

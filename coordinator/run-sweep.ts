@@ -4,7 +4,7 @@ import type { Logger } from '../shared/logger.js';
 import type { FailureRecord } from '../shared/schemas/records.js';
 import { countJobs, expandJobs, toPayload, type PlannedJob } from '../shared/sweep/expand.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
-import { ResultStore, newWriterId, type StoreWarning } from '../shared/store/result-store.js';
+import { ResultStore, newWriterId, type ShardFs, type StoreWarning } from '../shared/store/result-store.js';
 import type { JobOutcome } from '../worker/run-job.js';
 import { ThreadPool } from '../worker/thread-pool.js';
 
@@ -48,6 +48,8 @@ export interface RunSweepOptions {
   readonly syncSeconds?: number;
   /** Thread script, for callers running from sources (tests); default: the compiled one. */
   readonly threadEntry?: URL;
+  /** File calls of the shard writer (tests inject a failing disk); default: node:fs. */
+  readonly shardFs?: ShardFs;
 }
 
 export interface RunSweepResult {
@@ -100,7 +102,7 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
 
   const planned = countJobs(sweep);
   const runId = randomBytes(6).toString('hex');
-  const writer = store.openWriter(newWriterId());
+  const writer = store.openWriter(newWriterId(), options.shardFs);
   const pool = new ThreadPool({
     threads: options.threads,
     context: { writer: writer.writer, run: runId },
@@ -126,10 +128,19 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
   const hardStop = (): void => {
     void pool.terminate();
   };
+  // The first fatal error (a shard write that failed, a broken pool) ends the
+  // run at once: running jobs are abandoned and nothing more is written, so
+  // no record is appended after a torn line.
+  const failRun = (error: unknown): void => {
+    if (fatal !== null) return;
+    fatal = error;
+    void pool.terminate();
+  };
   options.abandonSignal?.addEventListener('abort', hardStop, { once: true });
   const stopping = (): boolean => options.signal?.aborted === true || options.abandonSignal?.aborted === true || fatal !== null;
 
   const record = (job: PlannedJob, outcome: JobOutcome): void => {
+    if (fatal !== null) return;
     if (outcome.ok) {
       writer.appendResult(outcome.record);
       succeeded++;
@@ -167,8 +178,8 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
       })
       .catch((error: unknown) => {
         // An abandoned job writes nothing; anything else ends the run.
-        if ((error as { name?: unknown } | null)?.name === 'PoolTerminated' && options.abandonSignal?.aborted === true) return;
-        if (fatal === null) fatal = error;
+        if ((error as { name?: unknown } | null)?.name === 'PoolTerminated' && (options.abandonSignal?.aborted === true || fatal !== null)) return;
+        failRun(error);
       })
       .finally(() => {
         inFlight.delete(task);
@@ -185,7 +196,7 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
       try {
         writer.sync();
       } catch (error) {
-        if (fatal === null) fatal = error;
+        failRun(error);
       }
     }
   }, 1000);
@@ -223,7 +234,11 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
     options.abandonSignal?.removeEventListener('abort', hardStop);
     if (options.abandonSignal?.aborted === true || fatal !== null) await pool.terminate();
     else await pool.close();
-    writer.sync();
+    try {
+      writer.sync();
+    } catch (error) {
+      if (fatal === null) fatal = error;
+    }
     writer.close();
   }
   report();

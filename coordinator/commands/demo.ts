@@ -1,9 +1,8 @@
 import type { Command } from 'commander';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
-import { action } from '../cli-support.js';
+import { action, parseWholeNumber } from '../cli-support.js';
 import { buildReport } from '../summarize/build-report.js';
 import { demoSweep } from '../demo-sweep.js';
-import { parseWholeNumber } from '../plan-sweep.js';
 import { MAX_THREADS, displayPath, executeSweep, shellWord } from './run.js';
 
 interface DemoFlags {

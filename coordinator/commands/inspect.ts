@@ -1,5 +1,5 @@
 import type { Command } from 'commander';
-import { action } from '../cli-support.js';
+import { EXIT_FAILURE, action } from '../cli-support.js';
 import { inspectJob } from '../summarize/inspect-job.js';
 
 interface InspectFlags {
@@ -10,20 +10,13 @@ interface InspectFlags {
 export function registerInspect(program: Command): void {
   program
     .command('inspect')
-    .description('Re-run one job of a sweep deterministically, check it against its stored result, and draw its recall trace as SVG')
+    .description('Re-run one job of a sweep deterministically, check it against its stored result (exit 1 if they differ), and draw its recall trace as SVG')
     .argument('<dir>', 'sweep folder (the one holding sweep.json)')
     .requiredOption('--job <key>', 'job key, or a unique prefix of one')
     .option('--out <file.svg>', 'where to write the trace (default: DIR/report/inspect-<key>.svg)')
     .action(
       action(async (dir: string, flags: InspectFlags) => {
         const result = await inspectJob({ dir, job: flags.job, ...(flags.out === undefined ? {} : { out: flags.out }) });
-        if (result.stored === 'different') {
-          process.stderr.write(
-            `recallscape: warning: the re-run's metrics differ from the stored record of job ${result.key}; ` +
-              `the model is not deterministic or the record was produced by other code\n` +
-              `  stored: ${JSON.stringify(result.storedMetrics)}\n`,
-          );
-        }
         const lines = [
           `job ${result.key} (replicate ${result.replicate}, seed ${result.seed})`,
           `point: ${JSON.stringify(result.point)}`,
@@ -32,12 +25,20 @@ export function registerInspect(program: Command): void {
             ? 'stored record: identical metrics'
             : result.stored === 'none'
               ? 'stored record: none yet (the job has not finished in this sweep)'
-              : 'stored record: DIFFERENT metrics (see warning)',
+              : `stored record: DIFFERENT metrics: ${JSON.stringify(result.storedMetrics)}`,
           result.svgPath === null
             ? `trace: this model records no trace, so nothing was drawn`
             : `trace: ${result.panels} recall panel(s) drawn to ${result.svgPath}`,
         ];
         process.stdout.write(`${lines.join('\n')}\n`);
+        if (result.stored === 'different') {
+          // A job is a pure function of its payload: a different result means the sweep cannot be reproduced.
+          process.stderr.write(
+            `recallscape: not reproducible: re-running job ${result.key} gave other metrics than its stored record ` +
+              `(the model is not deterministic, or the record was produced by other code)\n`,
+          );
+          process.exitCode = EXIT_FAILURE;
+        }
       }),
     );
 }

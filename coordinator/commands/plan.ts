@@ -1,7 +1,7 @@
 import type { Command } from 'commander';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
-import { action } from '../cli-support.js';
-import { DEFAULT_JOB_LIMIT, formatPlan, loadSweepForCommand, parseWholeNumber, planSweep } from '../plan-sweep.js';
+import { action, parseWholeNumber } from '../cli-support.js';
+import { DEFAULT_JOB_LIMIT, formatPlan, loadSweepForCommand, planSweep } from '../plan-sweep.js';
 
 /** Timing jobs run by default to turn operations into core-hours. */
 export const DEFAULT_CALIBRATION_JOBS = 3;

@@ -8,6 +8,7 @@ import { formatDuration } from '../progress-display.js';
 import { sweepProgress, type ProgressSnapshot } from '../queue-progress.js';
 import { addQueueOptions, openQueueSession, optionalQueueSettings, type QueueCliOptions, type QueueSession } from '../queue-session.js';
 import { asServiceError } from '../redis-connect.js';
+import { completedPercent } from '../summarize/completed-percent.js';
 
 interface ProgressOptions extends QueueCliOptions {
   readonly follow?: boolean;
@@ -53,13 +54,9 @@ export function registerProgress(program: Command): void {
   );
 }
 
-function percent(part: number, whole: number): string {
-  return whole === 0 ? '100%' : `${Math.floor((100 * part) / whole)}%`;
-}
-
 export function describe(s: ProgressSnapshot): string {
   const lines = [`sweep     ${s.name} (hash ${s.hash.slice(0, 16)})`, `planned   ${s.planned}`];
-  let finished = `finished  ${s.finished} (${percent(s.finished, s.planned)})`;
+  let finished = `finished  ${s.finished} (${completedPercent(s.finished, s.planned)})`;
   if (s.queue !== null && s.queue.finishedNotGathered > 0) {
     finished += `: ${s.onDisk} on disk, ${s.queue.finishedNotGathered} only in Redis (\`recallscape gather ${s.dir}\` copies them here)`;
   }
@@ -88,7 +85,7 @@ export function followLine(s: ProgressSnapshot): string {
   const queue = q === null ? '' : ` | waiting ${q.waiting} | active ${q.active} | delayed ${q.delayed} | failed ${q.failed}`;
   const rate = s.perMinute === null ? '?' : s.perMinute.toFixed(1);
   const eta = s.etaSeconds === null ? '?' : formatDuration(s.etaSeconds);
-  return `finished ${s.finished}/${s.planned} (${percent(s.finished, s.planned)})${queue} | ${rate} jobs/min | left ~${eta}`;
+  return `finished ${s.finished}/${s.planned} (${completedPercent(s.finished, s.planned)})${queue} | ${rate} jobs/min | left ~${eta}`;
 }
 
 async function follow(snapshot: () => Promise<ProgressSnapshot>): Promise<void> {

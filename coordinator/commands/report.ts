@@ -1,9 +1,9 @@
 import { relative, isAbsolute } from 'node:path';
 import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
-import { action } from '../cli-support.js';
+import { action, parseWholeNumber } from '../cli-support.js';
 import { buildReport } from '../summarize/build-report.js';
-import { completedPercent } from '../summarize/report-page.js';
+import { completedPercent } from '../summarize/completed-percent.js';
 import { REPORT_FORMATS, type ReportFormat } from '../summarize/report-settings.js';
 
 interface ReportFlags {
@@ -21,15 +21,6 @@ const MAX_PRINTED_WARNINGS = 10;
 function shortPath(path: string): string {
   const rel = relative(process.cwd(), path);
   return rel === '' ? '.' : rel.startsWith('..') || isAbsolute(rel) ? path : rel;
-}
-
-function parseBins(text: string | undefined): number | undefined {
-  if (text === undefined) return undefined;
-  const n = Number(text);
-  if (!/^\s*\d+\s*$/.test(text) || !Number.isInteger(n) || n < 2 || n > 200) {
-    throw new InputError(`--bins: must be a whole number from 2 to 200, got "${text}"`, [{ path: '--bins', message: 'a whole number from 2 to 200' }]);
-  }
-  return n;
 }
 
 function parseFormats(text: string | undefined): ReportFormat[] | undefined {
@@ -59,7 +50,7 @@ export function registerReport(program: Command): void {
     .option('--bins <n>', 'bins per axis for random, lhs and sobol sweeps (default: report.bins, else 8)')
     .action(
       action(async (dir: string, flags: ReportFlags) => {
-        const bins = parseBins(flags.bins);
+        const bins = flags.bins === undefined ? undefined : parseWholeNumber('--bins', flags.bins, 2, 200);
         const formats = parseFormats(flags.format);
         const result = await buildReport({
           dir,
@@ -73,8 +64,11 @@ export function registerReport(program: Command): void {
         for (const w of result.warnings.slice(0, MAX_PRINTED_WARNINGS)) {
           process.stderr.write(`recallscape: warning: ${w.kind}: ${w.message}\n`);
         }
-        if (result.warnings.length > MAX_PRINTED_WARNINGS) {
-          process.stderr.write(`recallscape: warning: ... ${result.warnings.length - MAX_PRINTED_WARNINGS} more (listed in index.html)\n`);
+        const printed = Math.min(MAX_PRINTED_WARNINGS, result.warnings.length);
+        if (result.warningCount > printed) {
+          // The true remainder: the builder keeps only the first few hundred warnings but counts them all.
+          const where = result.indexHtml === null ? '' : ` (index.html lists the first ${result.warnings.length})`;
+          process.stderr.write(`recallscape: warning: ... ${result.warningCount - printed} more${where}\n`);
         }
         const lines = [
           `completed ${result.completedJobs} of ${result.plannedJobs} jobs (${completedPercent(result.completedJobs, result.plannedJobs)})` +

@@ -3,8 +3,8 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
-import { EXIT_FAILURE, EXIT_OK, action } from '../cli-support.js';
-import { DEFAULT_JOB_LIMIT, loadSweepForCommand, parseWholeNumber } from '../plan-sweep.js';
+import { EXIT_FAILURE, EXIT_OK, action, parseWholeNumber } from '../cli-support.js';
+import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
 import { runSweep, stopOnSignals, type RunSweepResult } from '../run-sweep.js';
 

@@ -1,6 +1,5 @@
-import { rename, writeFile } from 'node:fs/promises';
-import { dirname, join, basename } from 'node:path';
 import type { Command } from 'commander';
+import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { InputError } from '../../shared/errors.js';
 import { sweepJsonSchema } from '../../shared/sweep/json-schema.js';
 import { action } from '../cli-support.js';
@@ -22,11 +21,9 @@ export function registerSchema(program: Command): void {
           process.stdout.write(text);
           return;
         }
-        // Temporary file + rename: a reader never sees half a schema.
-        const temp = join(dirname(options.out), `.${basename(options.out)}.${process.pid}.tmp`);
+        // Temporary file + rename: a reader never sees half a schema, and a failure leaves nothing behind.
         try {
-          await writeFile(temp, text);
-          await rename(temp, options.out);
+          await writeFileAtomic(options.out, text, { createFolder: false });
         } catch (error) {
           const code = (error as NodeJS.ErrnoException).code;
           throw new InputError(`--out ${options.out}: cannot write the schema there (${code ?? String(error)})`, [

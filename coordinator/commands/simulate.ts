@@ -1,7 +1,6 @@
-import { randomBytes } from 'node:crypto';
-import { readFile, rename, rm, writeFile } from 'node:fs/promises';
-import { basename, dirname, join } from 'node:path';
+import { readFile } from 'node:fs/promises';
 import type { Command } from 'commander';
+import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { InputError, issuesFromZod, type FieldIssue } from '../../shared/errors.js';
 import type { TracePanel } from '../../shared/model.js';
 import { DEFAULT_MODEL_ID, requireModel } from '../../shared/models/registry.js';
@@ -78,14 +77,11 @@ export function traceCsv(panels: readonly TracePanel[]): string {
   return `${lines.join('\n')}\n`;
 }
 
-/** Write through a temporary file in the same folder, then rename: never half a file. */
+/** Write through the shared atomic helper (no half file, no temp file left); a failure is the user's --trace. */
 async function writeAtomically(path: string, text: string): Promise<void> {
-  const temp = join(dirname(path), `.${basename(path)}.${process.pid}.${randomBytes(4).toString('hex')}.tmp`);
   try {
-    await writeFile(temp, text, 'utf8');
-    await rename(temp, path);
+    await writeFileAtomic(path, text, { createFolder: false });
   } catch (error) {
-    await rm(temp, { force: true });
     throw inputError('--trace', `cannot write ${path}: ${error instanceof Error ? error.message : String(error)}`);
   }
 }

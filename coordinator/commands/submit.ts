@@ -1,7 +1,7 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
-import { action } from '../cli-support.js';
-import { DEFAULT_JOB_LIMIT, loadSweepForCommand, parseWholeNumber } from '../plan-sweep.js';
+import { action, parseWholeNumber } from '../cli-support.js';
+import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
 import { submitSweep, type SubmitResult } from '../submit-sweep.js';
 

@@ -8,8 +8,8 @@ import { createLogger } from '../../shared/logger.js';
 import { newWriterId } from '../../shared/store/result-store.js';
 import { DEFAULT_LOCK_MS, DEFAULT_MAX_STALLED, DEFAULT_STALL_CHECK_MS, QueueConsumer } from '../../worker/queue-consumer.js';
 import { ThreadPool, defaultThreadCount } from '../../worker/thread-pool.js';
-import { action } from '../cli-support.js';
-import { addQueueOptions, positiveInt, queueSettings, type QueueCliOptions } from '../queue-session.js';
+import { action, parseWholeNumber } from '../cli-support.js';
+import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
 import { closeRedis, connectRedis } from '../redis-connect.js';
 
 interface WorkerOptions extends QueueCliOptions {
@@ -42,12 +42,12 @@ export function registerWorker(program: Command): void {
 async function runWorker(options: WorkerOptions): Promise<void> {
   // Every option is checked before anything starts: bad input exits with 2.
   const settings = queueSettings(options);
-  const threads = options.threads === undefined ? defaultThreadCount() : positiveInt('--threads', options.threads, 1, 1024);
-  const lockMs = positiveInt('--lock-ms', options.lockMs, 500, 3_600_000);
-  const stallCheckMs = positiveInt('--stall-check-ms', options.stallCheckMs, 200, 3_600_000);
-  const maxStalledCount = positiveInt('--max-stalled', options.maxStalled, 0, 100);
-  const prefetch = positiveInt('--prefetch', options.prefetch, 0, 1000);
-  const nice = options.nice === undefined ? undefined : positiveInt('--nice', options.nice, 0, 19);
+  const threads = options.threads === undefined ? defaultThreadCount() : parseWholeNumber('--threads', options.threads, 1, 1024);
+  const lockMs = parseWholeNumber('--lock-ms', options.lockMs, 500, 3_600_000);
+  const stallCheckMs = parseWholeNumber('--stall-check-ms', options.stallCheckMs, 200, 3_600_000);
+  const maxStalledCount = parseWholeNumber('--max-stalled', options.maxStalled, 0, 100);
+  const prefetch = parseWholeNumber('--prefetch', options.prefetch, 0, 1000);
+  const nice = options.nice === undefined ? undefined : parseWholeNumber('--nice', options.nice, 0, 19);
   if (options.name !== undefined && !/^[a-z0-9][a-z0-9._-]{0,99}$/.test(options.name)) {
     throw new InputError(`--name: use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit (got "${options.name}")`, [
       { path: '--name', message: 'a-z, 0-9, ".", "_", "-" only' },

@@ -5,7 +5,7 @@ import type { Metrics } from '../../shared/model.js';
 import type { Point } from '../../shared/schemas/records.js';
 import { expandJobs, type PlannedJob } from '../../shared/sweep/expand.js';
 import { ResultStore } from '../../shared/store/result-store.js';
-import { writeFileAtomic } from './atomic-write.js';
+import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { renderTracePlot } from './trace-plot.js';
 
 export interface InspectOptions {

@@ -2,7 +2,7 @@ import { join } from 'node:path';
 import type { FailureKind } from '../../shared/schemas/records.js';
 import { countJobs, iteratePoints } from '../../shared/sweep/expand.js';
 import { aggregateRecords } from './aggregate.js';
-import { writeFileAtomic } from './atomic-write.js';
+import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { axisSize, cellLabel, formatValue, type Axis } from './axis.js';
 import { buildCellGrids, type CellData, type PlacedGroup, type ShownMetric } from './cell-grid.js';
 import { GroupSummary } from './group-summary.js';
@@ -33,8 +33,10 @@ export interface ReportResult {
   readonly plannedJobs: number;
   /** Jobs with a failed attempt and no result. */
   readonly failedJobs: number;
-  /** Torn lines, conflicts and other problems met while reading the shards. */
+  /** Torn lines, conflicts and other problems met while reading the shards (the first MAX_WARNINGS_KEPT). */
   readonly warnings: readonly ScanWarning[];
+  /** How many warnings there were in all; may exceed `warnings.length`. */
+  readonly warningCount: number;
   /** Diagram cells with fewer trials than planned, over all facets. */
   readonly incompleteCells: number;
 }
@@ -248,7 +250,7 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
     await writeFileAtomic(path, data);
     files.push(path);
   }
-  return { reportDir, indexHtml, files, completedJobs, plannedJobs, failedJobs: failedKeys.size, warnings, incompleteCells };
+  return { reportDir, indexHtml, files, completedJobs, plannedJobs, failedJobs: failedKeys.size, warnings, warningCount, incompleteCells };
 }
 
 /** A cell's value with its unit ("50 ms"), or its bin ("[20, 40) ms"). */

@@ -1,3 +1,4 @@
+import { completedPercent } from './completed-percent.js';
 import type { ScanWarning } from './report-source.js';
 import { escapeXml } from './svg-util.js';
 
@@ -38,10 +39,6 @@ export interface PageInput {
 
 /** Rows shown inline; the CSV always has all of them. */
 const MAX_TABLE_ROWS = 2000;
-
-export function completedPercent(done: number, planned: number): string {
-  return planned === 0 ? '0.0%' : `${((100 * done) / planned).toFixed(1)}%`;
-}
 
 const STYLE = `
 body { font-family: sans-serif; margin: 24px auto; max-width: 1200px; padding: 0 16px; color: #1a1a1a; line-height: 1.4; }

@@ -83,7 +83,11 @@ function csvField(value: TableCell): string {
   return /[",\r\n]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
 }
 
-/** RFC 4180 CSV: header row, plain numbers at full precision, empty = missing. */
+/**
+ * CSV: header row, plain numbers at full precision, empty = missing. Fields
+ * are quoted as RFC 4180 says, but lines end in LF, not CRLF: LF is what
+ * pandas and R read by default.
+ */
 export function toCsv(table: SummaryTable): string {
   const lines = [table.columns.map(csvField).join(',')];
   for (const row of table.rows) lines.push(row.map(csvField).join(','));

@@ -1,16 +1,18 @@
 import { link, mkdir, readFile, unlink, writeFile } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
 import { randomBytes } from 'node:crypto';
+import { writeFileAtomic } from '../atomic-write.js';
 import { canonicalJson } from '../canonical-json.js';
 import { InputError, SweepMismatchError } from '../errors.js';
 import { FailureRecordSchema, ResultRecordSchema, type FailureRecord, type ResultRecord } from '../schemas/records.js';
 import { StoredSweepSchema, SWEEP_FORMAT, sweepFromStored, type LoadedSweep, type StoredSweep } from '../sweep/load.js';
 import { CODE_VERSION } from '../version.js';
 import { fnv1a32, scanShards, type ScanOptions } from './shard-reader.js';
-import { createShardWriter, type ShardWriter } from './shard-writer.js';
+import { createShardWriter, type ShardFs, type ShardWriter } from './shard-writer.js';
 
 export type { ScanOptions, StoreWarning } from './shard-reader.js';
-export type { ShardWriter } from './shard-writer.js';
+export type { ShardFs, ShardWriter } from './shard-writer.js';
+export { ShardWriteError } from './shard-writer.js';
 export { newWriterId, isWriterId } from './writer-id.js';
 
 /** A record's identity for duplicate checks: what a re-run of its job must reproduce. */
@@ -95,6 +97,7 @@ export class ResultStore {
     const existing = await this.readStored();
     if (existing !== undefined) {
       if (existing.hash !== sweep.hash) throw this.mismatch(existing, sweep);
+      await this.updateReport(existing, sweep);
     } else {
       try {
         await mkdir(this.dir, { recursive: true });
@@ -130,6 +133,17 @@ export class ResultStore {
     await mkdir(this.failuresDir, { recursive: true });
   }
 
+  /**
+   * `report` is left out of the hash, so an edited report section passes the
+   * hash check; store it, or `recallscape report` would keep the old defaults.
+   * Only `sweep.report` changes; hash, codeVersion, createdAt and source stay.
+   */
+  private async updateReport(existing: StoredSweep, sweep: LoadedSweep): Promise<void> {
+    if (canonicalJson(existing.sweep['report'] ?? null) === canonicalJson(sweep.spec.report)) return;
+    const updated: StoredSweep = { ...existing, sweep: { ...existing.sweep, report: sweep.spec.report } };
+    await writeFileAtomic(this.sweepFile, `${JSON.stringify(updated, null, 2)}\n`, { createFolder: false });
+  }
+
   /** The sweep of this folder, re-validated under this build. InputError if there is none. */
   async readSweep(): Promise<LoadedSweep & { readonly codeVersion: string; readonly createdAt: string }> {
     const stored = await this.readStored();
@@ -153,9 +167,9 @@ export class ResultStore {
     return stored.hash;
   }
 
-  /** Shard files for one writer (one per process; see newWriterId). */
-  openWriter(writer: string): ShardWriter {
-    return createShardWriter(this.resultsDir, this.failuresDir, writer);
+  /** Shard files for one writer (one per process; see newWriterId). `fs` replaces the file calls (tests inject faults). */
+  openWriter(writer: string, fs?: ShardFs): ShardWriter {
+    return createShardWriter(this.resultsDir, this.failuresDir, writer, ...(fs === undefined ? [] : [fs]));
   }
 
   /**

@@ -6,12 +6,14 @@ export const SWEEP_FORMAT = 'recallscape-sweep/1';
 
 /**
  * The sweep hash covers everything that decides which jobs exist and what
- * they compute: name, model id and version, seed, replicates, fixed, vary and
- * sampler; not `report`, which only changes how results are drawn. Sampled
- * sweeps also hash the order of the varied parameters, because it assigns the
- * sampler's dimensions; a grid's job set does not depend on that order.
+ * they compute: name, model id and version, seed, replicates, the base
+ * parameters (model defaults + fixed, as validated: writing a default into
+ * `fixed` changes no job, so it changes no hash), vary and sampler; not
+ * `report`, which only changes how results are drawn. Sampled sweeps also
+ * hash the order of the varied parameters, because it assigns the sampler's
+ * dimensions; a grid's job set does not depend on that order.
  */
-export function sweepHash(spec: SweepSpec, model: AnyModel): string {
+export function sweepHash(spec: SweepSpec, model: AnyModel, baseParams: Readonly<Record<string, unknown>>): string {
   const order = spec.sampler.kind === 'grid' ? undefined : Object.keys(spec.vary);
   return sha256Hex(
     canonicalJson({
@@ -21,7 +23,7 @@ export function sweepHash(spec: SweepSpec, model: AnyModel): string {
       modelVersion: model.version,
       seed: spec.seed,
       replicates: spec.replicates,
-      fixed: spec.fixed,
+      base: baseParams,
       vary: spec.vary,
       sampler: spec.sampler,
       order,

@@ -211,7 +211,7 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
 
   return {
     spec,
-    hash: sweepHash(spec, model),
+    hash: sweepHash(spec, model, baseParams),
     model,
     baseParams,
     variedNames,

@@ -42,6 +42,19 @@ export const StepsRangeSchema = z
     if (r.steps === 1 && r.from !== r.to) {
       ctx.addIssue({ code: 'custom', path: ['steps'], message: `steps: 1 gives one value but from (${r.from}) and to (${r.to}) differ; use steps >= 2, or from = to` });
     }
+    // Interior values are rounded to 12 significant digits (tidy); steps closer
+    // than that would repeat a value, and repeated values would be repeated jobs.
+    if (r.steps > 1 && r.from !== r.to && !(r.scale === 'log' && (r.from <= 0 || r.to <= 0))) {
+      const values = stepValues(r);
+      const repeated = values.find((v, i) => values.indexOf(v) !== i);
+      if (repeated !== undefined) {
+        ctx.addIssue({
+          code: 'custom',
+          path: ['steps'],
+          message: `${r.steps} steps from ${r.from} to ${r.to} are closer than the 12-significant-digit precision of grid values, so the value ${repeated} would repeat; use fewer steps or ends further apart`,
+        });
+      }
+    }
   });
 
 /** A continuous interval for the random, lhs and sobol samplers. */

@@ -1,7 +1,10 @@
-import { readFile } from 'node:fs/promises';
+import { mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { parseWholeNumber } from '../../coordinator/cli-support.js';
 import { DEMO_SWEEP_YAML } from '../../coordinator/demo-sweep.js';
-import { formatPlan, planSweep } from '../../coordinator/plan-sweep.js';
+import { formatPlan, loadSweepForCommand, planSweep } from '../../coordinator/plan-sweep.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
 
 const BURN = `
@@ -67,5 +70,47 @@ describe('the built-in demo sweep', () => {
     const sweep = parseSweepText(DEMO_SWEEP_YAML, 'demo');
     expect(sweep.model.id).toBe('bcpnn-sequences');
     expect(sweep.variedNames).toEqual(['patternOverlap', 'overlapLength', 'tauZPre']);
+  });
+});
+
+describe('loadSweepForCommand', () => {
+  it('refuses a sweep over --max-jobs with a message saying how to go on, and loads it with --yes', async () => {
+    const dir = await mkdtemp(join(tmpdir(), 'rs-plan-'));
+    try {
+      const file = join(dir, 'burn.yaml');
+      await writeFile(file, BURN);
+      // 15 points x 4 replicates = 60 jobs (worked by hand).
+      const refused = loadSweepForCommand(file, { maxJobs: 59, yes: false });
+      await expect(refused).rejects.toMatchObject({ name: 'InputError' });
+      await expect(refused).rejects.toThrow('sweep has 60 jobs, more than the limit 59; pass --yes to run it anyway or raise --max-jobs');
+      expect((await loadSweepForCommand(file, { maxJobs: 60, yes: false })).pointCount).toBe(15);
+      expect((await loadSweepForCommand(file, { maxJobs: 59, yes: true })).pointCount).toBe(15);
+    } finally {
+      await rm(dir, { recursive: true, force: true });
+    }
+  });
+});
+
+describe('parseWholeNumber', () => {
+  it('accepts a whole number in range, spaces around it allowed', () => {
+    expect(parseWholeNumber('--threads', '4', 1, 1024)).toBe(4);
+    expect(parseWholeNumber('--prefetch', ' 0 ', 0, 1000)).toBe(0);
+    expect(parseWholeNumber('--max-jobs', '9007199254740991', 1)).toBe(Number.MAX_SAFE_INTEGER);
+  });
+
+  it('rejects fractions, signs, exponents, words and numbers out of range as InputError naming the option', () => {
+    for (const raw of ['2.5', '-1', '+3', '1e3', 'four', '', '0x10', '1025', '0']) {
+      let caught: unknown;
+      try {
+        parseWholeNumber('--threads', raw, 1, 1024);
+      } catch (error) {
+        caught = error;
+      }
+      expect(caught, raw).toMatchObject({
+        name: 'InputError',
+        message: `--threads must be a whole number from 1 to 1024, got "${raw}"`,
+        issues: [{ path: '--threads' }],
+      });
+    }
   });
 });

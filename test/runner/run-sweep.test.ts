@@ -1,4 +1,6 @@
-import { mkdtemp, readdir, readFile, rm } from 'node:fs/promises';
+import { execFile } from 'node:child_process';
+import * as fs from 'node:fs';
+import { mkdtemp, readdir, readFile, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Writable } from 'node:stream';
@@ -7,6 +9,7 @@ import { runSweep, type RunProgress } from '../../coordinator/run-sweep.js';
 import { createLogger } from '../../shared/logger.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
+import type { ShardFs } from '../../shared/store/result-store.js';
 
 // Threads run the compiled entry (npm test builds first); this test imports the runner from sources.
 const ENTRY = new URL('../../dist/worker/thread-entry.js', import.meta.url);
@@ -152,4 +155,121 @@ describe('runSweep', () => {
     expect(result.missing).toBe(12);
     expect(await readShards(join(root, 'burn-run', 'results'))).toHaveLength(0);
   });
+
+  it('stops at once after a shard write fails part-way, appends nothing after the torn line, and a resume runs only the jobs without a complete record', async () => {
+    const sweep = parseSweepText(NO_OP, 'noop.yaml');
+    const { logger } = quietLogger();
+    const faulty = failingFs(5);
+    const error = await runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY, shardFs: faulty.fs }).then(
+      () => undefined,
+      (e: unknown) => e as Error,
+    );
+    expect(error?.name).toBe('ShardWriteError');
+    expect(error?.message).toContain('ENOSPC');
+    expect(error?.message).not.toContain('\n');
+    // Nothing was written after the failing call (the disk "works" again by then).
+    expect(faulty.callsAfterFailure()).toBe(0);
+
+    const resultsDir = join(root, 'noop-run', 'results');
+    const [shard] = await readdir(resultsDir);
+    const text = await readFile(join(resultsDir, shard!), 'utf8');
+    expect(text.endsWith('\n')).toBe(false);
+    const lines = text.split('\n');
+    const torn = lines.pop()!;
+    expect(lines).toHaveLength(4); // write calls 1-4 succeeded; call 5 wrote half a line
+    const complete = lines.map((l) => JSON.parse(l) as { key: string });
+    expect(torn.match(/"key"/g) ?? []).toHaveLength(1);
+    expect(() => JSON.parse(torn) as unknown).toThrow();
+
+    const resumed = await runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY });
+    expect(resumed).toMatchObject({ planned: 30, alreadyDone: 4, ran: 26, succeeded: 26, missing: 0 });
+    const again = (await readdir(resultsDir)).filter((n) => n !== shard);
+    expect(again).toHaveLength(1);
+    const second = (await readFile(join(resultsDir, again[0]!), 'utf8')).trimEnd().split('\n').map((l) => JSON.parse(l) as { key: string });
+    const firstKeys = new Set(complete.map((r) => r.key));
+    for (const r of second) expect(firstKeys.has(r.key)).toBe(false);
+    expect(new Set([...firstKeys, ...second.map((r) => r.key)]).size).toBe(30);
+  });
+
+  it('abandons a long running job when a shard write fails instead of waiting for it', async () => {
+    // Job 1 takes no time; job 2 would busy-wait ten minutes. The write of job 1's result fails.
+    const sweep = parseSweepText('name: burn-fault\nmodel: cpu-burn\nseed: 1\nvary:\n  burnMs: { list: [0, 600000] }\n', 'burn.yaml');
+    const { logger } = quietLogger();
+    const faulty = failingFs(1);
+    const outcome = await Promise.race([
+      runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY, shardFs: faulty.fs }).then(
+        () => 'finished',
+        (e: unknown) => (e as Error).name,
+      ),
+      // Not a speed goal: a run that waited for the ten-minute job would still be going after 30 s.
+      new Promise<string>((resolve) => setTimeout(() => resolve('still waiting for the running job'), 30_000).unref()),
+    ]);
+    expect(outcome).toBe('ShardWriteError');
+    expect(faulty.callsAfterFailure()).toBe(0);
+  });
+
+  it('ends the real CLI with exit code 1 and a one-line message when the results file hits the size limit', async () => {
+    const file = join(root, 'sweep.yaml');
+    await writeFile(file, NO_OP);
+    const cli = join(process.cwd(), 'bin', 'recallscape.js');
+    // `ulimit -f 2`: no file may grow past 2048 bytes; a result line is a few hundred bytes,
+    // so a write fails part-way (EFBIG) after a few records (common practice, no source).
+    const run = (limit: string): Promise<{ code: number; stderr: string }> =>
+      new Promise((resolve) => {
+        execFile(
+          'bash',
+          ['-c', `${limit} exec "$0" "$@"`, process.execPath, cli, 'run', file, '--out', root, '--threads', '2'],
+          (err, _stdout, stderr) => resolve({ code: err === null ? 0 : Number((err as { code?: unknown }).code), stderr }),
+        );
+      });
+    const first = await run('ulimit -f 2;');
+    expect(first.code).toBe(1);
+    const messages = first.stderr.split('\n').filter((l) => l.startsWith('recallscape: '));
+    expect(messages).toHaveLength(1);
+    expect(messages[0]).toMatch(/shard file .*noop-run\/results\/.*\.ndjson failed \(EFBIG/);
+    expect(first.stderr).not.toMatch(/\n\s+at /);
+
+    const resultsDir = join(root, 'noop-run', 'results');
+    const [shard] = await readdir(resultsDir);
+    const lines = (await readFile(join(resultsDir, shard!), 'utf8')).split('\n');
+    const torn = lines.pop()!;
+    const complete = lines.map((l) => JSON.parse(l) as { key: string });
+    expect(complete.length).toBeGreaterThan(0);
+    expect(torn.match(/"key"/g)?.length ?? 0).toBeLessThanOrEqual(1);
+
+    const second = await run('');
+    expect(second.code).toBe(0);
+    const later = (await readdir(resultsDir)).filter((n) => n !== shard);
+    const rerun = (await readFile(join(resultsDir, later[0]!), 'utf8')).trimEnd().split('\n').map((l) => JSON.parse(l) as { key: string });
+    expect(rerun).toHaveLength(30 - complete.length);
+    expect(new Set([...complete, ...rerun].map((r) => r.key)).size).toBe(30);
+  });
 });
+
+/**
+ * node:fs, except that write call number `failAt` (1-based) writes half of its
+ * bytes and the next call fails with ENOSPC, as a full disk does; later calls
+ * succeed again (space freed), so anything appended then would be glued on.
+ */
+function failingFs(failAt: number): { fs: ShardFs; callsAfterFailure: () => number } {
+  let calls = 0;
+  let failedAt = 0;
+  return {
+    callsAfterFailure: () => (failedAt === 0 ? -1 : calls - failedAt),
+    fs: {
+      mkdirSync: (path, options) => fs.mkdirSync(path, options),
+      openSync: (path, flags) => fs.openSync(path, flags),
+      fdatasyncSync: (fd) => fs.fdatasyncSync(fd),
+      closeSync: (fd) => fs.closeSync(fd),
+      writeSync(fd, buffer, offset = 0) {
+        calls++;
+        if (calls === failAt + 1) {
+          failedAt = calls;
+          throw Object.assign(new Error('ENOSPC: no space left on device, write'), { code: 'ENOSPC' });
+        }
+        if (calls === failAt) return fs.writeSync(fd, buffer, offset, Math.floor((buffer.length - offset) / 2));
+        return fs.writeSync(fd, buffer, offset);
+      },
+    },
+  };
+}

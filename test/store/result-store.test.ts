@@ -85,6 +85,27 @@ describe('result store', () => {
     expect((await readdir(store.dir)).sort()).toEqual(['failures', 'results', 'sweep.json']);
   });
 
+  it('stores an edited report section on a re-run and keeps hash, createdAt, codeVersion and source', async () => {
+    const store = ResultStore.at(root, 'store-test');
+    await store.prepare(sweep);
+    const file = join(store.dir, 'sweep.json');
+    const before = JSON.parse(await readFile(file, 'utf8')) as Record<string, unknown> & { sweep: Record<string, unknown> };
+    expect(before.sweep['report']).toEqual({});
+    const edited = parseSweepText(`${SWEEP_TEXT}report: { x: value, bins: 7 }\n`, 'store.yaml');
+    expect(edited.hash).toBe(sweep.hash);
+    await store.prepare(edited);
+    const after = JSON.parse(await readFile(file, 'utf8')) as Record<string, unknown> & { sweep: Record<string, unknown> };
+    expect(after.sweep['report']).toEqual({ x: 'value', bins: 7 });
+    expect(Object.keys(after)).toEqual(['format', 'hash', 'codeVersion', 'createdAt', 'source', 'sweep']);
+    for (const field of ['format', 'hash', 'codeVersion', 'createdAt', 'source']) expect(after[field]).toEqual(before[field]);
+    expect(Object.keys(after.sweep)).toEqual(Object.keys(before.sweep));
+    expect({ ...after.sweep, report: {} }).toEqual(before.sweep);
+    // Read back through the store (as `recallscape report` does), and no temporary file is left.
+    const back = await ResultStore.open(store.dir).readSweep();
+    expect(back.spec.report).toEqual({ x: 'value', bins: 7 });
+    expect((await readdir(store.dir)).sort()).toEqual(['failures', 'results', 'sweep.json']);
+  });
+
   it('refuses a results root that is a file, as an input error', async () => {
     await writeFile(join(root, 'plain-file'), 'x');
     const store = ResultStore.at(join(root, 'plain-file'), 'store-test');

@@ -1,9 +1,10 @@
 import { existsSync } from 'node:fs';
-import { readFile, readdir } from 'node:fs/promises';
+import { appendFile, readFile, readdir, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { findJob } from '../../coordinator/summarize/inspect-job.js';
-import { expandJobs } from '../../shared/sweep/expand.js';
+import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
+import { runJob } from '../../worker/run-job.js';
 import { runCli } from '../cli/cli-helpers.js';
 import { BURN_SWEEP, makeSweepFolder, type SweepFolder } from './sweep-folder.js';
 
@@ -56,6 +57,76 @@ describe('recallscape report', () => {
     expect(result.code).toBe(2);
     expect(result.stderr).toContain('sweep.json');
     expect(existsSync(join(folder.root, 'nothing-here'))).toBe(false);
+  });
+
+  it('exits with 2 for --bins out of range, naming the option and the allowed range', async () => {
+    const result = await runCli(['report', folder.dir, '--bins', '1'], folder.root);
+    expect(result.code).toBe(2);
+    expect(result.stderr).toBe('recallscape: --bins must be a whole number from 2 to 200, got "1"\n');
+  });
+});
+
+describe('recallscape report on shards with many damaged lines', () => {
+  let folder: SweepFolder;
+  beforeAll(async () => {
+    folder = await makeSweepFolder(BURN_SWEEP, (job) => job.replicate === 0);
+    // 250 lines that are no records: more than the report keeps in full (200), many more than it prints (10).
+    await writeFile(join(folder.dir, 'results', 'junk-writer.ndjson'), 'not a record\n'.repeat(250));
+  });
+  afterAll(async () => folder.cleanup());
+
+  it('prints the first ten warnings and the true number of the others', async () => {
+    const result = await runCli(['report', folder.dir, '--format', 'html'], folder.root);
+    expect(result.code, result.stderr).toBe(0);
+    const lines = result.stderr.trimEnd().split('\n');
+    expect(lines.slice(0, 10).every((l) => l.startsWith('recallscape: warning: bad-line: '))).toBe(true);
+    // 250 - 10 printed = 240 (worked by hand), not 200 - 10.
+    expect(lines.slice(10)).toEqual(['recallscape: warning: ... 240 more (index.html lists the first 200)']);
+    const html = await readFile(join(folder.dir, 'report', 'index.html'), 'utf8');
+    expect(html).toContain('250 problem(s) in the result files');
+    expect(html).toContain('... and 50 more');
+  });
+});
+
+describe('recallscape report and progress on a sweep one job short of done', () => {
+  let folder: SweepFolder;
+  beforeAll(async () => {
+    // 100 points x 100 replicates = 10000 jobs; every one but the very first has a record.
+    let first = true;
+    folder = await makeSweepFolder(
+      'name: nearly-done\nmodel: no-op\nseed: 2\nreplicates: 100\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n',
+      () => {
+        const keep = !first;
+        first = false;
+        return keep;
+      },
+    );
+  });
+  afterAll(async () => folder.cleanup());
+
+  it('reads 99.9% in the report, not 100.0%', async () => {
+    expect(folder.written).toBe(9999);
+    const result = await runCli(['report', folder.dir, '--format', 'html'], folder.root);
+    expect(result.code, result.stderr).toBe(0);
+    // 9999 / 10000 = 99.99%, rounded down to one decimal (worked by hand).
+    expect(result.stdout).toContain('completed 9999 of 10000 jobs (99.9%)');
+    const html = await readFile(join(folder.dir, 'report', 'index.html'), 'utf8');
+    expect(html).toContain('9999 of 10000 (99.9% complete)');
+  });
+
+  it('reads 99.9% in progress, and 100.0% once the last job is done', async () => {
+    const before = await runCli(['progress', folder.dir], folder.root);
+    expect(before.code, before.stderr).toBe(0);
+    expect(before.stdout).toMatch(/^finished  9999 \(99\.9%\)$/m);
+    // Run the missing job as a worker would and store its record.
+    const missing = [...expandJobs(folder.sweep)][0];
+    if (missing === undefined) throw new Error('the sweep has no jobs');
+    const outcome = runJob(toPayload(folder.sweep, missing), { writer: 'last-writer', run: 'run-2' });
+    if (!outcome.ok) throw new Error(`the last job failed: ${outcome.message}`);
+    await appendFile(join(folder.dir, 'results', 'last-writer.ndjson'), `${JSON.stringify(outcome.record)}\n`);
+    const after = await runCli(['progress', folder.dir], folder.root);
+    expect(after.code, after.stderr).toBe(0);
+    expect(after.stdout).toMatch(/^finished  10000 \(100\.0%\)$/m);
   });
 });
 
@@ -129,6 +200,22 @@ vary:
     expect(result.stdout).toContain('stored record: identical metrics');
     expect(result.stdout).toContain('this model records no trace');
     expect(existsSync(join(burn.dir, 'report'))).toBe(false);
+  });
+
+  it('exits with 1 and says the job is not reproducible when the stored metrics differ, still printing the metrics and the trace path', async () => {
+    // Runs last on this folder: it changes the stored record.
+    const shard = join(bcpnn.dir, 'results', 'test-writer-1.ndjson');
+    const stored = JSON.parse((await readFile(shard, 'utf8')).trim()) as { key: string; metrics: Record<string, unknown> };
+    await writeFile(shard, `${JSON.stringify({ ...stored, metrics: { ...stored.metrics, success: !stored.metrics['success'] } })}\n`);
+    const out = join(bcpnn.root, 'differs.svg');
+    const result = await runCli(['inspect', bcpnn.dir, '--job', stored.key, '--out', out], bcpnn.root);
+    expect(result.code).toBe(1);
+    expect(result.stderr).toContain(`recallscape: not reproducible: re-running job ${stored.key} gave other metrics than its stored record`);
+    // The re-run's own metrics are the untouched ones.
+    expect(result.stdout).toContain(`metrics: ${JSON.stringify(stored.metrics)}`);
+    expect(result.stdout).toContain('stored record: DIFFERENT metrics: ');
+    expect(result.stdout).toContain(`trace: 2 recall panel(s) drawn to ${out}`);
+    expect(existsSync(out)).toBe(true);
   });
 
   it('exits with 2 for a key that is not in the sweep', async () => {

@@ -63,8 +63,21 @@ describe('sweep hash', () => {
 
   it('changes with the model version', () => {
     const sweep = parseSweepText(JSON.stringify(BASE), 'h.json');
-    expect(sweepHash(sweep.spec, sweep.model)).toBe(sweep.hash);
-    expect(sweepHash(sweep.spec, { ...sweep.model, version: `${sweep.model.version}.1` })).not.toBe(sweep.hash);
+    expect(sweepHash(sweep.spec, sweep.model, sweep.baseParams)).toBe(sweep.hash);
+    expect(sweepHash(sweep.spec, { ...sweep.model, version: `${sweep.model.version}.1` }, sweep.baseParams)).not.toBe(sweep.hash);
+  });
+
+  it('does not change when a model default is written into fixed, and neither do the job keys', () => {
+    // cpu-burn's default successRate is 1 (its schema in shared/models/utility/cpu-burn.ts); vary only burnMs here.
+    const doc = { name: 'defaults', model: 'cpu-burn', seed: 1, vary: { burnMs: { list: [0, 1] } } };
+    const implicit = parseSweepText(JSON.stringify(doc), 'd.json');
+    const explicit = parseSweepText(JSON.stringify({ ...doc, fixed: { successRate: 1 } }), 'd.json');
+    expect(explicit.spec.fixed).not.toEqual(implicit.spec.fixed);
+    expect([...expandJobs(explicit)].map((j) => j.key)).toEqual([...expandJobs(implicit)].map((j) => j.key));
+    expect(explicit.hash).toBe(implicit.hash);
+    // A value other than the default changes both.
+    const changed = parseSweepText(JSON.stringify({ ...doc, fixed: { successRate: 0.5 } }), 'd.json');
+    expect(changed.hash).not.toBe(implicit.hash);
   });
 
   it('does not change with the report section', () => {

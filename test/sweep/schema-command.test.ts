@@ -1,5 +1,5 @@
 import { execFile } from 'node:child_process';
-import { mkdtemp, readFile, readdir, rm } from 'node:fs/promises';
+import { mkdir, mkdtemp, readFile, readdir, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { promisify } from 'node:util';
@@ -52,5 +52,25 @@ describe('recallscape schema', () => {
     );
     expect(error?.code).toBe(2);
     expect(error?.stderr).toContain('--out /nonexistent-folder/x.json');
+  });
+
+  it('exits with code 2 when --out names a folder and leaves no temporary file behind', async () => {
+    const dir = await mkdtemp(join(tmpdir(), 'rs-schema-'));
+    try {
+      const folder = join(dir, 'a-folder');
+      await mkdir(folder);
+      const error = await run(process.execPath, [CLI, 'schema', '--out', folder]).then(
+        () => undefined,
+        (e: unknown) => e as { code: number; stderr: string },
+      );
+      expect(error?.code).toBe(2);
+      expect(error?.stderr).toContain(`--out ${folder}`);
+      expect(error?.stderr).not.toMatch(/\n\s+at /);
+      // Only the folder itself: no hidden .a-folder.*.tmp next to it, nothing inside it.
+      expect(await readdir(dir)).toEqual(['a-folder']);
+      expect(await readdir(folder)).toEqual([]);
+    } finally {
+      await rm(dir, { recursive: true, force: true });
+    }
   });
 });

@@ -23,6 +23,24 @@ function issueAt(error: InputError, path: string): FieldIssue {
 }
 
 describe('sweep file validation', () => {
+  it('rejects a from/to/steps range whose steps are closer than 12 significant digits, naming the field', () => {
+    // Inner steps 1.00000000000025, 1.0000000000005 and 1.00000000000075 all round to 1 at 12 significant digits (worked by hand).
+    const error = rejection('name: s\nmodel: no-op\nvary:\n  value: { from: 1, to: 1.000000000001, steps: 5 }\n');
+    const issue = issueAt(error, 'vary.value.steps');
+    expect(issue.message).toContain('12-significant-digit precision');
+    expect(error.message).toContain('vary.value');
+  });
+
+  it('still accepts steps that are distinct at 12 significant digits', () => {
+    const sweep = parseSweepText('name: s\nmodel: no-op\nvary:\n  value: { from: 1, to: 1.00000001, steps: 5 }\n', 'ok.yaml');
+    expect(sweep.pointCount).toBe(5);
+  });
+
+  it('rejects a list that repeats a value, naming the field', () => {
+    const error = rejection('name: s\nmodel: no-op\nvary:\n  value: { list: [1, 2, 1.0] }\n');
+    expect(error.issues.find((i) => i.path.startsWith('vary.value'))?.message).toContain('distinct');
+  });
+
   it('rejects an unknown parameter and suggests the close known name', () => {
     const error = rejection('name: s\nmodel: cpu-burn\nvary:\n  sucessRate: { list: [0.5] }\n');
     const issue = issueAt(error, 'vary.sucessRate');
