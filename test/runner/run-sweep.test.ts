@@ -127,7 +127,8 @@ describe('runSweep', () => {
     const first = await runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY, signal: stop.signal, onProgress });
     expect(first.stopped).toBe('graceful');
     expect(first.succeeded).toBeGreaterThanOrEqual(2);
-    expect(first.succeeded).toBeLessThan(12);
+    // The stop came at the second result; at most one job per thread was still running then.
+    expect(first.succeeded).toBeLessThanOrEqual(2 + 2);
     expect(first.missing).toBe(12 - first.succeeded);
     const written = await readShards(join(root, 'burn-run', 'results'));
     expect(written).toHaveLength(first.succeeded);
