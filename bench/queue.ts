@@ -4,8 +4,8 @@
  * - time to submit 100,000 jobs, and to submit the same sweep again;
  * - Redis memory per 1,000 waiting jobs;
  * - jobs per second and per-job overhead with 1 and 2 worker processes
- *   (`recallscape worker --threads 1`, simulations in worker threads), without
- *   and with `--prefetch 4` (jobs held beyond the running one), on
+ *   (`recallscape worker --threads 1`, simulations in worker threads), with
+ *   `--prefetch auto` (the default), 0 and 4 (jobs held beyond the running one), on
  *   10,000 jobs to keep the section short (RECALLSCAPE_BENCH_QUEUE_JOBS changes it);
  * - Redis memory of a finished sweep before and after `gather`.
  * Runs against a redis-server of its own on a free port when `redis-server`
@@ -90,7 +90,7 @@ async function usedMemory(client: Redis): Promise<number> {
   return Number(/used_memory:(\d+)/.exec(info)?.[1] ?? NaN);
 }
 
-function startWorker(url: string, settings: QueueSettings, out: string, prefetch: number): { child: ChildProcess; ready: Promise<void> } {
+function startWorker(url: string, settings: QueueSettings, out: string, prefetch: number | 'auto'): { child: ChildProcess; ready: Promise<void> } {
   const child = spawn(process.execPath, [CLI, 'worker', '--redis', url, '--threads', '1', '--prefetch', String(prefetch), '--out', out, '--queue', settings.queue.name, '--prefix', settings.queue.prefix], {
     stdio: ['ignore', 'ignore', 'pipe'],
     env: { ...process.env, RECALLSCAPE_LOG_LEVEL: 'info' },
@@ -115,7 +115,7 @@ async function stopWorker(child: ChildProcess): Promise<void> {
 
 const ms = (t0: number): number => performance.now() - t0;
 
-async function throughput(url: string, client: Redis, workers: number, prefetch: number, root: string, file: string): Promise<void> {
+async function throughput(url: string, client: Redis, workers: number, prefetch: number | 'auto', root: string, file: string): Promise<void> {
   const tag = randomBytes(3).toString('hex');
   const settings = queueSettings({ redis: url, queue: `bench-${tag}`, prefix: `rsb${tag}`, connectTimeout: '10000' });
   const out = join(root, `run-${workers}-${prefetch}`);
@@ -210,7 +210,7 @@ export async function run(): Promise<void> {
     console.log(`  queue path, ${RUN_JOBS} no-op jobs (records fdatasync'ed before each acknowledgement):`);
     console.log(`  (one append + fdatasync on this disk takes ${(await syncLatency(root)).toFixed(2)} ms now: part of every job's overhead)`);
     baseline = await usedMemory(client);
-    for (const prefetch of [0, 4]) {
+    for (const prefetch of ['auto', 0, 4] as const) {
       await throughput(server.url, client, 1, prefetch, root, small);
       await throughput(server.url, client, 2, prefetch, root, small);
     }

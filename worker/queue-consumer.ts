@@ -33,8 +33,9 @@ export interface QueueConsumerOptions {
    * Jobs taken beyond one per thread, waiting in this process for a free
    * thread. Hides the Redis round trip behind the previous job (worth it for
    * jobs of milliseconds); with long jobs it lets idle workers wait at the end.
+   * 'auto' (the default) prefetches only while recent jobs are short.
    */
-  readonly prefetch?: number;
+  readonly prefetch?: number | 'auto';
   readonly lockMs?: number;
   readonly stallCheckMs?: number;
   readonly maxStalledCount?: number;
@@ -42,6 +43,11 @@ export interface QueueConsumerOptions {
   /** The pool can run nothing (e.g. threads fail to load): the worker should stop rather than fail every job. */
   readonly onFatal?: (reason: string) => void;
 }
+
+/** With prefetch 'auto': hold extra jobs while the mean job takes less than this. */
+export const AUTO_PREFETCH_BELOW_MS = 100;
+/** With prefetch 'auto': extra jobs held per thread while jobs are short. */
+export const AUTO_PREFETCH_PER_THREAD = 4;
 
 export interface ConsumerCounts {
   completed: number;
@@ -60,13 +66,16 @@ export class QueueConsumer {
   private readonly writers = new Map<string, ShardWriter>();
   private readonly pendingSyncs = new Map<ShardWriter, Promise<void>>();
   private readonly root: string;
+  /** Moving mean of recent jobs' simulation time (ms), for prefetch 'auto'. */
+  private meanJobMs: number | undefined;
 
   constructor(private readonly options: QueueConsumerOptions) {
     this.root = resolve(options.resultsRoot);
     this.worker = new Worker(options.queue.name, (job, token) => this.process(job, token), {
       connection: options.connection,
       prefix: options.queue.prefix,
-      concurrency: options.pool.threads + (options.prefetch ?? 0),
+      // 'auto' starts without extra jobs, so long jobs are never held back.
+      concurrency: options.pool.threads + (typeof options.prefetch === 'number' ? options.prefetch : 0),
       lockDuration: options.lockMs ?? DEFAULT_LOCK_MS,
       stalledInterval: options.stallCheckMs ?? DEFAULT_STALL_CHECK_MS,
       maxStalledCount: options.maxStalledCount ?? DEFAULT_MAX_STALLED,
@@ -99,6 +108,11 @@ export class QueueConsumer {
       this.options.logger.error({ reason: error instanceof Error ? error.message : String(error) }, 'queue worker stopped');
     });
     await this.worker.waitUntilReady();
+  }
+
+  /** Jobs this worker takes at once right now (threads plus prefetched jobs). */
+  get concurrency(): number {
+    return this.worker.concurrency;
   }
 
   /** Stop taking jobs, let running ones finish and be acknowledged, close shards. */
@@ -148,6 +162,7 @@ export class QueueConsumer {
       const writer = this.writerFor(folder);
       writer.appendResult(outcome.record);
       await this.durable(writer);
+      this.adaptPrefetch(outcome.record.elapsedMs);
       return outcome.record;
     }
     const reason = `${outcome.kind}: ${outcome.message}`;
@@ -172,6 +187,21 @@ export class QueueConsumer {
     }
     if (!outcome.retryable) throw new UnrecoverableError(reason);
     throw new Error(reason);
+  }
+
+  /**
+   * Prefetch 'auto': hold extra jobs while jobs are short (the Redis round
+   * trip is then a large share of each job), none once they are long (a held
+   * job would wait behind a running one while other workers may be idle).
+   * Uses the time inside the thread, not the wait for a thread, so holding
+   * jobs does not itself switch holding off.
+   */
+  private adaptPrefetch(jobMs: number): void {
+    if (this.options.prefetch !== undefined && this.options.prefetch !== 'auto') return;
+    this.meanJobMs = this.meanJobMs === undefined ? jobMs : 0.8 * this.meanJobMs + 0.2 * jobMs;
+    const threads = this.options.pool.threads;
+    const wanted = threads + (this.meanJobMs < AUTO_PREFETCH_BELOW_MS ? AUTO_PREFETCH_PER_THREAD * threads : 0);
+    if (this.worker.concurrency !== wanted) this.worker.concurrency = wanted;
   }
 
   /**

@@ -32,7 +32,7 @@ export function registerWorker(program: Command): void {
       .option('--out <dir>', 'results root; results of sweep S go to <dir>/S/results/<worker name>.ndjson', 'results')
       .option('--name <id>', 'worker name: its result files are <id>-<pid>-<random>.ndjson (default: the host name)')
       .option('--nice <n>', 'run at a lower CPU priority, from 0 (normal) to 19 (lowest), as on shared machines')
-      .option('--prefetch <n>', 'jobs to hold beyond one per thread, so short jobs wait less for Redis (use 0 for long jobs)', '0')
+      .option('--prefetch <n>', 'jobs to hold beyond one per thread, so short jobs wait less for Redis; "auto" holds some only while jobs take under 0.1 s', 'auto')
       .option('--lock-ms <ms>', 'job lock duration; a dead worker\'s job is taken over after about lock + stall check', String(DEFAULT_LOCK_MS))
       .option('--stall-check-ms <ms>', 'how often to look for jobs whose worker died', String(DEFAULT_STALL_CHECK_MS))
       .option('--max-stalled <n>', 'times a job may lose its worker before it is failed', String(DEFAULT_MAX_STALLED)),
@@ -46,7 +46,7 @@ async function runWorker(options: WorkerOptions): Promise<void> {
   const lockMs = parseWholeNumber('--lock-ms', options.lockMs, 500, 3_600_000);
   const stallCheckMs = parseWholeNumber('--stall-check-ms', options.stallCheckMs, 200, 3_600_000);
   const maxStalledCount = parseWholeNumber('--max-stalled', options.maxStalled, 0, 100);
-  const prefetch = parseWholeNumber('--prefetch', options.prefetch, 0, 1000);
+  const prefetch = options.prefetch === 'auto' ? 'auto' : parsePrefetch(options.prefetch);
   const nice = options.nice === undefined ? undefined : parseWholeNumber('--nice', options.nice, 0, 19);
   if (options.name !== undefined && !/^[a-z0-9][a-z0-9._-]{0,99}$/.test(options.name)) {
     throw new InputError(`--name: use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit (got "${options.name}")`, [
@@ -146,5 +146,14 @@ function lowerPriority(nice: number): void {
     } catch {
       // A thread that ended meanwhile.
     }
+  }
+}
+
+function parsePrefetch(raw: string): number {
+  try {
+    return parseWholeNumber('--prefetch', raw, 0, 1000);
+  } catch {
+    const message = `--prefetch must be "auto" or a whole number from 0 to 1000, got "${raw}"`;
+    throw new InputError(message, [{ path: '--prefetch', message }]);
   }
 }
