@@ -7,29 +7,10 @@ import { InputError } from '../../shared/errors.js';
 import type { FailureRecord, ResultRecord } from '../../shared/schemas/records.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
+import { resultFor } from './record-fixture.js';
 import { ResultStore, newWriterId, type StoreWarning } from '../../shared/store/result-store.js';
 
 const SWEEP_TEXT = 'name: store-test\nmodel: no-op\nseed: 2\nreplicates: 2\nvary:\n  value: { list: [1, 2, 3] }\n';
-
-function resultFor(sweep: LoadedSweep, index: number, extra: Partial<ResultRecord> = {}): ResultRecord {
-  const job = [...expandJobs(sweep)][index]!;
-  return {
-    v: 1,
-    key: job.key,
-    sweepHash: sweep.hash,
-    model: sweep.model.id,
-    modelVersion: sweep.model.version,
-    replicate: job.replicate,
-    seed: job.seed,
-    point: job.point,
-    metrics: { success: true, value: job.point['value'] as number },
-    writer: 'w',
-    run: 'r1',
-    finishedAt: '2026-01-01T00:00:00.000Z',
-    elapsedMs: 1,
-    ...extra,
-  };
-}
 
 async function collect(store: ResultStore, warnings: StoreWarning[] = []): Promise<ResultRecord[]> {
   const out: ResultRecord[] = [];

@@ -3,31 +3,11 @@ import { mkdtemp, readFile, readdir, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import type { ResultRecord } from '../../shared/schemas/records.js';
-import { expandJobs } from '../../shared/sweep/expand.js';
 import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
+import { resultFor } from './record-fixture.js';
 import { ResultStore, type ShardFs } from '../../shared/store/result-store.js';
 
 const SWEEP_TEXT = 'name: fault-test\nmodel: no-op\nseed: 2\nreplicates: 1\nvary:\n  value: { list: [1, 2, 3, 4] }\n';
-
-function resultFor(sweep: LoadedSweep, index: number): ResultRecord {
-  const job = [...expandJobs(sweep)][index]!;
-  return {
-    v: 1,
-    key: job.key,
-    sweepHash: sweep.hash,
-    model: sweep.model.id,
-    modelVersion: sweep.model.version,
-    replicate: job.replicate,
-    seed: job.seed,
-    point: job.point,
-    metrics: { success: true, value: job.point['value'] as number },
-    writer: 'w',
-    run: 'r1',
-    finishedAt: '2026-01-01T00:00:00.000Z',
-    elapsedMs: 1,
-  };
-}
 
 /**
  * node:fs, except that write call number `failAt` (1-based) writes only the
