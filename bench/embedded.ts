@@ -25,7 +25,11 @@ interface Measurement {
   readonly steady: number;
 }
 
-const silent = createLogger({ name: 'bench', level: 'warn', destination: new Writable({ write: (_c, _e, done) => done() }) });
+const silent = createLogger({
+  name: 'bench',
+  level: 'warn',
+  destination: new Writable({ write: (_c, _e, done) => done() }),
+});
 
 async function measure(yaml: string, threads: number): Promise<Measurement> {
   const sweep = parseSweepText(yaml, 'demo (bench)');
@@ -70,7 +74,8 @@ async function measure(yaml: string, threads: number): Promise<Measurement> {
 
 export async function run(): Promise<void> {
   const replicates = Number(process.env['RECALLSCAPE_BENCH_REPLICATES'] ?? '4');
-  if (!Number.isInteger(replicates) || replicates < 1) throw new Error('RECALLSCAPE_BENCH_REPLICATES must be a whole number >= 1');
+  if (!Number.isInteger(replicates) || replicates < 1)
+    throw new Error('RECALLSCAPE_BENCH_REPLICATES must be a whole number >= 1');
   const yaml = DEMO_SWEEP_YAML.replace(/^replicates: \d+$/m, `replicates: ${replicates}`);
   const jobs = countJobs(parseSweepText(yaml, 'demo (bench)'));
   console.log(`demo sweep points with ${replicates} replicates each: ${jobs} jobs per measurement`);

@@ -12,19 +12,19 @@
  * is installed (memory figures need a quiet server), else against
  * RECALLSCAPE_REDIS_URL or 127.0.0.1:6379 with a unique queue, deleted afterwards.
  */
-import { spawn, type ChildProcess } from 'node:child_process';
+import { type ChildProcess, spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import { closeSync, fdatasyncSync, openSync, writeSync } from 'node:fs';
 import { mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { fileURLToPath } from 'node:url';
 import { setTimeout as sleep } from 'node:timers/promises';
+import { fileURLToPath } from 'node:url';
 import { Redis } from 'ioredis';
-import { gatherSweep } from '../coordinator/gather.js';
 import { cancelSweep } from '../coordinator/cancel.js';
-import { queueSettings, type QueueSettings } from '../coordinator/queue-session.js';
+import { gatherSweep } from '../coordinator/gather.js';
+import { type QueueSettings, queueSettings } from '../coordinator/queue-session.js';
 import { submitSweep } from '../coordinator/submit-sweep.js';
 import { REDIS_URL_ENV } from '../shared/redis-url.js';
 
@@ -51,7 +51,11 @@ interface Server {
 
 async function startServer(): Promise<Server> {
   const port = await freePort();
-  const child = spawn('redis-server', ['--port', String(port), '--bind', '127.0.0.1', '--save', '', '--appendonly', 'no'], { stdio: 'ignore' });
+  const child = spawn(
+    'redis-server',
+    ['--port', String(port), '--bind', '127.0.0.1', '--save', '', '--appendonly', 'no'],
+    { stdio: 'ignore' },
+  );
   const spawned = await new Promise<boolean>((done) => {
     child.once('error', () => done(false));
     child.once('spawn', () => done(true));
@@ -90,11 +94,35 @@ async function usedMemory(client: Redis): Promise<number> {
   return Number(/used_memory:(\d+)/.exec(info)?.[1] ?? NaN);
 }
 
-function startWorker(url: string, settings: QueueSettings, out: string, prefetch: number | 'auto'): { child: ChildProcess; ready: Promise<void> } {
-  const child = spawn(process.execPath, [CLI, 'worker', '--redis', url, '--threads', '1', '--prefetch', String(prefetch), '--out', out, '--queue', settings.queue.name, '--prefix', settings.queue.prefix], {
-    stdio: ['ignore', 'ignore', 'pipe'],
-    env: { ...process.env, RECALLSCAPE_LOG_LEVEL: 'info' },
-  });
+function startWorker(
+  url: string,
+  settings: QueueSettings,
+  out: string,
+  prefetch: number | 'auto',
+): { child: ChildProcess; ready: Promise<void> } {
+  const child = spawn(
+    process.execPath,
+    [
+      CLI,
+      'worker',
+      '--redis',
+      url,
+      '--threads',
+      '1',
+      '--prefetch',
+      String(prefetch),
+      '--out',
+      out,
+      '--queue',
+      settings.queue.name,
+      '--prefix',
+      settings.queue.prefix,
+    ],
+    {
+      stdio: ['ignore', 'ignore', 'pipe'],
+      env: { ...process.env, RECALLSCAPE_LOG_LEVEL: 'info' },
+    },
+  );
   const ready = new Promise<void>((done, fail) => {
     let text = '';
     child.stderr?.on('data', (d: Buffer) => {
@@ -115,7 +143,14 @@ async function stopWorker(child: ChildProcess): Promise<void> {
 
 const ms = (t0: number): number => performance.now() - t0;
 
-async function throughput(url: string, client: Redis, workers: number, prefetch: number | 'auto', root: string, file: string): Promise<void> {
+async function throughput(
+  url: string,
+  client: Redis,
+  workers: number,
+  prefetch: number | 'auto',
+  root: string,
+  file: string,
+): Promise<void> {
   const tag = randomBytes(3).toString('hex');
   const settings = queueSettings({ redis: url, queue: `bench-${tag}`, prefix: `rsb${tag}`, connectTimeout: '10000' });
   const out = join(root, `run-${workers}-${prefetch}`);
@@ -184,11 +219,16 @@ export async function run(): Promise<void> {
   const tag = randomBytes(3).toString('hex');
   const prefix = `rsb${tag}`;
   try {
-    console.log(`  Redis: ${server.own ? 'a redis-server of its own' : 'the shared server (memory figures include other traffic)'}; no-op model`);
+    console.log(
+      `  Redis: ${server.own ? 'a redis-server of its own' : 'the shared server (memory figures include other traffic)'}; no-op model`,
+    );
     baseline = await usedMemory(client);
 
     const big = join(root, 'big.yaml');
-    await writeFile(big, `name: bench-submit\nmodel: no-op\nreplicates: ${SUBMIT_JOBS / 100}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`);
+    await writeFile(
+      big,
+      `name: bench-submit\nmodel: no-op\nreplicates: ${SUBMIT_JOBS / 100}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`,
+    );
     const settings = queueSettings({ redis: server.url, queue: `bench-${tag}`, prefix, connectTimeout: '10000' });
     let t0 = performance.now();
     const first = await submitSweep(big, join(root, 'submit'), settings, undefined);
@@ -197,18 +237,29 @@ export async function run(): Promise<void> {
     t0 = performance.now();
     const second = await submitSweep(big, join(root, 'submit'), settings, undefined);
     const secondMs = ms(t0);
-    console.log(`  submit ${first.enqueued} jobs: ${(firstMs / 1000).toFixed(2)} s (${(first.enqueued / (firstMs / 1000)).toFixed(0)} jobs/s)`);
-    console.log(`  submit the same sweep again: ${(secondMs / 1000).toFixed(2)} s, ${second.enqueued} added, ${second.inQueue} already queued`);
-    console.log(`  Redis memory: ${((waiting - baseline) / (first.enqueued / 1000) / 1024).toFixed(1)} KiB per 1,000 waiting jobs (${((waiting - baseline) / 2 ** 20).toFixed(1)} MB for ${first.enqueued})`);
+    console.log(
+      `  submit ${first.enqueued} jobs: ${(firstMs / 1000).toFixed(2)} s (${(first.enqueued / (firstMs / 1000)).toFixed(0)} jobs/s)`,
+    );
+    console.log(
+      `  submit the same sweep again: ${(secondMs / 1000).toFixed(2)} s, ${second.enqueued} added, ${second.inQueue} already queued`,
+    );
+    console.log(
+      `  Redis memory: ${((waiting - baseline) / (first.enqueued / 1000) / 1024).toFixed(1)} KiB per 1,000 waiting jobs (${((waiting - baseline) / 2 ** 20).toFixed(1)} MB for ${first.enqueued})`,
+    );
     t0 = performance.now();
     const cancelled = await cancelSweep(join(root, 'submit', 'bench-submit'), settings, undefined);
     console.log(`  cancel ${cancelled.removed} waiting jobs: ${(ms(t0) / 1000).toFixed(2)} s`);
     await deleteQueue(client, prefix);
 
     const small = join(root, 'run.yaml');
-    await writeFile(small, `name: bench-run\nmodel: no-op\nreplicates: ${Math.max(1, Math.round(RUN_JOBS / 100))}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`);
+    await writeFile(
+      small,
+      `name: bench-run\nmodel: no-op\nreplicates: ${Math.max(1, Math.round(RUN_JOBS / 100))}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`,
+    );
     console.log(`  queue path, ${RUN_JOBS} no-op jobs (records fdatasync'ed before each acknowledgement):`);
-    console.log(`  (one append + fdatasync on this disk takes ${(await syncLatency(root)).toFixed(2)} ms now: part of every job's overhead)`);
+    console.log(
+      `  (one append + fdatasync on this disk takes ${(await syncLatency(root)).toFixed(2)} ms now: part of every job's overhead)`,
+    );
     baseline = await usedMemory(client);
     for (const prefetch of ['auto', 0, 4] as const) {
       await throughput(server.url, client, 1, prefetch, root, small);

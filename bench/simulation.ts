@@ -26,7 +26,9 @@ const SIZES: readonly Size[] = [
 const median = (xs: readonly number[]): number => {
   const sorted = [...xs].sort((a, b) => a - b);
   const mid = sorted.length >> 1;
-  return sorted.length % 2 === 1 ? (sorted[mid] as number) : ((sorted[mid - 1] as number) + (sorted[mid] as number)) / 2;
+  return sorted.length % 2 === 1
+    ? (sorted[mid] as number)
+    : ((sorted[mid - 1] as number) + (sorted[mid] as number)) / 2;
 };
 
 const cpuMs = (since: NodeJS.CpuUsage): number => {
@@ -39,7 +41,13 @@ export async function run(): Promise<void> {
   console.log('size (H,M)   N      trials  train ms  recall ms  total ms  total cpu ms  us/recall step  goal');
   let peakHeap = 0;
   for (const size of SIZES) {
-    const p = bcpnnSequences.params.parse({ hypercolumns: size.H, minicolumns: size.M, sequenceLength: 6, sequenceCount: 2, noise: 0.5 });
+    const p = bcpnnSequences.params.parse({
+      hypercolumns: size.H,
+      minicolumns: size.M,
+      sequenceLength: 6,
+      sequenceCount: 2,
+      noise: 0.5,
+    });
     const shape = resolveShape(p);
     const recallSteps = shape.K * (shape.nCue + shape.nFree);
     for (let i = 0; i < size.warmup; i++) bcpnnSequences.run(p, 1000 + i);
@@ -78,6 +86,10 @@ export async function run(): Promise<void> {
     );
   }
   const usage = process.resourceUsage();
-  console.log(`peak memory: RSS ${(usage.maxRSS / 1024).toFixed(1)} MiB (whole process), heap used ${(peakHeap / 2 ** 20).toFixed(1)} MiB`);
-  console.log('(wall-clock figures include waiting for the CPU on a shared machine; the cpu column is this process only)');
+  console.log(
+    `peak memory: RSS ${(usage.maxRSS / 1024).toFixed(1)} MiB (whole process), heap used ${(peakHeap / 2 ** 20).toFixed(1)} MiB`,
+  );
+  console.log(
+    '(wall-clock figures include waiting for the CPU on a shared machine; the cpu column is this process only)',
+  );
 }

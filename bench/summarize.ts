@@ -9,18 +9,18 @@
  * Goals (issue 5): under 30 s and under 500 MB.
  */
 import { spawn } from 'node:child_process';
+import { once } from 'node:events';
 import { createWriteStream } from 'node:fs';
 import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { once } from 'node:events';
 import { buildReport } from '../coordinator/summarize/build-report.js';
 import { createRandom } from '../shared/random.js';
 import type { ResultRecord } from '../shared/schemas/records.js';
+import { ResultStore } from '../shared/store/result-store.js';
 import { expandJobs } from '../shared/sweep/expand.js';
 import { parseSweepText } from '../shared/sweep/load.js';
-import { ResultStore } from '../shared/store/result-store.js';
 
 const REPLICATES = 11_364;
 const SHARDS = 4;
@@ -55,7 +55,9 @@ export async function writeFixture(root: string): Promise<{ dir: string; records
   const sweep = parseSweepText(SWEEP, 'bench-summarize.yaml', { jobLimit: 2_000_000 });
   const store = ResultStore.at(root, sweep.spec.name);
   await store.prepare(sweep);
-  const streams = Array.from({ length: SHARDS }, (_, i) => createWriteStream(join(store.resultsDir, `bench-host-${i}.ndjson`)));
+  const streams = Array.from({ length: SHARDS }, (_, i) =>
+    createWriteStream(join(store.resultsDir, `bench-host-${i}.ndjson`)),
+  );
   const rng = createRandom(1, 'bench');
   let count = 0;
   let buffers: string[][] = streams.map(() => []);
@@ -121,7 +123,14 @@ async function child(dir: string): Promise<void> {
   const cpu = process.cpuUsage(cpu0);
   clearInterval(timer);
   peak = Math.max(peak, process.memoryUsage.rss());
-  const figures: ChildFigures = { ms, cpuMs: (cpu.user + cpu.system) / 1000, sampledPeakRss: peak, maxRssKiB: process.resourceUsage().maxRSS, completed: result.completedJobs, files: result.files.length };
+  const figures: ChildFigures = {
+    ms,
+    cpuMs: (cpu.user + cpu.system) / 1000,
+    sampledPeakRss: peak,
+    maxRssKiB: process.resourceUsage().maxRSS,
+    completed: result.completedJobs,
+    files: result.files.length,
+  };
   process.stdout.write(`${JSON.stringify(figures)}\n`);
 }
 
@@ -144,7 +153,9 @@ export async function run(): Promise<void> {
   try {
     const t0 = performance.now();
     const { dir, records } = await writeFixture(root);
-    console.log(`setup: ${records} records (88 points x ${REPLICATES} replicates, ${SHARDS} shards) written in ${((performance.now() - t0) / 1000).toFixed(1)} s`);
+    console.log(
+      `setup: ${records} records (88 points x ${REPLICATES} replicates, ${SHARDS} shards) written in ${((performance.now() - t0) / 1000).toFixed(1)} s`,
+    );
     const f = await runChild(dir);
     const mb = (bytes: number): number => bytes / 2 ** 20;
     const maxRssMb = f.maxRssKiB / 1024;

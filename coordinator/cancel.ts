@@ -1,7 +1,7 @@
 import type { Logger } from '../shared/logger.js';
 import { ResultStore } from '../shared/store/result-store.js';
 import { collectSweepIds, removeJobs, WAITING_STATES } from './queue-scan.js';
-import { withQueue, type QueueSettings } from './queue-session.js';
+import { type QueueSettings, withQueue } from './queue-session.js';
 
 export interface CancelResult {
   readonly name: string;
@@ -12,7 +12,11 @@ export interface CancelResult {
 }
 
 /** Take a sweep's not-yet-started jobs out of the queue; `requeue` puts them back. */
-export async function cancelSweep(dir: string, settings: QueueSettings, logger: Logger | undefined): Promise<CancelResult> {
+export async function cancelSweep(
+  dir: string,
+  settings: QueueSettings,
+  logger: Logger | undefined,
+): Promise<CancelResult> {
   const store = ResultStore.open(dir);
   const sweep = await store.readSweep();
   return withQueue(settings, logger, async ({ client, queue }) => {

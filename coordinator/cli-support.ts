@@ -1,4 +1,4 @@
-import { INPUT_ERROR_NAMES, InputError, formatIssues, type FieldIssue } from '../shared/errors.js';
+import { type FieldIssue, formatIssues, INPUT_ERROR_NAMES, InputError } from '../shared/errors.js';
 
 /** Exit codes shared by every command. */
 export const EXIT_OK = 0;

@@ -1,4 +1,4 @@
-import { Command, CommanderError } from 'commander';
+import { Command, type CommanderError } from 'commander';
 import { CODE_VERSION } from '../shared/version.js';
 import { EXIT_FAILURE, EXIT_INPUT } from './cli-support.js';
 

@@ -1,5 +1,5 @@
 import YAML from 'yaml';
-import { parseSweepText, type LoadedSweep } from '../shared/sweep/load.js';
+import { type LoadedSweep, parseSweepText } from '../shared/sweep/load.js';
 
 /**
  * The built-in demo sweep. This text is the one source of truth:

@@ -1,9 +1,9 @@
 import type { Queue } from 'bullmq';
 import type { ChainableCommander, Redis } from 'ioredis';
-import { jobIdFor, jobRedisKey, stateRedisKey, type QueueTarget } from '../shared/queue-names.js';
+import { jobIdFor, jobRedisKey, type QueueTarget, stateRedisKey } from '../shared/queue-names.js';
 import { expandJobs, type PlannedJob } from '../shared/sweep/expand.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
-import { bulkEntry, type BulkEntry } from './job-options.js';
+import { type BulkEntry, bulkEntry } from './job-options.js';
 
 export interface EnqueueOptions {
   /** Jobs per addBulk call: one round trip each, and a kill loses at most one chunk of progress. */
@@ -62,7 +62,8 @@ export async function enqueueMissing(
     const exists = await replies(client.pipeline(ids.map((id) => ['exists', jobRedisKey(target, id)])));
     // Only jobs already in Redis can be in the failed set: ask about those alone.
     const present = ids.filter((_, i) => exists[i] !== 0);
-    const scores = present.length === 0 ? [] : await replies(client.pipeline(present.map((id) => ['zscore', failedKey, id])));
+    const scores =
+      present.length === 0 ? [] : await replies(client.pipeline(present.map((id) => ['zscore', failedKey, id])));
     const failed = new Set(present.filter((_, i) => scores[i] !== null));
     const toAdd: BulkEntry[] = [];
     const toRetry: PlannedJob[] = [];

@@ -2,9 +2,9 @@ import { hostname } from 'node:os';
 import type { Logger } from '../shared/logger.js';
 import { jobRedisKey, keyOfJobId } from '../shared/queue-names.js';
 import { ResultRecordSchema } from '../shared/schemas/records.js';
-import { ResultStore, newWriterId, type ShardWriter } from '../shared/store/result-store.js';
+import { newWriterId, ResultStore, type ShardWriter } from '../shared/store/result-store.js';
 import { collectSweepIds, removeJobs } from './queue-scan.js';
-import { withQueue, type QueueSettings } from './queue-session.js';
+import { type QueueSettings, withQueue } from './queue-session.js';
 
 export interface GatherResult {
   readonly name: string;
@@ -29,7 +29,11 @@ const CHUNK = 500;
  * memory stays bounded and nothing is lost if gather is killed half-way
  * (a repeat copies nothing twice: keys on disk are skipped).
  */
-export async function gatherSweep(dir: string, settings: QueueSettings, logger: Logger | undefined): Promise<GatherResult> {
+export async function gatherSweep(
+  dir: string,
+  settings: QueueSettings,
+  logger: Logger | undefined,
+): Promise<GatherResult> {
   const store = ResultStore.open(dir);
   const sweep = await store.readSweep();
   return withQueue(settings, logger, async ({ client, queue }) => {
@@ -82,6 +86,14 @@ export async function gatherSweep(dir: string, settings: QueueSettings, logger: 
       writer?.close();
     }
     logger?.info({ sweep: sweep.spec.name, found: ids.length, copied, removed }, 'results gathered');
-    return { name: sweep.spec.name, found: ids.length, copied, alreadyOnDisk, rejected, removed, writer: writer?.writer ?? null };
+    return {
+      name: sweep.spec.name,
+      found: ids.length,
+      copied,
+      alreadyOnDisk,
+      rejected,
+      removed,
+      writer: writer?.writer ?? null,
+    };
   });
 }

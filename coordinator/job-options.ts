@@ -1,7 +1,7 @@
 import type { JobsOptions } from 'bullmq';
-import type { LoadedSweep } from '../shared/sweep/load.js';
-import { toPayload, type PlannedJob } from '../shared/sweep/expand.js';
 import { jobIdFor } from '../shared/queue-names.js';
+import { type PlannedJob, toPayload } from '../shared/sweep/expand.js';
+import type { LoadedSweep } from '../shared/sweep/load.js';
 
 /** Tries per job: the first run plus three retries for transient faults (crashes, exceptions). */
 export const JOB_ATTEMPTS = 4;

@@ -1,7 +1,7 @@
 import { jobSeed } from '../shared/job-identity.js';
 import type { Point } from '../shared/schemas/records.js';
 import { countJobs, fullParams, iteratePoints } from '../shared/sweep/expand.js';
-import { loadSweepFile, type LoadedSweep } from '../shared/sweep/load.js';
+import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { formatDuration } from './progress-display.js';
 
 /** Default ceiling on jobs per sweep; `--yes` or `--max-jobs` lifts it. */
@@ -116,7 +116,8 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     source: sweep.source,
     model: sweep.model.id,
     modelVersion: sweep.model.version,
-    sampler: sweep.spec.sampler.kind === 'grid' ? 'grid' : `${sweep.spec.sampler.kind} (${sweep.spec.sampler.points} points)`,
+    sampler:
+      sweep.spec.sampler.kind === 'grid' ? 'grid' : `${sweep.spec.sampler.kind} (${sweep.spec.sampler.points} points)`,
     variedNames: sweep.variedNames,
     points: pointCount,
     replicates,
@@ -157,13 +158,21 @@ export function formatPlan(plan: SweepPlan, threads: number): string {
     if (c.secondsPerOp === null || plan.coreHours === null) {
       row('estimate', c.jobs === 0 ? 'none: no timing job finished' : 'none: the timed jobs report zero cost');
     } else {
-      row('calibration', `${c.jobs} job${c.jobs === 1 ? '' : 's'} timed (after one warm-up run) in ${c.seconds.toFixed(3)} s, ${c.secondsPerOp.toPrecision(3)} s per operation`);
+      row(
+        'calibration',
+        `${c.jobs} job${c.jobs === 1 ? '' : 's'} timed (after one warm-up run) in ${c.seconds.toFixed(3)} s, ${c.secondsPerOp.toPrecision(3)} s per operation`,
+      );
       const wall = (plan.coreHours * 3600) / Math.max(1, threads);
-      row('estimate', `${plan.coreHours.toPrecision(3)} core-hours, about ${formatDuration(wall)} on ${threads} thread${threads === 1 ? '' : 's'} (timings on a busy machine run high)`);
+      row(
+        'estimate',
+        `${plan.coreHours.toPrecision(3)} core-hours, about ${formatDuration(wall)} on ${threads} thread${threads === 1 ? '' : 's'} (timings on a busy machine run high)`,
+      );
     }
   }
   lines.push('');
-  lines.push(plan.sample.length < plan.points ? `first ${plan.sample.length} of ${count(plan.points)} points:` : 'points:');
+  lines.push(
+    plan.sample.length < plan.points ? `first ${plan.sample.length} of ${count(plan.points)} points:` : 'points:',
+  );
   for (const point of plan.sample) lines.push(`  ${formatPoint(point, plan.variedNames)}`);
   return `${lines.join('\n')}\n`;
 }

@@ -66,10 +66,17 @@ export function createProgressDisplay(options: ProgressDisplayOptions = {}): Pro
   const now = options.now ?? (() => performance.now() / 1000);
   const mode = options.mode ?? (stream.isTTY === true ? 'bar' : 'lines');
   const started = now();
-  return mode === 'bar' ? barDisplay(stream, started, now) : lineDisplay(stream, started, now, options.intervalSeconds ?? 5);
+  return mode === 'bar'
+    ? barDisplay(stream, started, now)
+    : lineDisplay(stream, started, now, options.intervalSeconds ?? 5);
 }
 
-function lineDisplay(stream: NodeJS.WritableStream, started: number, now: () => number, interval: number): ProgressDisplay {
+function lineDisplay(
+  stream: NodeJS.WritableStream,
+  started: number,
+  now: () => number,
+  interval: number,
+): ProgressDisplay {
   let lastPrinted = started;
   let latest: RunProgress | undefined;
   return {

@@ -1,10 +1,10 @@
 import type { Redis } from 'ioredis';
-import { jobIdPrefix, keyOfJobId, stateRedisKey, type QueueTarget } from '../shared/queue-names.js';
+import { jobIdPrefix, keyOfJobId, type QueueTarget, stateRedisKey } from '../shared/queue-names.js';
 import type { FailureKind } from '../shared/schemas/records.js';
 import type { ResultStore, StoreWarning } from '../shared/store/result-store.js';
 import { countJobs } from '../shared/sweep/expand.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
-import { SCAN_PAGE, sweepQueueCounts, type QueueCounts } from './queue-scan.js';
+import { type QueueCounts, SCAN_PAGE, sweepQueueCounts } from './queue-scan.js';
 
 export interface QueueSide extends QueueCounts {
   /** Finished jobs whose record is only in Redis so far (no shared disk; `gather` copies them). */
@@ -59,7 +59,11 @@ export function ratePerMinute(finishTimes: readonly number[]): number | null {
  * Everything `progress` shows, from the files and (when a client is given)
  * from the queue, for this sweep's job ids only.
  */
-export async function sweepProgress(store: ResultStore, sweep: LoadedSweep, redis?: { client: Redis; target: QueueTarget }): Promise<ProgressSnapshot> {
+export async function sweepProgress(
+  store: ResultStore,
+  sweep: LoadedSweep,
+  redis?: { client: Redis; target: QueueTarget },
+): Promise<ProgressSnapshot> {
   const planned = countJobs(sweep);
   let warnings = 0;
   const onWarning = (_w: StoreWarning): void => {

@@ -1,6 +1,6 @@
 import type { Queue } from 'bullmq';
 import type { Redis } from 'ioredis';
-import { jobIdPrefix, stateRedisKey, type QueueTarget } from '../shared/queue-names.js';
+import { jobIdPrefix, type QueueTarget, stateRedisKey } from '../shared/queue-names.js';
 
 /** BullMQ's states, grouped the way people ask about them. */
 export const WAITING_STATES = ['wait', 'paused', 'prioritized', 'waiting-children'] as const;
@@ -17,12 +17,19 @@ export const SCAN_PAGE = 1_000;
  * read may show an id twice or miss one that moved; callers that act on ids
  * (gather, cancel) re-check each one, and counts are a snapshot.
  */
-export async function* sweepIdsIn(client: Redis, target: QueueTarget, sweepHash: string, state: ScanState): AsyncGenerator<string[]> {
+export async function* sweepIdsIn(
+  client: Redis,
+  target: QueueTarget,
+  sweepHash: string,
+  state: ScanState,
+): AsyncGenerator<string[]> {
   const prefix = jobIdPrefix(sweepHash);
   const key = stateRedisKey(target, state);
   for (let start = 0; ; start += SCAN_PAGE) {
     const stop = start + SCAN_PAGE - 1;
-    const page = LIST_STATES.has(state) ? await client.lrange(key, start, stop) : await client.zrange(key, start, String(stop));
+    const page = LIST_STATES.has(state)
+      ? await client.lrange(key, start, stop)
+      : await client.zrange(key, start, String(stop));
     const ours = page.filter((id) => id.startsWith(prefix));
     if (ours.length > 0) yield ours;
     if (page.length < SCAN_PAGE) return;
@@ -30,7 +37,12 @@ export async function* sweepIdsIn(client: Redis, target: QueueTarget, sweepHash:
 }
 
 /** Distinct ids of the sweep over several states. */
-export async function collectSweepIds(client: Redis, target: QueueTarget, sweepHash: string, states: readonly ScanState[]): Promise<Set<string>> {
+export async function collectSweepIds(
+  client: Redis,
+  target: QueueTarget,
+  sweepHash: string,
+  states: readonly ScanState[],
+): Promise<Set<string>> {
   const ids = new Set<string>();
   for (const state of states) {
     for await (const page of sweepIdsIn(client, target, sweepHash, state)) for (const id of page) ids.add(id);
@@ -51,7 +63,8 @@ export interface QueueCounts {
  * reads them with their finish times in the same pass.
  */
 export async function sweepQueueCounts(client: Redis, target: QueueTarget, sweepHash: string): Promise<QueueCounts> {
-  const count = async (states: readonly ScanState[]): Promise<number> => (await collectSweepIds(client, target, sweepHash, states)).size;
+  const count = async (states: readonly ScanState[]): Promise<number> =>
+    (await collectSweepIds(client, target, sweepHash, states)).size;
   return {
     waiting: await count(WAITING_STATES),
     active: await count(['active']),

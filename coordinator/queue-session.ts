@@ -1,11 +1,11 @@
-import { Option, type Command } from 'commander';
 import { Queue } from 'bullmq';
+import { type Command, Option } from 'commander';
+import type { Redis } from 'ioredis';
 import type { Logger } from '../shared/logger.js';
-import { DEFAULT_QUEUE_NAME, DEFAULT_QUEUE_PREFIX, queueTarget, type QueueTarget } from '../shared/queue-names.js';
-import { REDIS_URL_ENV, parseRedisUrl, resolveRedisUrl, type RedisTarget } from '../shared/redis-url.js';
+import { DEFAULT_QUEUE_NAME, DEFAULT_QUEUE_PREFIX, type QueueTarget, queueTarget } from '../shared/queue-names.js';
+import { parseRedisUrl, REDIS_URL_ENV, type RedisTarget, resolveRedisUrl } from '../shared/redis-url.js';
 import { parseWholeNumber } from './cli-support.js';
 import { asServiceError, closeRedis, connectRedis } from './redis-connect.js';
-import type { Redis } from 'ioredis';
 
 /** What every Redis-using command accepts on its command line. */
 export interface QueueCliOptions {
@@ -29,7 +29,9 @@ export function addQueueOptions(command: Command, redisRequired = true): Command
     .addOption(new Option('--queue <name>', 'queue name shared by coordinator and workers').default(DEFAULT_QUEUE_NAME))
     .addOption(new Option('--prefix <prefix>', 'prefix of every Redis key of the queue').default(DEFAULT_QUEUE_PREFIX))
     .addOption(
-      new Option('--connect-timeout <ms>', 'how long to keep trying to reach Redis before giving up').default(String(DEFAULT_CONNECT_TIMEOUT_MS)),
+      new Option('--connect-timeout <ms>', 'how long to keep trying to reach Redis before giving up').default(
+        String(DEFAULT_CONNECT_TIMEOUT_MS),
+      ),
     );
 }
 
@@ -104,7 +106,11 @@ export async function openQueueSession(settings: QueueSettings, logger?: Logger)
 }
 
 /** Run `body` with an open queue session; Redis failures become one ServiceError line. */
-export async function withQueue<T>(settings: QueueSettings, logger: Logger | undefined, body: (session: QueueSession) => Promise<T>): Promise<T> {
+export async function withQueue<T>(
+  settings: QueueSettings,
+  logger: Logger | undefined,
+  body: (session: QueueSession) => Promise<T>,
+): Promise<T> {
   const session = await openQueueSession(settings, logger);
   try {
     return await body(session);

@@ -2,7 +2,7 @@ import { setTimeout as sleep } from 'node:timers/promises';
 import { Redis, type RedisOptions } from 'ioredis';
 import { ServiceError } from '../shared/errors.js';
 import type { Logger } from '../shared/logger.js';
-import { parseRedisUrl, redisOptionsFor, type RedisTarget } from '../shared/redis-url.js';
+import { parseRedisUrl, type RedisTarget, redisOptionsFor } from '../shared/redis-url.js';
 
 export interface ConnectOptions {
   /** Raw URL (`--redis` or the environment); parsed and checked here. */
@@ -34,16 +34,28 @@ export function explainRedisError(error: unknown, target: RedisTarget): Verdict 
   const text = typeof err?.message === 'string' ? err.message : String(error);
   const where = target.masked;
   if (/^WRONGPASS/.test(text) || /invalid password/i.test(text)) {
-    return { retry: false, message: `Redis refused the password for ${where}; check the user name and password in the URL` };
+    return {
+      retry: false,
+      message: `Redis refused the password for ${where}; check the user name and password in the URL`,
+    };
   }
   if (/^NOAUTH/.test(text)) {
-    return { retry: false, message: `Redis at ${where} requires a password; give it in the URL (redis://:PASSWORD@host:port)` };
+    return {
+      retry: false,
+      message: `Redis at ${where} requires a password; give it in the URL (redis://:PASSWORD@host:port)`,
+    };
   }
   if (/^NOPERM/.test(text)) {
-    return { retry: false, message: `Redis at ${where} denied a command to this user (${text.split('\n')[0] ?? text}); the ACL must allow the queue commands` };
+    return {
+      retry: false,
+      message: `Redis at ${where} denied a command to this user (${text.split('\n')[0] ?? text}); the ACL must allow the queue commands`,
+    };
   }
   if (code !== undefined && /^(ERR_SSL|ERR_TLS|CERT_|UNABLE_TO_|DEPTH_ZERO|SELF_SIGNED)/.test(code)) {
-    return { retry: false, message: `TLS with Redis at ${where} failed (${code}); check the certificate or use redis:// if the server has no TLS` };
+    return {
+      retry: false,
+      message: `TLS with Redis at ${where} failed (${code}); check the certificate or use redis:// if the server has no TLS`,
+    };
   }
   if (/Unknown RESP type|Protocol error/i.test(text)) {
     return { retry: false, message: `the server at ${where} does not answer like Redis; is the port right?` };
@@ -65,7 +77,10 @@ export async function connectRedis(options: ConnectOptions): Promise<RedisConnec
   const base = redisOptionsFor(target);
   const deadline = Date.now() + Math.max(options.connectTimeoutMs, 100);
   let attempt = 0;
-  let verdict: Verdict = { retry: true, message: `cannot reach Redis at ${target.masked} (ETIMEDOUT); is it running and is the URL right?` };
+  let verdict: Verdict = {
+    retry: true,
+    message: `cannot reach Redis at ${target.masked} (ETIMEDOUT); is it running and is the URL right?`,
+  };
   for (;;) {
     attempt++;
     const remaining = deadline - Date.now();
@@ -119,7 +134,11 @@ function adoptLongLivedSettings(client: Redis, target: RedisTarget, options: Con
   let warned = 0;
   client.on('error', (error: unknown) => {
     // A dead server gives an error per reconnect attempt; a few lines per outage are enough.
-    if (warned++ < 3) options.logger?.warn({ redis: target.masked, reason: explainRedisError(error, target).message }, 'Redis connection trouble');
+    if (warned++ < 3)
+      options.logger?.warn(
+        { redis: target.masked, reason: explainRedisError(error, target).message },
+        'Redis connection trouble',
+      );
   });
   client.on('ready', () => {
     if (warned > 0) options.logger?.info({ redis: target.masked }, 'Redis connection back');
@@ -136,7 +155,9 @@ export function asServiceError(error: unknown, target: RedisTarget): unknown {
   if (error.name === 'InputError' || error.name === 'SweepMismatchError' || error.name === 'ServiceError') return error;
   const code = (error as { code?: unknown }).code;
   const looksLikeRedis =
-    /Connection is closed|max retries per request|ECONNREFUSED|ECONNRESET|ETIMEDOUT|WRONGPASS|NOAUTH|NOPERM|READONLY|OOM|LOADING/i.test(error.message) ||
+    /Connection is closed|max retries per request|ECONNREFUSED|ECONNRESET|ETIMEDOUT|WRONGPASS|NOAUTH|NOPERM|READONLY|OOM|LOADING/i.test(
+      error.message,
+    ) ||
     (typeof code === 'string' && /^E[A-Z]+$/.test(code) && error.message.includes('connect'));
   if (!looksLikeRedis) return error;
   const verdict = explainRedisError(error, target);

@@ -1,7 +1,7 @@
 import type { Logger } from '../shared/logger.js';
 import { ResultStore } from '../shared/store/result-store.js';
-import { enqueueMissing, type EnqueueReport } from './enqueue-missing.js';
-import { withQueue, type QueueSettings } from './queue-session.js';
+import { type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
+import { type QueueSettings, withQueue } from './queue-session.js';
 
 export interface RequeueResult extends EnqueueReport {
   readonly name: string;
@@ -14,7 +14,12 @@ export interface RequeueResult extends EnqueueReport {
  * that Redis does not hold goes back in the queue. Works the same after a
  * crash, after `cancel`, or after Redis lost all its data.
  */
-export async function requeueSweep(dir: string, settings: QueueSettings, retryFailed: boolean, logger: Logger | undefined): Promise<RequeueResult> {
+export async function requeueSweep(
+  dir: string,
+  settings: QueueSettings,
+  retryFailed: boolean,
+  logger: Logger | undefined,
+): Promise<RequeueResult> {
   const store = ResultStore.open(dir);
   const sweep = await store.readSweep();
   return withQueue(settings, logger, async ({ client, queue }) => {

@@ -2,9 +2,9 @@ import { randomBytes } from 'node:crypto';
 import { setImmediate as yieldToEventLoop } from 'node:timers/promises';
 import type { Logger } from '../shared/logger.js';
 import type { FailureRecord } from '../shared/schemas/records.js';
-import { countJobs, expandJobs, toPayload, type PlannedJob } from '../shared/sweep/expand.js';
+import { newWriterId, ResultStore, type ShardFs, type StoreWarning } from '../shared/store/result-store.js';
+import { countJobs, expandJobs, type PlannedJob, toPayload } from '../shared/sweep/expand.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
-import { ResultStore, newWriterId, type ShardFs, type StoreWarning } from '../shared/store/result-store.js';
 import type { JobOutcome } from '../worker/run-job.js';
 import { ThreadPool } from '../worker/thread-pool.js';
 
@@ -97,7 +97,8 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
   // Attempt numbers continue from earlier runs' failure records.
   const previousAttempts = new Map<string, number>();
   for await (const failure of store.failures({ onWarning })) {
-    if (!done.has(failure.key)) previousAttempts.set(failure.key, Math.max(previousAttempts.get(failure.key) ?? 0, failure.attempt));
+    if (!done.has(failure.key))
+      previousAttempts.set(failure.key, Math.max(previousAttempts.get(failure.key) ?? 0, failure.attempt));
   }
 
   const planned = countJobs(sweep);
@@ -108,7 +109,14 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
     context: { writer: writer.writer, run: runId },
     ...(options.threadEntry === undefined ? {} : { entry: options.threadEntry }),
   });
-  const start: RunStart = { dir: store.dir, planned, withResults: done.size, threads: pool.threads, writer: writer.writer, run: runId };
+  const start: RunStart = {
+    dir: store.dir,
+    planned,
+    withResults: done.size,
+    threads: pool.threads,
+    writer: writer.writer,
+    run: runId,
+  };
   // Debug level: commands print their own lines for people; this is for log files.
   logger.debug(start, 'sweep run started');
   options.onStart?.(start);
@@ -137,7 +145,8 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
     void pool.terminate();
   };
   options.abandonSignal?.addEventListener('abort', hardStop, { once: true });
-  const stopping = (): boolean => options.signal?.aborted === true || options.abandonSignal?.aborted === true || fatal !== null;
+  const stopping = (): boolean =>
+    options.signal?.aborted === true || options.abandonSignal?.aborted === true || fatal !== null;
 
   const record = (job: PlannedJob, outcome: JobOutcome): void => {
     if (fatal !== null) return;
@@ -178,7 +187,11 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
       })
       .catch((error: unknown) => {
         // An abandoned job writes nothing; anything else ends the run.
-        if ((error as { name?: unknown } | null)?.name === 'PoolTerminated' && (options.abandonSignal?.aborted === true || fatal !== null)) return;
+        if (
+          (error as { name?: unknown } | null)?.name === 'PoolTerminated' &&
+          (options.abandonSignal?.aborted === true || fatal !== null)
+        )
+          return;
         failRun(error);
       })
       .finally(() => {
@@ -244,7 +257,8 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
   report();
   if (fatal !== null) throw fatal;
 
-  const stopped = options.abandonSignal?.aborted === true ? 'abandoned' : options.signal?.aborted === true ? 'graceful' : null;
+  const stopped =
+    options.abandonSignal?.aborted === true ? 'abandoned' : options.signal?.aborted === true ? 'graceful' : null;
   const missing = stopped === null ? planned - alreadyDone - succeeded : Math.max(0, planned - done.size - succeeded);
   const result: RunSweepResult = {
     dir: store.dir,

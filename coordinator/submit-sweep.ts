@@ -1,8 +1,8 @@
 import type { Logger } from '../shared/logger.js';
 import { ResultStore } from '../shared/store/result-store.js';
-import { loadSweepFile, type LoadedSweep } from '../shared/sweep/load.js';
-import { enqueueMissing, type EnqueueReport } from './enqueue-missing.js';
-import { withQueue, type QueueSettings } from './queue-session.js';
+import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
+import { type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
+import { type QueueSettings, withQueue } from './queue-session.js';
 
 export interface SubmitResult extends EnqueueReport {
   readonly name: string;
@@ -16,14 +16,22 @@ export interface SubmitResult extends EnqueueReport {
  * or check sweep.json, then enqueue every job without a result. Running it
  * again, or after it was killed half-way, only adds what is missing.
  */
-export async function submitSweep(source: string | LoadedSweep, resultsRoot: string, settings: QueueSettings, logger: Logger | undefined): Promise<SubmitResult> {
+export async function submitSweep(
+  source: string | LoadedSweep,
+  resultsRoot: string,
+  settings: QueueSettings,
+  logger: Logger | undefined,
+): Promise<SubmitResult> {
   const sweep = typeof source === 'string' ? await loadSweepFile(source) : source;
   return withQueue(settings, logger, async ({ client, queue }) => {
     const store = ResultStore.at(resultsRoot, sweep.spec.name);
     await store.prepare(sweep);
     const done = await store.completedKeys();
     const report = await enqueueMissing(client, queue, settings.queue, sweep, done);
-    logger?.info({ sweep: sweep.spec.name, enqueued: report.enqueued, redis: settings.redis.masked, queue: settings.queue.name }, 'sweep submitted');
+    logger?.info(
+      { sweep: sweep.spec.name, enqueued: report.enqueued, redis: settings.redis.masked, queue: settings.queue.name },
+      'sweep submitted',
+    );
     return { ...report, name: sweep.spec.name, hash: sweep.hash, dir: store.dir };
   });
 }

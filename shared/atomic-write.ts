@@ -13,7 +13,11 @@ export interface AtomicWriteOptions {
  * target. On any failure the temporary file is removed and the error is
  * rethrown unchanged.
  */
-export async function writeFileAtomic(path: string, data: string | Uint8Array, options: AtomicWriteOptions = {}): Promise<void> {
+export async function writeFileAtomic(
+  path: string,
+  data: string | Uint8Array,
+  options: AtomicWriteOptions = {},
+): Promise<void> {
   const dir = dirname(path);
   if (options.createFolder !== false) await mkdir(dir, { recursive: true });
   const temp = join(dir, `.${basename(path)}.${process.pid}.${randomBytes(4).toString('hex')}.tmp`);

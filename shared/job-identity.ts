@@ -6,7 +6,12 @@ import { deriveSeed } from './random.js';
  * parameter set (defaults included) and the replicate number. Equal jobs get
  * equal keys on every machine, which is what makes resume and dedup work.
  */
-export function jobKey(model: string, modelVersion: string, params: Readonly<Record<string, unknown>>, replicate: number): string {
+export function jobKey(
+  model: string,
+  modelVersion: string,
+  params: Readonly<Record<string, unknown>>,
+  replicate: number,
+): string {
   return sha256Hex(canonicalJson({ model, modelVersion, params, replicate })).slice(0, 32);
 }
 

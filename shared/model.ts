@@ -7,9 +7,7 @@ import { z } from 'zod';
  * `success` is required: it is what phase diagrams show by default.
  */
 export const MetricValueSchema = z.union([z.number(), z.boolean(), z.null(), z.array(z.number().nullable())]);
-export const MetricsSchema = z
-  .object({ success: z.boolean() })
-  .catchall(MetricValueSchema);
+export const MetricsSchema = z.object({ success: z.boolean() }).catchall(MetricValueSchema);
 export type Metrics = z.infer<typeof MetricsSchema>;
 
 /** Unit and meaning of a parameter, for axis labels and docs. */
@@ -63,5 +61,5 @@ export interface Model<Schema extends z.ZodObject = z.ZodObject> {
 }
 
 /** Registry entries lose the precise schema type; callers re-validate. */
-// eslint-disable-next-line @typescript-eslint/no-explicit-any
+// biome-ignore lint/suspicious/noExplicitAny: the registry holds models of different schemas; callers re-validate
 export type AnyModel = Model<any>;

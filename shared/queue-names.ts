@@ -20,7 +20,10 @@ export interface QueueTarget {
 
 /** Check `--queue` and `--prefix`; InputError (exit 2) naming the option. */
 export function queueTarget(name: string, prefix: string): QueueTarget {
-  for (const [option, value] of [['--queue', name], ['--prefix', prefix]] as const) {
+  for (const [option, value] of [
+    ['--queue', name],
+    ['--prefix', prefix],
+  ] as const) {
     const checked = NamePartSchema.safeParse(value);
     if (!checked.success) {
       const message = checked.error.issues.map((i) => i.message).join('; ');

@@ -1,6 +1,6 @@
-import { xoroshiro128plusFromState } from 'pure-rand/generator/xoroshiro128plus';
-import { uniformFloat64 } from 'pure-rand/distribution/uniformFloat64';
 import { createHash } from 'node:crypto';
+import { uniformFloat64 } from 'pure-rand/distribution/uniformFloat64';
+import { xoroshiro128plusFromState } from 'pure-rand/generator/xoroshiro128plus';
 
 /** Largest seed accepted anywhere: seeds are non-negative safe integers. */
 export const MAX_SEED = Number.MAX_SAFE_INTEGER;

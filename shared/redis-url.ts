@@ -43,9 +43,10 @@ export function maskRedisUrl(url: string): string {
 
 function bad(url: string, message: string): InputError {
   const masked = maskRedisUrl(url);
-  return new InputError(`--redis: ${message} (got ${masked}); expected redis://[:password@]host[:port][/db] or rediss://... for TLS`, [
-    { path: '--redis', message },
-  ]);
+  return new InputError(
+    `--redis: ${message} (got ${masked}); expected redis://[:password@]host[:port][/db] or rediss://... for TLS`,
+    [{ path: '--redis', message }],
+  );
 }
 
 /** Parse and check a `redis://` or `rediss://` URL. InputError (exit 2) on anything else. */
@@ -115,7 +116,9 @@ export function redisOptionsFor(target: RedisTarget, env: NodeJS.ProcessEnv = pr
         ca = readFileSync(caFile, 'utf8');
       } catch (error) {
         const code = (error as NodeJS.ErrnoException).code ?? 'unreadable';
-        throw new InputError(`${REDIS_CA_ENV}: cannot read ${caFile} (${code})`, [{ path: REDIS_CA_ENV, message: `cannot read ${caFile}` }]);
+        throw new InputError(`${REDIS_CA_ENV}: cannot read ${caFile} (${code})`, [
+          { path: REDIS_CA_ENV, message: `cannot read ${caFile}` },
+        ]);
       }
     }
     options.tls = ca === undefined ? { servername: target.host } : { servername: target.host, ca };

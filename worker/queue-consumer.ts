@@ -1,9 +1,9 @@
 import { resolve, sep } from 'node:path';
-import { UnrecoverableError, WaitingError, Worker, type Job } from 'bullmq';
+import { type Job, UnrecoverableError, WaitingError, Worker } from 'bullmq';
 import type { Redis } from 'ioredis';
 import type { Logger } from '../shared/logger.js';
 import type { QueueTarget } from '../shared/queue-names.js';
-import { JobPayloadSchema, type FailureRecord, type ResultRecord } from '../shared/schemas/records.js';
+import { type FailureRecord, JobPayloadSchema, type ResultRecord } from '../shared/schemas/records.js';
 import { ResultStore, type ShardWriter } from '../shared/store/result-store.js';
 import type { JobOutcome } from './run-job.js';
 import type { ThreadPool } from './thread-pool.js';
@@ -105,7 +105,10 @@ export class QueueConsumer {
   /** Start taking jobs; resolves once connected (the loop itself runs until close). */
   async start(): Promise<void> {
     void this.worker.run().catch((error: unknown) => {
-      this.options.logger.error({ reason: error instanceof Error ? error.message : String(error) }, 'queue worker stopped');
+      this.options.logger.error(
+        { reason: error instanceof Error ? error.message : String(error) },
+        'queue worker stopped',
+      );
     });
     await this.worker.waitUntilReady();
   }
@@ -234,7 +237,8 @@ export class QueueConsumer {
     const name = sweep.data.name;
     const folder = resolve(this.root, name);
     // Belt and braces over the schema's pattern: exactly one level below the root.
-    if (name === '.' || !folder.startsWith(this.root + sep) || folder.slice(this.root.length + 1).includes(sep)) return undefined;
+    if (name === '.' || !folder.startsWith(this.root + sep) || folder.slice(this.root.length + 1).includes(sep))
+      return undefined;
     return name;
   }
 

@@ -1,12 +1,7 @@
 import { issuesFromZod } from '../shared/errors.js';
-import { findModel } from '../shared/models/registry.js';
-import {
-  JobPayloadSchema,
-  type FailureKind,
-  type JobPayload,
-  type ResultRecord,
-} from '../shared/schemas/records.js';
 import { MetricsSchema } from '../shared/model.js';
+import { findModel } from '../shared/models/registry.js';
+import { type FailureKind, type JobPayload, JobPayloadSchema, type ResultRecord } from '../shared/schemas/records.js';
 
 /** Who is running the job: written into every record. */
 export interface JobContext {
@@ -33,13 +28,27 @@ export type JobOutcome =
 export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
   const parsed = JobPayloadSchema.safeParse(rawPayload);
   if (!parsed.success) {
-    const detail = issuesFromZod(parsed.error.issues, 'payload').map((i) => `${i.path}: ${i.message}`).join('; ');
-    return { ok: false, kind: 'invalid', message: `invalid job payload: ${detail}`, retryable: false, payload: undefined };
+    const detail = issuesFromZod(parsed.error.issues, 'payload')
+      .map((i) => `${i.path}: ${i.message}`)
+      .join('; ');
+    return {
+      ok: false,
+      kind: 'invalid',
+      message: `invalid job payload: ${detail}`,
+      retryable: false,
+      payload: undefined,
+    };
   }
   const payload = parsed.data;
   const model = findModel(payload.model);
   if (model === undefined) {
-    return { ok: false, kind: 'unsupported', message: `this worker has no model "${payload.model}"`, retryable: false, payload };
+    return {
+      ok: false,
+      kind: 'unsupported',
+      message: `this worker has no model "${payload.model}"`,
+      retryable: false,
+      payload,
+    };
   }
   if (model.version !== payload.modelVersion) {
     return {
@@ -52,11 +61,13 @@ export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
   }
   const params = model.params.safeParse(payload.params);
   if (!params.success) {
-    const detail = issuesFromZod(params.error.issues, 'params').map((i) => `${i.path}: ${i.message}`).join('; ');
+    const detail = issuesFromZod(params.error.issues, 'params')
+      .map((i) => `${i.path}: ${i.message}`)
+      .join('; ');
     return { ok: false, kind: 'invalid', message: `invalid parameters: ${detail}`, retryable: false, payload };
   }
   const started = performance.now();
-  let metrics;
+  let metrics: unknown;
   try {
     metrics = model.run(params.data, payload.seed).metrics;
   } catch (error) {
@@ -65,7 +76,13 @@ export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
   }
   const checked = MetricsSchema.safeParse(metrics);
   if (!checked.success) {
-    return { ok: false, kind: 'exception', message: `model returned malformed metrics: ${checked.error.message}`, retryable: false, payload };
+    return {
+      ok: false,
+      kind: 'exception',
+      message: `model returned malformed metrics: ${checked.error.message}`,
+      retryable: false,
+      payload,
+    };
   }
   const record: ResultRecord = {
     v: 1,

@@ -5,7 +5,7 @@
  * the pool turns into a `crashed` outcome.
  */
 import { parentPort, workerData } from 'node:worker_threads';
-import { runJob, type JobContext } from './run-job.js';
+import { type JobContext, runJob } from './run-job.js';
 import type { ThreadReply, ThreadRequest } from './thread-pool.js';
 
 if (parentPort === null) {

@@ -1,5 +1,5 @@
 import { availableParallelism } from 'node:os';
-import { Worker, type ResourceLimits } from 'node:worker_threads';
+import { type ResourceLimits, Worker } from 'node:worker_threads';
 import { JobPayloadSchema } from '../shared/schemas/records.js';
 import type { JobContext, JobOutcome } from './run-job.js';
 
@@ -10,7 +10,9 @@ export interface ThreadRequest {
 }
 
 /** Pool thread -> main thread: loaded and listening, or the outcome of request `id`. */
-export type ThreadReply = { readonly type: 'ready' } | { readonly type: 'outcome'; readonly id: number; readonly outcome: JobOutcome };
+export type ThreadReply =
+  | { readonly type: 'ready' }
+  | { readonly type: 'outcome'; readonly id: number; readonly outcome: JobOutcome };
 
 export interface ThreadPoolOptions {
   readonly threads: number;
@@ -84,7 +86,8 @@ export class ThreadPool {
 
   run(payload: unknown): Promise<JobOutcome> {
     if (this.state === 'broken') return Promise.reject(namedError('PoolBroken', this.brokenReason));
-    if (this.state === 'terminated') return Promise.reject(namedError('PoolTerminated', 'the thread pool was terminated'));
+    if (this.state === 'terminated')
+      return Promise.reject(namedError('PoolTerminated', 'the thread pool was terminated'));
     if (this.state !== 'open') return Promise.reject(namedError('PoolClosed', 'the thread pool is closed'));
     return new Promise<JobOutcome>((resolve, reject) => {
       this.queue.push({ id: this.nextId++, payload, resolve, reject });
@@ -171,7 +174,9 @@ export class ThreadPool {
       if (task !== undefined) this.queue.unshift(task);
       this.startupFailures++;
       if (this.startupFailures >= MAX_STARTUP_FAILURES) {
-        this.breakDown(`worker threads fail to start (${reason}); is the build in dist/ complete? Run \`npm run build\``);
+        this.breakDown(
+          `worker threads fail to start (${reason}); is the build in dist/ complete? Run \`npm run build\``,
+        );
         return;
       }
     } else if (task !== undefined) {
@@ -225,7 +230,13 @@ export class ThreadPool {
         idle.task = undefined;
         idle.worker.unref();
         const message = error instanceof Error ? error.message : String(error);
-        task.resolve({ ok: false, kind: 'invalid', message: `job payload cannot be sent to a thread: ${message}`, retryable: false, payload: undefined });
+        task.resolve({
+          ok: false,
+          kind: 'invalid',
+          message: `job payload cannot be sent to a thread: ${message}`,
+          retryable: false,
+          payload: undefined,
+        });
       }
     }
     this.notifyIfDrained();

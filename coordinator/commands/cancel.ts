@@ -1,8 +1,8 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
-import { action } from '../cli-support.js';
 import { cancelSweep } from '../cancel.js';
-import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
+import { action } from '../cli-support.js';
+import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 
 interface CancelOptions extends QueueCliOptions {
   readonly json?: boolean;
@@ -13,7 +13,9 @@ export function registerCancel(program: Command): void {
     program
       .command('cancel')
       .argument('<dir>', 'the sweep folder (<results root>/<name>)')
-      .description('Remove the sweep\'s waiting jobs from the queue; running jobs finish and keep their results (`requeue` resumes)')
+      .description(
+        "Remove the sweep's waiting jobs from the queue; running jobs finish and keep their results (`requeue` resumes)",
+      )
       .option('--json', 'print the counts as one JSON object'),
   ).action(
     action(async (dir: string, options: CancelOptions) => {

@@ -1,9 +1,9 @@
 import type { Command } from 'commander';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
-import { buildReport } from '../summarize/build-report.js';
 import { demoSweep } from '../demo-sweep.js';
-import { MAX_THREADS, displayPath, executeSweep, shellWord } from './run.js';
+import { buildReport } from '../summarize/build-report.js';
+import { displayPath, executeSweep, MAX_THREADS, shellWord } from './run.js';
 
 interface DemoFlags {
   readonly out: string;
@@ -14,14 +14,20 @@ interface DemoFlags {
 export function registerDemo(program: Command): void {
   program
     .command('demo')
-    .description('Run the built-in demo sweep (recall of two overlapping sequences) on this machine, a couple of minutes on 2 cores')
+    .description(
+      'Run the built-in demo sweep (recall of two overlapping sequences) on this machine, a couple of minutes on 2 cores',
+    )
     .option('--out <dir>', 'results root; the demo goes to <dir>/demo-overlap', 'results')
     .option('--threads <n>', 'worker threads (default: one per core)')
     .option('--replicates <n>', 'trials per point for a quicker look (default 64; results go to demo-overlap-<n>x)')
     .action(
       action(async (flags: DemoFlags) => {
-        const threads = flags.threads === undefined ? defaultThreadCount() : parseWholeNumber('--threads', flags.threads, 1, MAX_THREADS);
-        const replicates = flags.replicates === undefined ? undefined : parseWholeNumber('--replicates', flags.replicates, 1, 10_000);
+        const threads =
+          flags.threads === undefined
+            ? defaultThreadCount()
+            : parseWholeNumber('--threads', flags.threads, 1, MAX_THREADS);
+        const replicates =
+          flags.replicates === undefined ? undefined : parseWholeNumber('--replicates', flags.replicates, 1, 10_000);
         const sweep = demoSweep(replicates);
         const words = ['recallscape', 'demo', '--out', flags.out];
         if (flags.threads !== undefined) words.push('--threads', String(threads));

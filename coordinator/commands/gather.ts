@@ -2,7 +2,7 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action } from '../cli-support.js';
 import { gatherSweep } from '../gather.js';
-import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
+import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 
 interface GatherOptions extends QueueCliOptions {
   readonly json?: boolean;
@@ -13,7 +13,9 @@ export function registerGather(program: Command): void {
     program
       .command('gather')
       .argument('<dir>', 'the sweep folder (<results root>/<name>)')
-      .description('Copy records of finished jobs held in Redis into this folder, then free them in Redis (for workers without a shared disk)')
+      .description(
+        'Copy records of finished jobs held in Redis into this folder, then free them in Redis (for workers without a shared disk)',
+      )
       .option('--json', 'print the counts as one JSON object'),
   ).action(
     action(async (dir: string, options: GatherOptions) => {
@@ -31,7 +33,8 @@ export function registerGather(program: Command): void {
         `on disk    ${r.alreadyOnDisk} already there`,
         `freed      ${r.removed} job(s) removed from Redis`,
       ];
-      if (r.rejected > 0) lines.push(`rejected   ${r.rejected} return value(s) that are not records of this sweep (left in Redis)`);
+      if (r.rejected > 0)
+        lines.push(`rejected   ${r.rejected} return value(s) that are not records of this sweep (left in Redis)`);
       process.stdout.write(`${lines.join('\n')}\n`);
     }),
   );

@@ -1,5 +1,5 @@
 import type { Command } from 'commander';
-import { EXIT_FAILURE, action } from '../cli-support.js';
+import { action, EXIT_FAILURE } from '../cli-support.js';
 import { inspectJob } from '../summarize/inspect-job.js';
 
 interface InspectFlags {
@@ -10,13 +10,19 @@ interface InspectFlags {
 export function registerInspect(program: Command): void {
   program
     .command('inspect')
-    .description('Re-run one job of a sweep deterministically, check it against its stored result (exit 1 if they differ), and draw its recall trace as SVG')
+    .description(
+      'Re-run one job of a sweep deterministically, check it against its stored result (exit 1 if they differ), and draw its recall trace as SVG',
+    )
     .argument('<dir>', 'sweep folder (the one holding sweep.json)')
     .requiredOption('--job <key>', 'job key, or a unique prefix of one')
     .option('--out <file.svg>', 'where to write the trace (default: DIR/report/inspect-<key>.svg)')
     .action(
       action(async (dir: string, flags: InspectFlags) => {
-        const result = await inspectJob({ dir, job: flags.job, ...(flags.out === undefined ? {} : { out: flags.out }) });
+        const result = await inspectJob({
+          dir,
+          job: flags.job,
+          ...(flags.out === undefined ? {} : { out: flags.out }),
+        });
         const lines = [
           `job ${result.key} (replicate ${result.replicate}, seed ${result.seed})`,
           `point: ${JSON.stringify(result.point)}`,

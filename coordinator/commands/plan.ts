@@ -15,11 +15,17 @@ interface PlanFlags {
 export function registerPlan(program: Command): void {
   program
     .command('plan')
-    .description('Check a sweep file and show its jobs, a sample of its points and an estimate of core-hours; runs nothing else')
+    .description(
+      'Check a sweep file and show its jobs, a sample of its points and an estimate of core-hours; runs nothing else',
+    )
     .argument('<file>', 'sweep file (YAML or JSON)')
     .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
     .option('--yes', 'plan even when the sweep has more jobs than the limit')
-    .option('--calibrate <n>', 'jobs to time on this machine for the estimate (0: report operations only)', String(DEFAULT_CALIBRATION_JOBS))
+    .option(
+      '--calibrate <n>',
+      'jobs to time on this machine for the estimate (0: report operations only)',
+      String(DEFAULT_CALIBRATION_JOBS),
+    )
     .action(
       action(async (file: string, flags: PlanFlags) => {
         const maxJobs = parseWholeNumber('--max-jobs', flags.maxJobs, 1);

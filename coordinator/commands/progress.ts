@@ -5,8 +5,14 @@ import { createLogger } from '../../shared/logger.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action } from '../cli-support.js';
 import { formatDuration } from '../progress-display.js';
-import { sweepProgress, type ProgressSnapshot } from '../queue-progress.js';
-import { addQueueOptions, openQueueSession, optionalQueueSettings, type QueueCliOptions, type QueueSession } from '../queue-session.js';
+import { type ProgressSnapshot, sweepProgress } from '../queue-progress.js';
+import {
+  addQueueOptions,
+  openQueueSession,
+  optionalQueueSettings,
+  type QueueCliOptions,
+  type QueueSession,
+} from '../queue-session.js';
 import { asServiceError } from '../redis-connect.js';
 import { completedPercent } from '../summarize/completed-percent.js';
 
@@ -22,7 +28,9 @@ export function registerProgress(program: Command): void {
     program
       .command('progress')
       .argument('<dir>', 'the sweep folder (<results root>/<name>)')
-      .description('How far a sweep is: finished jobs from the result files, waiting/running/failed jobs from the queue, rate and time left')
+      .description(
+        'How far a sweep is: finished jobs from the result files, waiting/running/failed jobs from the queue, rate and time left',
+      )
       .option('--follow', 'redraw a live progress bar every 2 s until the sweep is finished (Ctrl-C stops watching)')
       .option('--json', 'print the figures as one JSON object'),
     false,
@@ -32,10 +40,15 @@ export function registerProgress(program: Command): void {
       const store = ResultStore.open(dir);
       const sweep = await store.readSweep();
       const logger = createLogger({ name: 'progress' });
-      const session: QueueSession | undefined = settings === undefined ? undefined : await openQueueSession(settings, logger);
+      const session: QueueSession | undefined =
+        settings === undefined ? undefined : await openQueueSession(settings, logger);
       const snapshot = async (): Promise<ProgressSnapshot> => {
         try {
-          return await sweepProgress(store, sweep, session === undefined ? undefined : { client: session.client, target: session.settings.queue });
+          return await sweepProgress(
+            store,
+            sweep,
+            session === undefined ? undefined : { client: session.client, target: session.settings.queue },
+          );
         } catch (error) {
           throw settings === undefined ? error : asServiceError(error, settings.redis);
         }
@@ -62,7 +75,9 @@ export function describe(s: ProgressSnapshot): string {
   }
   lines.push(finished);
   if (s.queue !== null) {
-    lines.push(`queue     waiting ${s.queue.waiting}, active ${s.queue.active}, delayed ${s.queue.delayed} (retry backoff), failed ${s.queue.failed}`);
+    lines.push(
+      `queue     waiting ${s.queue.waiting}, active ${s.queue.active}, delayed ${s.queue.delayed} (retry backoff), failed ${s.queue.failed}`,
+    );
   } else {
     lines.push('queue     (not asked: give --redis URL to see waiting and running jobs)');
   }
@@ -82,7 +97,8 @@ export function describe(s: ProgressSnapshot): string {
 /** One line for --follow when stdout is not a terminal (a log file, a pipe). */
 export function followLine(s: ProgressSnapshot): string {
   const q = s.queue;
-  const queue = q === null ? '' : ` | waiting ${q.waiting} | active ${q.active} | delayed ${q.delayed} | failed ${q.failed}`;
+  const queue =
+    q === null ? '' : ` | waiting ${q.waiting} | active ${q.active} | delayed ${q.delayed} | failed ${q.failed}`;
   const rate = s.perMinute === null ? '?' : s.perMinute.toFixed(1);
   const eta = s.etaSeconds === null ? '?' : formatDuration(s.etaSeconds);
   return `finished ${s.finished}/${s.planned} (${completedPercent(s.finished, s.planned)})${queue} | ${rate} jobs/min | left ~${eta}`;
@@ -98,7 +114,8 @@ async function follow(snapshot: () => Promise<ProgressSnapshot>): Promise<void> 
   const bar =
     process.stdout.isTTY === true
       ? new cliProgress.SingleBar({
-          format: 'finished [{bar}] {percentage}% {value}/{total} | waiting {waiting} | active {active} | failed {failed} | {rate}/min | left ~{timeLeft}',
+          format:
+            'finished [{bar}] {percentage}% {value}/{total} | waiting {waiting} | active {active} | failed {failed} | {rate}/min | left ~{timeLeft}',
           barCompleteChar: '#',
           barIncompleteChar: '.',
           hideCursor: true,

@@ -1,4 +1,4 @@
-import { relative, isAbsolute } from 'node:path';
+import { isAbsolute, relative } from 'node:path';
 import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { action, parseWholeNumber } from '../cli-support.js';
@@ -25,27 +25,48 @@ function shortPath(path: string): string {
 
 function parseFormats(text: string | undefined): ReportFormat[] | undefined {
   if (text === undefined) return undefined;
-  const names = text.split(',').map((s) => s.trim()).filter((s) => s !== '');
+  const names = text
+    .split(',')
+    .map((s) => s.trim())
+    .filter((s) => s !== '');
   for (const name of names) {
     if (!(REPORT_FORMATS as readonly string[]).includes(name)) {
-      throw new InputError(`--format: unknown format "${name}"; allowed: ${REPORT_FORMATS.join(', ')} (comma-separated)`, [
-        { path: '--format', message: `allowed: ${REPORT_FORMATS.join(', ')}` },
-      ]);
+      throw new InputError(
+        `--format: unknown format "${name}"; allowed: ${REPORT_FORMATS.join(', ')} (comma-separated)`,
+        [{ path: '--format', message: `allowed: ${REPORT_FORMATS.join(', ')}` }],
+      );
     }
   }
-  if (names.length === 0) throw new InputError(`--format: name at least one of ${REPORT_FORMATS.join(', ')}`, [{ path: '--format', message: 'empty' }]);
+  if (names.length === 0)
+    throw new InputError(`--format: name at least one of ${REPORT_FORMATS.join(', ')}`, [
+      { path: '--format', message: 'empty' },
+    ]);
   return names as ReportFormat[];
 }
 
 export function registerReport(program: Command): void {
   program
     .command('report')
-    .description('Summarise a sweep folder into tables, phase diagrams and index.html (in DIR/report/); works while the sweep is still running')
+    .description(
+      'Summarise a sweep folder into tables, phase diagrams and index.html (in DIR/report/); works while the sweep is still running',
+    )
     .argument('<dir>', 'sweep folder (the one holding sweep.json)')
-    .option('--x <param>', 'varied parameter on the horizontal axis (default: report.x of the sweep, else the first varied parameter)')
-    .option('--y <param>', 'varied parameter on the vertical axis (default: report.y, else the second varied parameter)')
-    .option('--facet <param>', 'varied parameter with one diagram per value, or "none" (default: report.facet, else the third varied parameter)')
-    .option('--metric <name>', 'metric to colour the cells by: success or another scalar metric of the records (default: report.metric, else success)')
+    .option(
+      '--x <param>',
+      'varied parameter on the horizontal axis (default: report.x of the sweep, else the first varied parameter)',
+    )
+    .option(
+      '--y <param>',
+      'varied parameter on the vertical axis (default: report.y, else the second varied parameter)',
+    )
+    .option(
+      '--facet <param>',
+      'varied parameter with one diagram per value, or "none" (default: report.facet, else the third varied parameter)',
+    )
+    .option(
+      '--metric <name>',
+      'metric to colour the cells by: success or another scalar metric of the records (default: report.metric, else success)',
+    )
     .option('--format <list>', `comma-separated outputs among ${REPORT_FORMATS.join(',')} (default: all)`)
     .option('--bins <n>', 'bins per axis for random, lhs and sobol sweeps (default: report.bins, else 8)')
     .action(
@@ -73,7 +94,9 @@ export function registerReport(program: Command): void {
         const lines = [
           `completed ${result.completedJobs} of ${result.plannedJobs} jobs (${completedPercent(result.completedJobs, result.plannedJobs)})` +
             (result.failedJobs > 0 ? `; ${result.failedJobs} failed without a result` : '') +
-            (result.incompleteCells > 0 ? `; ${result.incompleteCells} diagram cells have fewer trials than planned` : ''),
+            (result.incompleteCells > 0
+              ? `; ${result.incompleteCells} diagram cells have fewer trials than planned`
+              : ''),
           `wrote ${result.files.length} file${result.files.length === 1 ? '' : 's'} to ${shortPath(result.reportDir)}/:`,
           ...result.files.map((f) => `  ${shortPath(f)}`),
         ];

@@ -1,7 +1,7 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action } from '../cli-support.js';
-import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
+import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 import { requeueSweep } from '../requeue.js';
 
 interface RequeueOptions extends QueueCliOptions {
@@ -14,7 +14,9 @@ export function registerRequeue(program: Command): void {
     program
       .command('requeue')
       .argument('<dir>', 'the sweep folder (<results root>/<name>)')
-      .description('Resume a sweep: queue every job that has no result and is not in the queue (also after Redis lost everything)')
+      .description(
+        'Resume a sweep: queue every job that has no result and is not in the queue (also after Redis lost everything)',
+      )
       .option('--failed', 'also give jobs in the failed set a fresh set of attempts')
       .option('--json', 'print the counts as one JSON object'),
   ).action(
@@ -33,7 +35,8 @@ export function registerRequeue(program: Command): void {
         `in queue   ${r.inQueue} (left as they are)`,
       ];
       if (options.failed === true) lines.push(`retried    ${r.retried} failed job(s) with fresh attempts`);
-      else if (r.failedKept > 0) lines.push(`failed     ${r.failedKept} left in the failed set (add --failed to retry them)`);
+      else if (r.failedKept > 0)
+        lines.push(`failed     ${r.failedKept} left in the failed set (add --failed to retry them)`);
       lines.push(`added      ${r.enqueued}`);
       process.stdout.write(`${lines.join('\n')}\n`);
     }),

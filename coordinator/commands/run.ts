@@ -1,12 +1,12 @@
-import { relative, isAbsolute } from 'node:path';
+import { isAbsolute, relative } from 'node:path';
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
-import { EXIT_FAILURE, EXIT_OK, action, parseWholeNumber } from '../cli-support.js';
+import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
-import { runSweep, stopOnSignals, type RunSweepResult } from '../run-sweep.js';
+import { type RunSweepResult, runSweep, stopOnSignals } from '../run-sweep.js';
 
 /** Exit code of a run stopped by SIGINT/SIGTERM (128 + SIGINT, as shells do). */
 export const EXIT_INTERRUPTED = 130;
@@ -117,7 +117,10 @@ export function registerRun(program: Command): void {
     .option('--yes', 'run even when the sweep has more jobs than the limit')
     .action(
       action(async (file: string, flags: RunFlags) => {
-        const threads = flags.threads === undefined ? defaultThreadCount() : parseWholeNumber('--threads', flags.threads, 1, MAX_THREADS);
+        const threads =
+          flags.threads === undefined
+            ? defaultThreadCount()
+            : parseWholeNumber('--threads', flags.threads, 1, MAX_THREADS);
         const maxJobs = parseWholeNumber('--max-jobs', flags.maxJobs, 1);
         // Everything is validated before runSweep creates the results folder.
         const sweep = await loadSweepForCommand(file, { maxJobs, yes: flags.yes === true });

@@ -1,7 +1,7 @@
 import { readFile } from 'node:fs/promises';
 import type { Command } from 'commander';
 import { writeFileAtomic } from '../../shared/atomic-write.js';
-import { InputError, issuesFromZod, type FieldIssue } from '../../shared/errors.js';
+import { type FieldIssue, InputError, issuesFromZod } from '../../shared/errors.js';
 import type { TracePanel } from '../../shared/model.js';
 import { DEFAULT_MODEL_ID, requireModel } from '../../shared/models/registry.js';
 import { MAX_SEED } from '../../shared/random.js';
@@ -46,7 +46,10 @@ async function readParamsFile(path: string): Promise<Record<string, unknown>> {
   try {
     parsed = JSON.parse(text);
   } catch (error) {
-    throw inputError('--params', `${path} is not valid JSON: ${error instanceof Error ? error.message : String(error)}`);
+    throw inputError(
+      '--params',
+      `${path} is not valid JSON: ${error instanceof Error ? error.message : String(error)}`,
+    );
   }
   if (parsed === null || typeof parsed !== 'object' || Array.isArray(parsed)) {
     throw inputError('--params', `${path} must hold one JSON object of parameter names and values`);
@@ -92,7 +95,12 @@ export function registerSimulate(program: Command): void {
     .description('Run one trial of a model and print its metrics as one JSON object')
     .option('--model <id>', 'model to run', DEFAULT_MODEL_ID)
     .option('--params <file>', 'JSON object of parameters (explicit "sequences" go here)')
-    .option('--set <name=value>', 'set one parameter (repeatable; applied after --params)', (v: string, acc: string[]) => [...acc, v], [] as string[])
+    .option(
+      '--set <name=value>',
+      'set one parameter (repeatable; applied after --params)',
+      (v: string, acc: string[]) => [...acc, v],
+      [] as string[],
+    )
     .option('--seed <n>', 'seed of the trial (non-negative integer)', '1')
     .option('--trace <file>', 'write the match of every stored pattern at every recall step as CSV')
     .action(

@@ -2,8 +2,8 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
-import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
-import { submitSweep, type SubmitResult } from '../submit-sweep.js';
+import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
+import { type SubmitResult, submitSweep } from '../submit-sweep.js';
 
 interface SubmitOptions extends QueueCliOptions {
   readonly out: string;
@@ -30,7 +30,9 @@ export function registerSubmit(program: Command): void {
       const sweep = await loadSweepForCommand(file, { maxJobs, yes: options.yes === true });
       const logger = createLogger({ name: 'submit' });
       const result = await submitSweep(sweep, options.out, settings, logger);
-      process.stdout.write(options.json === true ? `${JSON.stringify(result)}\n` : describe(result, settings.queue.name));
+      process.stdout.write(
+        options.json === true ? `${JSON.stringify(result)}\n` : describe(result, settings.queue.name),
+      );
     }),
   );
 }
@@ -44,8 +46,12 @@ function describe(r: SubmitResult, queue: string): string {
     `done       ${r.done} (results on disk)`,
     `in queue   ${r.inQueue} (already in Redis, waiting, running or not yet gathered)`,
   ];
-  if (r.failedKept > 0) lines.push(`failed     ${r.failedKept} (in the failed set; \`recallscape requeue ${r.dir} --failed\` tries them again)`);
+  if (r.failedKept > 0)
+    lines.push(
+      `failed     ${r.failedKept} (in the failed set; \`recallscape requeue ${r.dir} --failed\` tries them again)`,
+    );
   lines.push(`added      ${r.enqueued} to queue "${queue}"`);
-  if (r.enqueued + r.inQueue > 0) lines.push(`next       start workers: recallscape worker --redis URL --out <results root>`);
+  if (r.enqueued + r.inQueue > 0)
+    lines.push(`next       start workers: recallscape worker --redis URL --out <results root>`);
   return `${lines.join('\n')}\n`;
 }

@@ -6,10 +6,15 @@ import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { createLogger } from '../../shared/logger.js';
 import { newWriterId } from '../../shared/store/result-store.js';
-import { DEFAULT_LOCK_MS, DEFAULT_MAX_STALLED, DEFAULT_STALL_CHECK_MS, QueueConsumer } from '../../worker/queue-consumer.js';
-import { ThreadPool, defaultThreadCount } from '../../worker/thread-pool.js';
+import {
+  DEFAULT_LOCK_MS,
+  DEFAULT_MAX_STALLED,
+  DEFAULT_STALL_CHECK_MS,
+  QueueConsumer,
+} from '../../worker/queue-consumer.js';
+import { defaultThreadCount, ThreadPool } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
-import { addQueueOptions, queueSettings, type QueueCliOptions } from '../queue-session.js';
+import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 import { closeRedis, connectRedis } from '../redis-connect.js';
 
 interface WorkerOptions extends QueueCliOptions {
@@ -32,8 +37,16 @@ export function registerWorker(program: Command): void {
       .option('--out <dir>', 'results root; results of sweep S go to <dir>/S/results/<worker name>.ndjson', 'results')
       .option('--name <id>', 'worker name: its result files are <id>-<pid>-<random>.ndjson (default: the host name)')
       .option('--nice <n>', 'run at a lower CPU priority, from 0 (normal) to 19 (lowest), as on shared machines')
-      .option('--prefetch <n>', 'jobs to hold beyond one per thread, so short jobs wait less for Redis; "auto" holds some only while jobs take under 0.1 s', 'auto')
-      .option('--lock-ms <ms>', 'job lock duration; a dead worker\'s job is taken over after about lock + stall check', String(DEFAULT_LOCK_MS))
+      .option(
+        '--prefetch <n>',
+        'jobs to hold beyond one per thread, so short jobs wait less for Redis; "auto" holds some only while jobs take under 0.1 s',
+        'auto',
+      )
+      .option(
+        '--lock-ms <ms>',
+        "job lock duration; a dead worker's job is taken over after about lock + stall check",
+        String(DEFAULT_LOCK_MS),
+      )
       .option('--stall-check-ms <ms>', 'how often to look for jobs whose worker died', String(DEFAULT_STALL_CHECK_MS))
       .option('--max-stalled <n>', 'times a job may lose its worker before it is failed', String(DEFAULT_MAX_STALLED)),
   ).action(action(runWorker));
@@ -42,16 +55,18 @@ export function registerWorker(program: Command): void {
 async function runWorker(options: WorkerOptions): Promise<void> {
   // Every option is checked before anything starts: bad input exits with 2.
   const settings = queueSettings(options);
-  const threads = options.threads === undefined ? defaultThreadCount() : parseWholeNumber('--threads', options.threads, 1, 1024);
+  const threads =
+    options.threads === undefined ? defaultThreadCount() : parseWholeNumber('--threads', options.threads, 1, 1024);
   const lockMs = parseWholeNumber('--lock-ms', options.lockMs, 500, 3_600_000);
   const stallCheckMs = parseWholeNumber('--stall-check-ms', options.stallCheckMs, 200, 3_600_000);
   const maxStalledCount = parseWholeNumber('--max-stalled', options.maxStalled, 0, 100);
   const prefetch = options.prefetch === 'auto' ? 'auto' : parsePrefetch(options.prefetch);
   const nice = options.nice === undefined ? undefined : parseWholeNumber('--nice', options.nice, 0, 19);
   if (options.name !== undefined && !/^[a-z0-9][a-z0-9._-]{0,99}$/.test(options.name)) {
-    throw new InputError(`--name: use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit (got "${options.name}")`, [
-      { path: '--name', message: 'a-z, 0-9, ".", "_", "-" only' },
-    ]);
+    throw new InputError(
+      `--name: use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit (got "${options.name}")`,
+      [{ path: '--name', message: 'a-z, 0-9, ".", "_", "-" only' }],
+    );
   }
   // Linux gives a new thread its creator's nice value, so this must come before the pool exists.
   if (nice !== undefined) lowerPriority(nice);
@@ -110,7 +125,18 @@ async function runWorker(options: WorkerOptions): Promise<void> {
 
   await consumer.start();
   logger.info(
-    { redis: target.masked, queue: settings.queue.name, prefix: settings.queue.prefix, threads, prefetch, out: resolve(options.out), writer, lockMs, stallCheckMs, nice },
+    {
+      redis: target.masked,
+      queue: settings.queue.name,
+      prefix: settings.queue.prefix,
+      threads,
+      prefetch,
+      out: resolve(options.out),
+      writer,
+      lockMs,
+      stallCheckMs,
+      nice,
+    },
     'worker ready',
   );
   await stopped;
@@ -132,7 +158,9 @@ function lowerPriority(nice: number): void {
     setPriority(nice);
   } catch (error) {
     const code = (error as NodeJS.ErrnoException).code ?? 'error';
-    throw new InputError(`--nice: cannot set priority ${nice} (${code})`, [{ path: '--nice', message: `cannot set priority (${code})` }]);
+    throw new InputError(`--nice: cannot set priority ${nice} (${code})`, [
+      { path: '--nice', message: `cannot set priority (${code})` },
+    ]);
   }
   let tasks: string[] = [];
   try {

@@ -1,11 +1,11 @@
 import { isAbsolute, join, resolve } from 'node:path';
+import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { canonicalJson } from '../../shared/canonical-json.js';
 import { InputError } from '../../shared/errors.js';
 import type { Metrics } from '../../shared/model.js';
 import type { Point } from '../../shared/schemas/records.js';
-import { expandJobs, type PlannedJob } from '../../shared/sweep/expand.js';
 import { ResultStore } from '../../shared/store/result-store.js';
-import { writeFileAtomic } from '../../shared/atomic-write.js';
+import { expandJobs, type PlannedJob } from '../../shared/sweep/expand.js';
 import { renderTracePlot } from './trace-plot.js';
 
 export interface InspectOptions {
@@ -33,9 +33,10 @@ export interface InspectResult {
 /** Find a job by key or unique key prefix; InputError naming --job otherwise. */
 export function findJob(jobs: Iterable<PlannedJob>, wanted: string): PlannedJob {
   if (!/^[0-9a-f]{1,32}$/.test(wanted)) {
-    throw new InputError(`--job: "${wanted}" is not a job key; a key is up to 32 lower-case hex digits (a unique prefix is enough)`, [
-      { path: '--job', message: 'expected lower-case hex digits' },
-    ]);
+    throw new InputError(
+      `--job: "${wanted}" is not a job key; a key is up to 32 lower-case hex digits (a unique prefix is enough)`,
+      [{ path: '--job', message: 'expected lower-case hex digits' }],
+    );
   }
   const matches: PlannedJob[] = [];
   for (const job of jobs) {
@@ -47,15 +48,20 @@ export function findJob(jobs: Iterable<PlannedJob>, wanted: string): PlannedJob 
   const exact = matches.find((j) => j.key === wanted);
   if (exact !== undefined) return exact;
   if (matches.length === 0) {
-    throw new InputError(`--job: no job of this sweep has a key starting with "${wanted}" (keys are in the result records and in \`recallscape plan\` output)`, [
-      { path: '--job', message: 'no such job in this sweep' },
-    ]);
+    throw new InputError(
+      `--job: no job of this sweep has a key starting with "${wanted}" (keys are in the result records and in \`recallscape plan\` output)`,
+      [{ path: '--job', message: 'no such job in this sweep' }],
+    );
   }
   if (matches.length > 1) {
-    const shown = matches.slice(0, 5).map((j) => j.key).join(', ');
-    throw new InputError(`--job: "${wanted}" matches more than one job (${shown}${matches.length > 5 ? ', ...' : ''}); give more digits`, [
-      { path: '--job', message: 'ambiguous key prefix' },
-    ]);
+    const shown = matches
+      .slice(0, 5)
+      .map((j) => j.key)
+      .join(', ');
+    throw new InputError(
+      `--job: "${wanted}" matches more than one job (${shown}${matches.length > 5 ? ', ...' : ''}); give more digits`,
+      [{ path: '--job', message: 'ambiguous key prefix' }],
+    );
   }
   return matches[0] as PlannedJob;
 }
@@ -76,7 +82,9 @@ export async function inspectJob(options: InspectOptions): Promise<InspectResult
   const job = findJob(expandJobs(sweep), options.job);
   const params = sweep.model.params.safeParse(job.params);
   if (!params.success) {
-    throw new InputError(`job ${job.key}: its parameters are not valid for model ${sweep.model.id} any more`, [{ path: '--job', message: params.error.message }]);
+    throw new InputError(`job ${job.key}: its parameters are not valid for model ${sweep.model.id} any more`, [
+      { path: '--job', message: params.error.message },
+    ]);
   }
   const output = sweep.model.run(params.data, job.seed, { trace: true });
 
@@ -87,12 +95,15 @@ export async function inspectJob(options: InspectOptions): Promise<InspectResult
       break;
     }
   }
-  const stored = storedMetrics === null ? 'none' : normalise(storedMetrics) === normalise(output.metrics) ? 'equal' : 'different';
+  const stored =
+    storedMetrics === null ? 'none' : normalise(storedMetrics) === normalise(output.metrics) ? 'equal' : 'different';
 
   const panels = output.trace ?? [];
   let svgPath: string | null = null;
   if (panels.length > 0) {
-    const pointText = Object.entries(job.point).map(([k, v]) => `${k} = ${String(v)}`).join(', ');
+    const pointText = Object.entries(job.point)
+      .map(([k, v]) => `${k} = ${String(v)}`)
+      .join(', ');
     const plot = renderTracePlot({
       title: `${sweep.spec.name}: job ${job.key.slice(0, 12)} (replicate ${job.replicate}, seed ${job.seed})`,
       subtitle: [
@@ -102,7 +113,12 @@ export async function inspectJob(options: InspectOptions): Promise<InspectResult
       panels,
       valueLabel: 'match',
     });
-    svgPath = options.out === undefined ? join(store.reportDir, `inspect-${job.key}.svg`) : isAbsolute(options.out) ? options.out : resolve(options.out);
+    svgPath =
+      options.out === undefined
+        ? join(store.reportDir, `inspect-${job.key}.svg`)
+        : isAbsolute(options.out)
+          ? options.out
+          : resolve(options.out);
     await writeFileAtomic(svgPath, `<?xml version="1.0" encoding="UTF-8"?>\n${plot.svg}\n`);
   }
   return {

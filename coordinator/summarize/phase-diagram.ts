@@ -1,8 +1,8 @@
-import { cellLabel, type Axis } from './axis.js';
+import { type Axis, cellLabel } from './axis.js';
 import type { CellData, CellGrid } from './cell-grid.js';
 import { colourScale } from './colour-scale.js';
 import { isoLines } from './contour.js';
-import { FONT_FAMILY, escapeXml, px, textWidth } from './svg-util.js';
+import { escapeXml, FONT_FAMILY, px, textWidth } from './svg-util.js';
 
 export interface PhaseDiagramInput {
   /** Unique among the diagrams of one page: prefixes element ids. */
@@ -74,7 +74,10 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
   const plotW = nx * cellW;
   const plotH = ny * cellH;
   const xLabels = Array.from({ length: xAxis.kind === 'values' ? nx : nx + 1 }, (_, i) => edgeOrCellLabel(xAxis, i));
-  const yLabels = yAxis === null ? [] : Array.from({ length: yAxis.kind === 'values' ? ny : ny + 1 }, (_, i) => edgeOrCellLabel(yAxis, i));
+  const yLabels =
+    yAxis === null
+      ? []
+      : Array.from({ length: yAxis.kind === 'values' ? ny : ny + 1 }, (_, i) => edgeOrCellLabel(yAxis, i));
   const yLabelWidth = Math.max(0, ...yLabels.map((l) => textWidth(l, TICK_FONT)));
   const left = Math.round(30 + yLabelWidth + 14);
   const top = 30 + 18 * (1 + input.subtitle.length);
@@ -154,7 +157,9 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     out.push(`<rect x="${x}" y="${y}" width="${cellW}" height="${cellH}" fill="url(#${id}-hatch)"/>`);
   }
   out.push('</g>');
-  out.push(`<rect x="${left}" y="${top}" width="${plotW}" height="${plotH}" fill="none" stroke="#222222" stroke-width="1"/>`);
+  out.push(
+    `<rect x="${left}" y="${top}" width="${plotW}" height="${plotH}" fill="none" stroke="#222222" stroke-width="1"/>`,
+  );
 
   // The border line: white casing under a black line, visible on every colour.
   if (input.border !== null) {
@@ -162,11 +167,19 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     const lines = isoLines(values, nx, ny, input.border);
     if (lines.length > 0) {
       const d = lines
-        .map((line) => line.map(([u, v], i) => `${i === 0 ? 'M' : 'L'}${px(left + u * cellW)},${px(top + (ny - v) * cellH)}`).join(''))
+        .map((line) =>
+          line
+            .map(([u, v], i) => `${i === 0 ? 'M' : 'L'}${px(left + u * cellW)},${px(top + (ny - v) * cellH)}`)
+            .join(''),
+        )
         .join('');
       out.push(`<g class="border" clip-path="url(#${id}-clip)" pointer-events="none">`);
-      out.push(`<path d="${d}" fill="none" stroke="#ffffff" stroke-width="5" stroke-linejoin="round" stroke-linecap="round"/>`);
-      out.push(`<path class="border-line" d="${d}" fill="none" stroke="#000000" stroke-width="2.2" stroke-linejoin="round" stroke-linecap="round" data-level="${input.border}"/>`);
+      out.push(
+        `<path d="${d}" fill="none" stroke="#ffffff" stroke-width="5" stroke-linejoin="round" stroke-linecap="round"/>`,
+      );
+      out.push(
+        `<path class="border-line" d="${d}" fill="none" stroke="#000000" stroke-width="2.2" stroke-linejoin="round" stroke-linecap="round" data-level="${input.border}"/>`,
+      );
       out.push('</g>');
     }
   }
@@ -181,7 +194,9 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     if (i % xStep === 0) out.push(`<text x="${px(x)}" y="${top + plotH + 18}">${escapeXml(label)}</text>`);
   });
   out.push('</g>');
-  out.push(`<text class="x-title" x="${px(left + plotW / 2)}" y="${top + plotH + 44}" text-anchor="middle">${escapeXml(input.xLabel)}</text>`);
+  out.push(
+    `<text class="x-title" x="${px(left + plotW / 2)}" y="${top + plotH + 44}" text-anchor="middle">${escapeXml(input.xLabel)}</text>`,
+  );
 
   if (yAxis !== null) {
     out.push(`<g class="y-axis" font-size="${TICK_FONT}" text-anchor="end">`);
@@ -193,18 +208,24 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     });
     out.push('</g>');
     const cy = top + plotH / 2;
-    out.push(`<text class="y-title" x="18" y="${px(cy)}" text-anchor="middle" transform="rotate(-90 18 ${px(cy)})">${escapeXml(input.yLabel)}</text>`);
+    out.push(
+      `<text class="y-title" x="18" y="${px(cy)}" text-anchor="middle" transform="rotate(-90 18 ${px(cy)})">${escapeXml(input.yLabel)}</text>`,
+    );
   }
 
   // Legend: colour bar with ticks, then the marks.
   out.push(`<g class="legend">`);
   out.push(`<text x="${legendX}" y="${top - 8}" font-weight="bold">${escapeXml(input.valueLabel)}</text>`);
-  out.push(`<rect x="${legendX}" y="${top}" width="18" height="${legendH}" fill="url(#${id}-ramp)" stroke="#222222" stroke-width="0.8"/>`);
+  out.push(
+    `<rect x="${legendX}" y="${top}" width="18" height="${legendH}" fill="url(#${id}-ramp)" stroke="#222222" stroke-width="0.8"/>`,
+  );
   const [d0, d1] = scale.domain;
   for (const t of scale.ticks(5)) {
     const y = top + legendH - ((t - d0) / (d1 - d0)) * legendH;
     out.push(`<line x1="${legendX + 18}" y1="${px(y)}" x2="${legendX + 23}" y2="${px(y)}" stroke="#222222"/>`);
-    out.push(`<text x="${legendX + 27}" y="${px(y + 4)}" font-size="${TICK_FONT}">${escapeXml(String(Number(t.toPrecision(6))))}</text>`);
+    out.push(
+      `<text x="${legendX + 27}" y="${px(y + 4)}" font-size="${TICK_FONT}">${escapeXml(String(Number(t.toPrecision(6))))}</text>`,
+    );
   }
   let ly = top + legendH + 26;
   if (input.border !== null) {
@@ -215,7 +236,9 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     ly += 24;
   }
   out.push(`<rect x="${legendX}" y="${ly - 8}" width="22" height="16" fill="#7f7f7f"/>`);
-  out.push(`<rect x="${legendX}" y="${ly - 8}" width="22" height="16" fill="url(#${id}-hatch)" stroke="#222222" stroke-width="0.6"/>`);
+  out.push(
+    `<rect x="${legendX}" y="${ly - 8}" width="22" height="16" fill="url(#${id}-hatch)" stroke="#222222" stroke-width="0.6"/>`,
+  );
   out.push(`<text x="${legendX + 30}" y="${ly + 4}" font-size="${TICK_FONT + 1}">fewer trials than planned</text>`);
   ly += 24;
   out.push(`<rect x="${legendX}" y="${ly - 8}" width="22" height="16" fill="#ffffff" stroke="#c8c8c8"/>`);
@@ -231,4 +254,3 @@ function edgeOrCellLabel(axis: Axis, i: number): string {
   if (edge === undefined) return '';
   return String(Number(edge.toPrecision(3)));
 }
-

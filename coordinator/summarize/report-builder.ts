@@ -1,19 +1,19 @@
 import { join } from 'node:path';
+import { writeFileAtomic } from '../../shared/atomic-write.js';
 import type { FailureKind } from '../../shared/schemas/records.js';
 import { countJobs, iteratePoints } from '../../shared/sweep/expand.js';
 import { aggregateRecords } from './aggregate.js';
-import { writeFileAtomic } from '../../shared/atomic-write.js';
-import { axisSize, cellLabel, formatValue, type Axis } from './axis.js';
+import { type Axis, axisSize, cellLabel, formatValue } from './axis.js';
 import { buildCellGrids, type CellData, type PlacedGroup, type ShownMetric } from './cell-grid.js';
 import { GroupSummary } from './group-summary.js';
 import { paramLabel, valueUnit } from './param-label.js';
-import { renderPhaseDiagram, type RenderedSvg } from './phase-diagram.js';
+import { type RenderedSvg, renderPhaseDiagram } from './phase-diagram.js';
 import { svgToPng } from './png.js';
 import { allBinnedPlaces, buildLayout, type GroupPlace } from './report-layout.js';
-import { renderReportPage, type PageDiagram } from './report-page.js';
-import { MAX_FACET_BINS, checkMetric, resolveSettings, type ReportFormat } from './report-settings.js';
+import { type PageDiagram, renderReportPage } from './report-page.js';
+import { checkMetric, MAX_FACET_BINS, type ReportFormat, resolveSettings } from './report-settings.js';
 import type { ReportSource, ScanWarning } from './report-source.js';
-import { buildTable, toCsv, toMarkdown, type TableRow } from './tables.js';
+import { buildTable, type TableRow, toCsv, toMarkdown } from './tables.js';
 
 export interface ReportOptions {
   readonly dir: string;
@@ -45,7 +45,12 @@ export interface ReportResult {
 const MAX_WARNINGS_KEPT = 200;
 
 function slug(text: string): string {
-  return text.replace(/[^A-Za-z0-9._-]+/g, '_').replace(/^_+|_+$/g, '').slice(0, 60) || 'x';
+  return (
+    text
+      .replace(/[^A-Za-z0-9._-]+/g, '_')
+      .replace(/^_+|_+$/g, '')
+      .slice(0, 60) || 'x'
+  );
 }
 
 interface Group {
@@ -64,7 +69,14 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
   const sweep = await source.readSweep();
   const { spec, model } = sweep;
   const settings = resolveSettings(
-    { x: options.x, y: options.y, facet: options.facet, metric: options.metric, bins: options.bins, formats: options.formats },
+    {
+      x: options.x,
+      y: options.y,
+      facet: options.facet,
+      metric: options.metric,
+      bins: options.bins,
+      formats: options.formats,
+    },
     spec.report,
     sweep.variedNames,
   );
@@ -84,7 +96,8 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
   // Planned trials per group, in the sweep's order (empty bins included).
   const groups = new Map<string, Group>();
   if (layout.binned) {
-    for (const { key, ...place } of allBinnedPlaces(layout)) groups.set(key, { place, planned: 0, summary: new GroupSummary() });
+    for (const { key, ...place } of allBinnedPlaces(layout))
+      groups.set(key, { place, planned: 0, summary: new GroupSummary() });
   }
   for (const point of iteratePoints(sweep)) {
     const key = layout.keyOf(point);
@@ -144,13 +157,18 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
   const failuresByKind = [...attemptsByKind.entries()].sort((a, b) => b[1] - a[1]);
 
   // Tables.
-  const rows: TableRow[] = [...groups.values()].map((g) => ({ dims: g.place.dims, planned: g.planned, summary: g.summary }));
+  const rows: TableRow[] = [...groups.values()].map((g) => ({
+    dims: g.place.dims,
+    planned: g.planned,
+    summary: g.summary,
+  }));
   const table = buildTable(layout.dims, rows, aggregation.metricKinds);
   const outputs = new Map<string, string | Uint8Array>();
   const want = (f: ReportFormat): boolean => settings.formats.has(f);
   const tableName = layout.binned ? 'bins' : 'points';
   if (want('csv')) outputs.set(`${tableName}.csv`, toCsv(table));
-  if (want('md')) outputs.set(`${tableName}.md`, toMarkdown(table, `${spec.name}: per-${layout.binned ? 'bin' : 'point'} summary`));
+  if (want('md'))
+    outputs.set(`${tableName}.md`, toMarkdown(table, `${spec.name}: per-${layout.binned ? 'bin' : 'point'} summary`));
 
   // Diagrams, one per facet value.
   const diagrams: PageDiagram[] = [];
@@ -160,7 +178,13 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
     const nx = axisSize(xAxis);
     const ny = yAxis === null ? 1 : axisSize(yAxis);
     const facets = facetAxis === null ? 1 : axisSize(facetAxis);
-    const placed: PlacedGroup[] = [...groups.values()].map((g) => ({ x: g.place.x, y: g.place.y, facet: g.place.facet, planned: g.planned, summary: g.summary }));
+    const placed: PlacedGroup[] = [...groups.values()].map((g) => ({
+      x: g.place.x,
+      y: g.place.y,
+      facet: g.place.facet,
+      planned: g.planned,
+      summary: g.summary,
+    }));
     const grids = buildCellGrids(placed, { nx, ny, facets }, metric);
     const isRate = metric.kind === 'boolean';
     let domain: [number, number] = [0, 1];
@@ -168,15 +192,24 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
       const values = grids.flatMap((g) => g.cells.map((c) => c.value)).filter((v): v is number => v !== null);
       domain = values.length === 0 ? [0, 1] : [Math.min(...values), Math.max(...values)];
     }
-    const valueLabel = metric.name === 'success' ? 'success rate' : isRate ? `${metric.name} (rate)` : `mean ${metric.name}`;
+    const valueLabel =
+      metric.name === 'success' ? 'success rate' : isRate ? `${metric.name} (rate)` : `mean ${metric.name}`;
     const describeCell = (cell: CellData): string => {
-      const parts = [`${xAxis.param} ${xAxis.kind === 'bins' ? 'in' : '='} ${describeOnAxis(xAxis, cell.x, model.paramInfo)}`];
-      if (yAxis !== null) parts.push(`${yAxis.param} ${yAxis.kind === 'bins' ? 'in' : '='} ${describeOnAxis(yAxis, cell.y, model.paramInfo)}`);
+      const parts = [
+        `${xAxis.param} ${xAxis.kind === 'bins' ? 'in' : '='} ${describeOnAxis(xAxis, cell.x, model.paramInfo)}`,
+      ];
+      if (yAxis !== null)
+        parts.push(
+          `${yAxis.param} ${yAxis.kind === 'bins' ? 'in' : '='} ${describeOnAxis(yAxis, cell.y, model.paramInfo)}`,
+        );
       return parts.join(', ');
     };
     const pooled = sweep.variedNames.filter((n) => n !== settings.x && n !== settings.y && n !== settings.facet);
     for (const grid of grids) {
-      const facetText = facetAxis === null ? null : `${facetAxis.param} ${facetAxis.kind === 'bins' ? 'in' : '='} ${describeOnAxis(facetAxis, grid.facet, model.paramInfo)}`;
+      const facetText =
+        facetAxis === null
+          ? null
+          : `${facetAxis.param} ${facetAxis.kind === 'bins' ? 'in' : '='} ${describeOnAxis(facetAxis, grid.facet, model.paramInfo)}`;
       const done = grid.cells.reduce((s, c) => s + c.n, 0);
       const planned = grid.cells.reduce((s, c) => s + c.planned, 0);
       const subtitle = [
@@ -200,7 +233,10 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
         describeCell,
       });
       incompleteCells += rendered.incompleteCount;
-      const base = facetAxis === null ? `phase-${slug(metric.name)}` : `phase-${slug(metric.name)}-${slug(facetAxis.param)}-${facetAxis.kind === 'bins' ? `bin${grid.facet + 1}` : slug(formatValue(facetAxis.values[grid.facet] ?? grid.facet))}`;
+      const base =
+        facetAxis === null
+          ? `phase-${slug(metric.name)}`
+          : `phase-${slug(metric.name)}-${slug(facetAxis.param)}-${facetAxis.kind === 'bins' ? `bin${grid.facet + 1}` : slug(formatValue(facetAxis.values[grid.facet] ?? grid.facet))}`;
       const files: string[] = [];
       if (want('svg')) {
         outputs.set(`${base}.svg`, `<?xml version="1.0" encoding="UTF-8"?>\n${rendered.svg}\n`);
@@ -210,7 +246,14 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
         outputs.set(`${base}.png`, svgToPng(rendered.svg));
         files.push(`${base}.png`);
       }
-      diagrams.push({ id, caption: facetText ?? `${valueLabel} over ${xAxis.param}${yAxis === null ? '' : ` and ${yAxis.param}`}`, svg: rendered.svg, files, cellCount: rendered.cellCount, incompleteCount: rendered.incompleteCount });
+      diagrams.push({
+        id,
+        caption: facetText ?? `${valueLabel} over ${xAxis.param}${yAxis === null ? '' : ` and ${yAxis.param}`}`,
+        svg: rendered.svg,
+        files,
+        cellCount: rendered.cellCount,
+        incompleteCount: rendered.incompleteCount,
+      });
     }
   }
 
@@ -225,7 +268,10 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
       codeVersion: sweep.codeVersion,
       createdAt: sweep.createdAt,
       generatedAt: new Date().toISOString(),
-      sampler: spec.sampler.kind === 'grid' ? 'grid' : `${spec.sampler.kind}, ${spec.sampler.points} points, ${settings.bins} bins per axis`,
+      sampler:
+        spec.sampler.kind === 'grid'
+          ? 'grid'
+          : `${spec.sampler.kind}, ${spec.sampler.points} points, ${settings.bins} bins per axis`,
       replicates: spec.replicates,
       plannedJobs,
       completedJobs,
@@ -250,7 +296,17 @@ export async function buildReportFrom(source: ReportSource, options: ReportOptio
     await writeFileAtomic(path, data);
     files.push(path);
   }
-  return { reportDir, indexHtml, files, completedJobs, plannedJobs, failedJobs: failedKeys.size, warnings, warningCount, incompleteCells };
+  return {
+    reportDir,
+    indexHtml,
+    files,
+    completedJobs,
+    plannedJobs,
+    failedJobs: failedKeys.size,
+    warnings,
+    warningCount,
+    incompleteCells,
+  };
 }
 
 /** A cell's value with its unit ("50 ms"), or its bin ("[20, 40) ms"). */

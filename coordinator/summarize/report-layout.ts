@@ -1,7 +1,7 @@
 import type { Point } from '../../shared/schemas/records.js';
 import { gridValues, type Range } from '../../shared/sweep/ranges.js';
-import { axisSize, binAxis, locate, valueAxis, type Axis, type AxisValue } from './axis.js';
-import type { TableCell, DimensionColumn } from './tables.js';
+import { type Axis, type AxisValue, axisSize, binAxis, locate, valueAxis } from './axis.js';
+import type { DimensionColumn, TableCell } from './tables.js';
 
 /** Where a group sits: its table columns and its diagram cell. */
 export interface GroupPlace {
@@ -87,14 +87,21 @@ export function buildLayout(input: LayoutInput): ReportLayout {
   const dims: DimensionColumn[] = [];
   for (const axis of axes) {
     if (axis.kind === 'bins') {
-      dims.push({ name: `${axis.param}_lo`, label: `${input.label(axis.param)} from` }, { name: `${axis.param}_hi`, label: `${input.label(axis.param)} to` });
+      dims.push(
+        { name: `${axis.param}_lo`, label: `${input.label(axis.param)} from` },
+        { name: `${axis.param}_hi`, label: `${input.label(axis.param)} to` },
+      );
     } else {
       dims.push({ name: axis.param, label: input.label(axis.param) });
     }
   }
   const dimsOf = (cell: { x: number; y: number; facet: number }): TableCell[] => {
     const out: TableCell[] = [];
-    const indices = [xAxis === null ? null : cell.x, yAxis === null ? null : cell.y, facetAxis === null ? null : cell.facet].filter((i): i is number => i !== null);
+    const indices = [
+      xAxis === null ? null : cell.x,
+      yAxis === null ? null : cell.y,
+      facetAxis === null ? null : cell.facet,
+    ].filter((i): i is number => i !== null);
     axes.forEach((axis, k) => {
       const i = indices[k] ?? 0;
       if (axis.kind === 'bins') out.push(axis.edges[i] ?? null, axis.edges[i + 1] ?? null);
@@ -133,7 +140,10 @@ export function allBinnedPlaces(layout: ReportLayout): Array<{ key: string } & G
         const pick = (axis: Axis | null, i: number): void => {
           if (axis === null) return;
           if (axis.kind === 'values') point[axis.param] = axis.values[i] ?? '';
-          else point[axis.param] = axis.log ? Math.sqrt((axis.edges[i] ?? 1) * (axis.edges[i + 1] ?? 1)) : ((axis.edges[i] ?? 0) + (axis.edges[i + 1] ?? 0)) / 2;
+          else
+            point[axis.param] = axis.log
+              ? Math.sqrt((axis.edges[i] ?? 1) * (axis.edges[i + 1] ?? 1))
+              : ((axis.edges[i] ?? 0) + (axis.edges[i + 1] ?? 0)) / 2;
         };
         pick(layout.xAxis, x);
         pick(layout.yAxis, y);

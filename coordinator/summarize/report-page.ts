@@ -27,7 +27,12 @@ export interface PageInput {
   readonly completedJobs: number;
   readonly failedJobs: number;
   readonly failuresByKind: readonly (readonly [string, number])[];
-  readonly axes: { readonly x: string | null; readonly y: string | null; readonly facet: string | null; readonly metric: string };
+  readonly axes: {
+    readonly x: string | null;
+    readonly y: string | null;
+    readonly facet: string | null;
+    readonly metric: string;
+  };
   readonly pooled: readonly string[];
   readonly warnings: readonly ScanWarning[];
   readonly warningCount: number;
@@ -139,20 +144,27 @@ export function renderReportPage(input: PageInput): string {
   const parts: string[] = [];
   parts.push('<!DOCTYPE html>');
   parts.push('<html lang="en"><head><meta charset="utf-8">');
-  parts.push(`<meta http-equiv="Content-Security-Policy" content="default-src 'none'; style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src data:">`);
+  parts.push(
+    `<meta http-equiv="Content-Security-Policy" content="default-src 'none'; style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src data:">`,
+  );
   parts.push('<meta name="viewport" content="width=device-width, initial-scale=1">');
   parts.push(`<title>${e(input.name)}: recallscape report</title>`);
   parts.push(`<style>${STYLE}</style></head><body>`);
   parts.push(`<h1>${e(input.name)}</h1>`);
-  parts.push(`<p class="note">Phase diagrams and per-${input.binned ? 'bin' : 'point'} table of a recallscape sweep. Rates carry 95% Wilson score intervals; hover over a cell for its numbers.</p>`);
+  parts.push(
+    `<p class="note">Phase diagrams and per-${input.binned ? 'bin' : 'point'} table of a recallscape sweep. Rates carry 95% Wilson score intervals; hover over a cell for its numbers.</p>`,
+  );
   parts.push('<h2>Sweep</h2><table class="meta">');
   for (const [k, v] of meta) parts.push(`<tr><th>${e(k)}</th><td>${v}</td></tr>`);
   parts.push('</table>');
 
   if (input.warningCount > 0) {
-    parts.push(`<h2>Warnings while reading results</h2><div class="warnings" id="warnings"><p>${input.warningCount} problem(s) in the result files; the affected lines were skipped.</p><ul>`);
+    parts.push(
+      `<h2>Warnings while reading results</h2><div class="warnings" id="warnings"><p>${input.warningCount} problem(s) in the result files; the affected lines were skipped.</p><ul>`,
+    );
     for (const w of input.warnings) parts.push(`<li>${e(w.kind)}: ${e(w.file)} line ${w.line}: ${e(w.message)}</li>`);
-    if (input.warningCount > input.warnings.length) parts.push(`<li>... and ${input.warningCount - input.warnings.length} more</li>`);
+    if (input.warningCount > input.warnings.length)
+      parts.push(`<li>... and ${input.warningCount - input.warnings.length} more</li>`);
     parts.push('</ul></div>');
   }
 
@@ -162,14 +174,20 @@ export function renderReportPage(input: PageInput): string {
     const links = d.files.map((f) => `<a href="${e(f)}">${e(f)}</a>`).join(', ');
     parts.push(`<figure id="figure-${e(d.id)}" data-cells="${d.cellCount}" data-incomplete="${d.incompleteCount}">`);
     parts.push(d.svg);
-    parts.push(`<figcaption>${e(d.caption)}. ${d.incompleteCount} of ${d.cellCount} cells have fewer trials than planned.${links === '' ? '' : ` Files: ${links}.`}</figcaption></figure>`);
+    parts.push(
+      `<figcaption>${e(d.caption)}. ${d.incompleteCount} of ${d.cellCount} cells have fewer trials than planned.${links === '' ? '' : ` Files: ${links}.`}</figcaption></figure>`,
+    );
   }
 
   parts.push(`<h2>Per-${input.binned ? 'bin' : 'point'} table</h2>`);
   const rows = input.table.rows;
   const shown = rows.slice(0, MAX_TABLE_ROWS);
-  if (input.tableFile !== null) parts.push(`<p class="note">Machine-readable: <a href="${e(input.tableFile)}">${e(input.tableFile)}</a> (plain numbers, one row per ${input.binned ? 'bin' : 'point'}).</p>`);
-  if (shown.length < rows.length) parts.push(`<p class="note">Showing the first ${shown.length} of ${rows.length} rows.</p>`);
+  if (input.tableFile !== null)
+    parts.push(
+      `<p class="note">Machine-readable: <a href="${e(input.tableFile)}">${e(input.tableFile)}</a> (plain numbers, one row per ${input.binned ? 'bin' : 'point'}).</p>`,
+    );
+  if (shown.length < rows.length)
+    parts.push(`<p class="note">Showing the first ${shown.length} of ${rows.length} rows.</p>`);
   parts.push('<div class="table-wrap"><table class="summary"><thead><tr>');
   for (const c of input.table.columns) parts.push(`<th>${e(c)}</th>`);
   parts.push('</tr></thead><tbody>');

@@ -53,7 +53,11 @@ export function resolveSettings(
     const name = choices[axis];
     if (name === undefined) continue;
     if (axis === 'facet' && name === NO_FACET) continue;
-    if (!varied.includes(name)) reject(`--${axis}`, `"${name}" is not a varied parameter of this sweep; allowed: ${allowed}${axis === 'facet' ? `, or ${NO_FACET}` : ''}`);
+    if (!varied.includes(name))
+      reject(
+        `--${axis}`,
+        `"${name}" is not a varied parameter of this sweep; allowed: ${allowed}${axis === 'facet' ? `, or ${NO_FACET}` : ''}`,
+      );
     const clash = explicit.get(name);
     if (clash !== undefined) reject(`--${axis}`, `"${name}" is already --${clash}; each axis needs its own parameter`);
     explicit.set(name, axis);
@@ -77,12 +81,14 @@ export function resolveSettings(
   const facet = y === null ? null : pick('facet');
 
   const bins = choices.bins ?? fromSweep.bins ?? DEFAULT_BINS;
-  if (!BinsSchema.safeParse(bins).success) reject('--bins', `must be a whole number from 2 to 200, got ${String(bins)}`);
+  if (!BinsSchema.safeParse(bins).success)
+    reject('--bins', `must be a whole number from 2 to 200, got ${String(bins)}`);
 
   const formats = new Set<ReportFormat>();
   for (const f of choices.formats ?? REPORT_FORMATS) {
     const name = f.trim().toLowerCase();
-    if (!(REPORT_FORMATS as readonly string[]).includes(name)) reject('--format', `unknown format "${f}"; allowed: ${REPORT_FORMATS.join(', ')}`);
+    if (!(REPORT_FORMATS as readonly string[]).includes(name))
+      reject('--format', `unknown format "${f}"; allowed: ${REPORT_FORMATS.join(', ')}`);
     formats.add(name as ReportFormat);
   }
   if (formats.size === 0) reject('--format', `name at least one of ${REPORT_FORMATS.join(', ')}`);

@@ -31,13 +31,30 @@ export interface SummaryTable {
  * sample sd of every other scalar metric (booleans as rates). Metrics that
  * were null in some trials get a `<metric>_n` column with their own count.
  */
-export function buildTable(dims: readonly DimensionColumn[], rows: readonly TableRow[], kinds: ReadonlyMap<string, MetricKind>): SummaryTable {
+export function buildTable(
+  dims: readonly DimensionColumn[],
+  rows: readonly TableRow[],
+  kinds: ReadonlyMap<string, MetricKind>,
+): SummaryTable {
   const metricNames = [...kinds.keys()].sort();
   const partial = new Set(
     metricNames.filter((m) => rows.some((r) => (r.summary.metrics.get(m)?.count ?? 0) < r.summary.n)),
   );
-  const columns: string[] = [...dims.map((d) => d.name), 'n', 'planned', 'successes', 'success_rate', 'success_lo', 'success_hi'];
-  const displayColumns: string[] = [...dims.map((d) => d.label), 'n / planned', 'successes', 'success rate [95% Wilson]'];
+  const columns: string[] = [
+    ...dims.map((d) => d.name),
+    'n',
+    'planned',
+    'successes',
+    'success_rate',
+    'success_lo',
+    'success_hi',
+  ];
+  const displayColumns: string[] = [
+    ...dims.map((d) => d.label),
+    'n / planned',
+    'successes',
+    'success rate [95% Wilson]',
+  ];
   for (const m of metricNames) {
     if (kinds.get(m) === 'boolean') columns.push(`${m}_rate`);
     else columns.push(`${m}_mean`, `${m}_sd`);
@@ -50,12 +67,22 @@ export function buildTable(dims: readonly DimensionColumn[], rows: readonly Tabl
     const s = row.summary;
     const interval = wilsonInterval(s.successes, s.n);
     const rate = s.n === 0 ? null : s.successes / s.n;
-    const cells: TableCell[] = [...row.dims, s.n, row.planned, s.successes, rate, interval?.lo ?? null, interval?.hi ?? null];
+    const cells: TableCell[] = [
+      ...row.dims,
+      s.n,
+      row.planned,
+      s.successes,
+      rate,
+      interval?.lo ?? null,
+      interval?.hi ?? null,
+    ];
     const shown: string[] = [
       ...row.dims.map((d) => (d === null ? '' : typeof d === 'number' ? formatNumber(d) : String(d))),
       `${s.n} / ${row.planned}`,
       String(s.successes),
-      rate === null || interval === null ? '' : `${rate.toFixed(3)} [${interval.lo.toFixed(3)}, ${interval.hi.toFixed(3)}]`,
+      rate === null || interval === null
+        ? ''
+        : `${rate.toFixed(3)} [${interval.lo.toFixed(3)}, ${interval.hi.toFixed(3)}]`,
     ];
     for (const m of metricNames) {
       const stats = s.metrics.get(m);
@@ -66,7 +93,9 @@ export function buildTable(dims: readonly DimensionColumn[], rows: readonly Tabl
         shown.push(mean === null ? '' : mean.toFixed(3));
       } else {
         cells.push(mean, sd);
-        shown.push(mean === null ? '' : sd === null ? formatNumber(mean) : `${formatNumber(mean)} ± ${formatNumber(sd)}`);
+        shown.push(
+          mean === null ? '' : sd === null ? formatNumber(mean) : `${formatNumber(mean)} ± ${formatNumber(sd)}`,
+        );
       }
       if (partial.has(m)) cells.push(stats?.count ?? 0);
     }
@@ -101,7 +130,12 @@ function mdCell(text: string): string {
 /** A Markdown (pipe) table of the display form, numbers right-aligned. */
 export function toMarkdown(table: SummaryTable, heading: string): string {
   const { columns, rows } = table.display;
-  const lines = [`# ${heading}`, '', `| ${columns.map(mdCell).join(' | ')} |`, `| ${columns.map(() => '---:').join(' | ')} |`];
+  const lines = [
+    `# ${heading}`,
+    '',
+    `| ${columns.map(mdCell).join(' | ')} |`,
+    `| ${columns.map(() => '---:').join(' | ')} |`,
+  ];
   for (const row of rows) lines.push(`| ${row.map(mdCell).join(' | ')} |`);
   return `${lines.join('\n')}\n`;
 }

@@ -3,8 +3,8 @@ import { randomUnitPoints } from './random.js';
 import { sobolUnitPoints } from './sobol.js';
 
 export { gridIndices, gridSize } from './grid.js';
-export { randomUnitPoints } from './random.js';
 export { latinHypercubeUnitPoints } from './latin-hypercube.js';
+export { randomUnitPoints } from './random.js';
 export { sobolUnitPoints } from './sobol.js';
 export { SOBOL_MAX_DIMENSIONS } from './sobol-directions.js';
 
@@ -12,7 +12,12 @@ export { SOBOL_MAX_DIMENSIONS } from './sobol-directions.js';
 export type UnitSamplerKind = 'random' | 'lhs' | 'sobol';
 
 /** Points in [0, 1)^dimensions from the named sampler, lazily. */
-export function unitPoints(kind: UnitSamplerKind, count: number, dimensions: number, seed: number): Generator<number[]> {
+export function unitPoints(
+  kind: UnitSamplerKind,
+  count: number,
+  dimensions: number,
+  seed: number,
+): Generator<number[]> {
   switch (kind) {
     case 'random':
       return randomUnitPoints(count, dimensions, seed);

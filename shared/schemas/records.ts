@@ -69,7 +69,11 @@ export type FailureRecord = z.infer<typeof FailureRecordSchema>;
 export const JobPayloadSchema = z.object({
   v: z.literal(1),
   sweep: z.object({
-    name: z.string().regex(/^[a-z0-9._-]+$/).max(100).refine((n) => !n.includes('..'), 'no ".." in a sweep name'),
+    name: z
+      .string()
+      .regex(/^[a-z0-9._-]+$/)
+      .max(100)
+      .refine((n) => !n.includes('..'), 'no ".." in a sweep name'),
     hash: z.string().regex(/^[0-9a-f]{64}$/),
   }),
   key: JobKeySchema,

@@ -1,19 +1,19 @@
+import { randomBytes } from 'node:crypto';
 import { link, mkdir, readFile, unlink, writeFile } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
-import { randomBytes } from 'node:crypto';
 import { writeFileAtomic } from '../atomic-write.js';
 import { canonicalJson } from '../canonical-json.js';
 import { InputError, SweepMismatchError } from '../errors.js';
-import { FailureRecordSchema, ResultRecordSchema, type FailureRecord, type ResultRecord } from '../schemas/records.js';
-import { StoredSweepSchema, SWEEP_FORMAT, sweepFromStored, type LoadedSweep, type StoredSweep } from '../sweep/load.js';
+import { type FailureRecord, FailureRecordSchema, type ResultRecord, ResultRecordSchema } from '../schemas/records.js';
+import { type LoadedSweep, type StoredSweep, StoredSweepSchema, SWEEP_FORMAT, sweepFromStored } from '../sweep/load.js';
 import { CODE_VERSION } from '../version.js';
-import { fnv1a32, scanShards, type ScanOptions } from './shard-reader.js';
+import { fnv1a32, type ScanOptions, scanShards } from './shard-reader.js';
 import { createShardWriter, type ShardFs, type ShardWriter } from './shard-writer.js';
 
 export type { ScanOptions, StoreWarning } from './shard-reader.js';
 export type { ShardFs, ShardWriter } from './shard-writer.js';
 export { ShardWriteError } from './shard-writer.js';
-export { newWriterId, isWriterId } from './writer-id.js';
+export { isWriterId, newWriterId } from './writer-id.js';
 
 /** A record's identity for duplicate checks: what a re-run of its job must reproduce. */
 function fingerprint(record: ResultRecord): number {
@@ -65,15 +65,17 @@ export class ResultStore {
     try {
       json = JSON.parse(text);
     } catch {
-      throw new InputError(`${this.sweepFile} is not valid JSON; restore it from a copy, or delete the folder ${this.dir} to start over`, [
-        { path: 'sweep.json', message: 'not valid JSON' },
-      ]);
+      throw new InputError(
+        `${this.sweepFile} is not valid JSON; restore it from a copy, or delete the folder ${this.dir} to start over`,
+        [{ path: 'sweep.json', message: 'not valid JSON' }],
+      );
     }
     const parsed = StoredSweepSchema.safeParse(json);
     if (!parsed.success) {
-      throw new InputError(`${this.sweepFile} is not a ${SWEEP_FORMAT} record; restore it, or delete the folder ${this.dir} to start over`, [
-        { path: 'sweep.json', message: parsed.error.issues[0]?.message ?? 'invalid' },
-      ]);
+      throw new InputError(
+        `${this.sweepFile} is not a ${SWEEP_FORMAT} record; restore it, or delete the folder ${this.dir} to start over`,
+        [{ path: 'sweep.json', message: parsed.error.issues[0]?.message ?? 'invalid' }],
+      );
     }
     this.storedHash = parsed.data.hash;
     return parsed.data;
@@ -103,9 +105,10 @@ export class ResultStore {
         await mkdir(this.dir, { recursive: true });
       } catch (error) {
         const code = (error as NodeJS.ErrnoException).code ?? 'error';
-        throw new InputError(`cannot create the sweep folder ${this.dir} (${code}): a file is in the way or the place is not writable; choose another --out`, [
-          { path: '--out', message: `cannot create ${this.dir} (${code})` },
-        ]);
+        throw new InputError(
+          `cannot create the sweep folder ${this.dir} (${code}): a file is in the way or the place is not writable; choose another --out`,
+          [{ path: '--out', message: `cannot create ${this.dir} (${code})` }],
+        );
       }
       const stored: StoredSweep = {
         format: SWEEP_FORMAT,
@@ -148,9 +151,10 @@ export class ResultStore {
   async readSweep(): Promise<LoadedSweep & { readonly codeVersion: string; readonly createdAt: string }> {
     const stored = await this.readStored();
     if (stored === undefined) {
-      throw new InputError(`${this.dir} has no sweep.json, so it is not a sweep folder (run or submit a sweep file to create one)`, [
-        { path: 'sweep.json', message: `missing in ${this.dir}` },
-      ]);
+      throw new InputError(
+        `${this.dir} has no sweep.json, so it is not a sweep folder (run or submit a sweep file to create one)`,
+        [{ path: 'sweep.json', message: `missing in ${this.dir}` }],
+      );
     }
     const loaded = sweepFromStored(stored, this.sweepFile);
     return { ...loaded, codeVersion: stored.codeVersion, createdAt: stored.createdAt };
@@ -160,9 +164,10 @@ export class ResultStore {
     if (this.storedHash !== undefined) return this.storedHash;
     const stored = await this.readStored();
     if (stored === undefined) {
-      throw new InputError(`${this.dir} has no sweep.json, so it is not a sweep folder (run or submit a sweep file to create one)`, [
-        { path: 'sweep.json', message: `missing in ${this.dir}` },
-      ]);
+      throw new InputError(
+        `${this.dir} has no sweep.json, so it is not a sweep folder (run or submit a sweep file to create one)`,
+        [{ path: 'sweep.json', message: `missing in ${this.dir}` }],
+      );
     }
     return stored.hash;
   }
@@ -184,7 +189,12 @@ export class ResultStore {
   }
 
   private async *unique(seen: Map<string, number>, options: ScanOptions): AsyncGenerator<ResultRecord> {
-    for await (const { record, file, line } of scanShards(this.resultsDir, ResultRecordSchema, await this.hash(), options)) {
+    for await (const { record, file, line } of scanShards(
+      this.resultsDir,
+      ResultRecordSchema,
+      await this.hash(),
+      options,
+    )) {
       const fp = fingerprint(record);
       const before = seen.get(record.key);
       if (before === undefined) {
@@ -213,6 +223,7 @@ export class ResultStore {
 
   /** Every failed attempt of this sweep, streamed (attempts are not merged). */
   async *failures(options: ScanOptions = {}): AsyncGenerator<FailureRecord> {
-    for await (const { record } of scanShards(this.failuresDir, FailureRecordSchema, await this.hash(), options)) yield record;
+    for await (const { record } of scanShards(this.failuresDir, FailureRecordSchema, await this.hash(), options))
+      yield record;
   }
 }

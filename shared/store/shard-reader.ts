@@ -105,7 +105,12 @@ export async function* scanShards<S extends z.ZodType<{ sweepHash: string }>>(
         if (raw.terminated) {
           warn({ kind: 'bad-line', file, line: raw.line, message: `${file}:${raw.line}: not a valid record; ignored` });
         } else {
-          warn({ kind: 'torn-line', file, line: raw.line, message: `${file}:${raw.line}: incomplete last line (a write was cut short); ignored, its job counts as not done` });
+          warn({
+            kind: 'torn-line',
+            file,
+            line: raw.line,
+            message: `${file}:${raw.line}: incomplete last line (a write was cut short); ignored, its job counts as not done`,
+          });
         }
         continue;
       }

@@ -1,6 +1,6 @@
 import * as nodeFs from 'node:fs';
 import { join } from 'node:path';
-import { FailureRecordSchema, ResultRecordSchema, type FailureRecord, type ResultRecord } from '../schemas/records.js';
+import { type FailureRecord, FailureRecordSchema, type ResultRecord, ResultRecordSchema } from '../schemas/records.js';
 import { isWriterId } from './writer-id.js';
 
 export interface ShardWriter {
@@ -52,7 +52,10 @@ function describeCause(error: unknown): string {
   const code = (error as NodeJS.ErrnoException | null)?.code;
   const message = error instanceof Error ? error.message : String(error);
   // One line: the CLI prints the message as is.
-  const text = (code !== undefined && !message.startsWith(code) ? `${code}: ${message}` : message).replace(/\s*\n\s*/g, ' ');
+  const text = (code !== undefined && !message.startsWith(code) ? `${code}: ${message}` : message).replace(
+    /\s*\n\s*/g,
+    ' ',
+  );
   return text;
 }
 
@@ -123,7 +126,12 @@ class AppendFile {
   }
 }
 
-export function createShardWriter(resultsDir: string, failuresDir: string, writer: string, fs: ShardFs = NODE_FS): ShardWriter {
+export function createShardWriter(
+  resultsDir: string,
+  failuresDir: string,
+  writer: string,
+  fs: ShardFs = NODE_FS,
+): ShardWriter {
   if (!isWriterId(writer)) {
     throw new RangeError(`writer id "${writer}" may contain only a-z, 0-9, ".", "_", "-" (no ".."); use newWriterId()`);
   }
@@ -139,13 +147,15 @@ export function createShardWriter(resultsDir: string, failuresDir: string, write
     appendResult(record: ResultRecord): void {
       open();
       const checked = ResultRecordSchema.safeParse(record);
-      if (!checked.success) throw new TypeError(`refusing to write a malformed result record: ${checked.error.message}`);
+      if (!checked.success)
+        throw new TypeError(`refusing to write a malformed result record: ${checked.error.message}`);
       results.appendLine(`${JSON.stringify(checked.data)}\n`);
     },
     appendFailure(record: FailureRecord): void {
       open();
       const checked = FailureRecordSchema.safeParse(record);
-      if (!checked.success) throw new TypeError(`refusing to write a malformed failure record: ${checked.error.message}`);
+      if (!checked.success)
+        throw new TypeError(`refusing to write a malformed failure record: ${checked.error.message}`);
       failures.appendLine(`${JSON.stringify(checked.data)}\n`);
     },
     sync(): void {

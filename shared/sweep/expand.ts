@@ -1,5 +1,5 @@
-import { InputError, issuesFromZod, formatIssues } from '../errors.js';
 import { canonicalJson, sha256Hex } from '../canonical-json.js';
+import { formatIssues, InputError, issuesFromZod } from '../errors.js';
 import { jobSeed } from '../job-identity.js';
 import type { JobPayload, Point } from '../schemas/records.js';
 import { checkJobLimit } from './job-limit.js';
@@ -35,7 +35,10 @@ export function fullParams(sweep: LoadedSweep, point: Point): Record<string, unk
   if (!parsed.success) {
     // Load validated every point; reaching this means the model changed under us.
     const issues = issuesFromZod(parsed.error.issues, 'params');
-    throw new InputError(`point ${JSON.stringify(point)} is not valid for model ${sweep.model.id}:\n${formatIssues(issues)}`, issues);
+    throw new InputError(
+      `point ${JSON.stringify(point)} is not valid for model ${sweep.model.id}:\n${formatIssues(issues)}`,
+      issues,
+    );
   }
   return parsed.data as Record<string, unknown>;
 }

@@ -11,7 +11,11 @@ interface ZodLikeIssue {
  * zod issues -> field issues with dotted paths. An unknown key becomes an
  * issue at that key's own path that lists the allowed keys.
  */
-export function fieldIssues(issues: readonly ZodLikeIssue[], prefix: string, allowedAt: (path: string) => readonly string[] | undefined): FieldIssue[] {
+export function fieldIssues(
+  issues: readonly ZodLikeIssue[],
+  prefix: string,
+  allowedAt: (path: string) => readonly string[] | undefined,
+): FieldIssue[] {
   const out: FieldIssue[] = [];
   for (const issue of issues) {
     const base = [prefix, ...issue.path.map(String)].filter((p) => p !== '').join('.');

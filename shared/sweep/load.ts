@@ -1,15 +1,15 @@
 import { readFile } from 'node:fs/promises';
 import { parse as parseYaml } from 'yaml';
 import { z } from 'zod';
-import { InputError, formatIssues, type FieldIssue } from '../errors.js';
+import { type FieldIssue, formatIssues, InputError } from '../errors.js';
 import type { AnyModel } from '../model.js';
 import { findModel, listModels } from '../models/registry.js';
-import { closestNames, fieldIssues } from './issues.js';
 import { SWEEP_FORMAT, sweepHash } from './hash.js';
-import { iterateSpecPoints, requestedPointCount, variedNamesOf } from './points.js';
-import { RANGE_SCHEMAS, rangeKindOf, type Range, type RangeKind } from './ranges.js';
-import { MAX_GRID_POINTS, SPEC_FIELD_ORDER, SweepFileSchema, type SweepSpec } from './schema.js';
+import { closestNames, fieldIssues } from './issues.js';
 import { checkJobLimit } from './job-limit.js';
+import { iterateSpecPoints, requestedPointCount, variedNamesOf } from './points.js';
+import { RANGE_SCHEMAS, type Range, type RangeKind, rangeKindOf } from './ranges.js';
+import { MAX_GRID_POINTS, SPEC_FIELD_ORDER, SweepFileSchema, type SweepSpec } from './schema.js';
 import { validatePoints } from './validate-points.js';
 
 export { SWEEP_FORMAT } from './hash.js';
@@ -74,43 +74,62 @@ function parseDocument(text: string, source: string): unknown {
     try {
       value = parseYaml(text, { uniqueKeys: true, maxAliasCount: 100, prettyErrors: true });
     } catch (error) {
-      const detail = (error instanceof Error ? (error.message.split('\n')[0] ?? '') : String(error)).replace(/:\s*$/, '');
+      const detail = (error instanceof Error ? (error.message.split('\n')[0] ?? '') : String(error)).replace(
+        /:\s*$/,
+        '',
+      );
       throw new InputError(`${source}: not a YAML or JSON file (${detail})`, [
         { path: '(file)', message: `${source} is neither YAML nor JSON: ${detail}` },
       ]);
     }
   }
   if (value === null || typeof value !== 'object' || Array.isArray(value)) {
-    const got = value === null || value === undefined ? 'nothing' : Array.isArray(value) ? 'a list' : `a ${typeof value}`;
-    throw new InputError(`${source}: not a sweep file: expected a YAML or JSON mapping with name, model, seed, replicates, fixed, vary, sampler, report; got ${got}`, [
-      { path: '(file)', message: `expected a mapping of sweep fields, got ${got}` },
-    ]);
+    const got =
+      value === null || value === undefined ? 'nothing' : Array.isArray(value) ? 'a list' : `a ${typeof value}`;
+    throw new InputError(
+      `${source}: not a sweep file: expected a YAML or JSON mapping with name, model, seed, replicates, fixed, vary, sampler, report; got ${got}`,
+      [{ path: '(file)', message: `expected a mapping of sweep fields, got ${got}` }],
+    );
   }
   return value;
 }
 
 const RANGE_HELP: Record<'grid' | 'sampled', string> = {
   grid: 'with the grid sampler use { list: [...] } or { from, to, steps, scale? }',
-  sampled: 'with the random, lhs and sobol samplers use { between: [low, high], scale?, integer? }, { among: [...] } or { list: [...] }',
+  sampled:
+    'with the random, lhs and sobol samplers use { between: [low, high], scale?, integer? }, { among: [...] } or { list: [...] }',
 };
 
 /** Parse each range by the kind its leading key names, and check it suits the sampler. */
-function parseRanges(rawVary: Record<string, unknown>, samplerKind: string, issues: FieldIssue[]): Record<string, Range> {
+function parseRanges(
+  rawVary: Record<string, unknown>,
+  samplerKind: string,
+  issues: FieldIssue[],
+): Record<string, Range> {
   const grid = samplerKind === 'grid';
   const out: Record<string, Range> = {};
   for (const [name, raw] of Object.entries(rawVary)) {
     const path = `vary.${name}`;
     const kind: RangeKind | undefined = rangeKindOf(raw);
     if (kind === undefined) {
-      issues.push({ path, message: `a range is an object with one of list, from/to/steps, between or among; ${RANGE_HELP[grid ? 'grid' : 'sampled']}` });
+      issues.push({
+        path,
+        message: `a range is an object with one of list, from/to/steps, between or among; ${RANGE_HELP[grid ? 'grid' : 'sampled']}`,
+      });
       continue;
     }
     if (grid && (kind === 'between' || kind === 'among')) {
-      issues.push({ path: `${path}.${kind}`, message: `\`${kind}\` needs a random, lhs or sobol sampler; ${RANGE_HELP.grid}` });
+      issues.push({
+        path: `${path}.${kind}`,
+        message: `\`${kind}\` needs a random, lhs or sobol sampler; ${RANGE_HELP.grid}`,
+      });
       continue;
     }
     if (!grid && kind === 'steps') {
-      issues.push({ path: `${path}.from`, message: `from/to/steps is a grid range; ${RANGE_HELP.sampled} (or use sampler: { kind: grid })` });
+      issues.push({
+        path: `${path}.from`,
+        message: `from/to/steps is a grid range; ${RANGE_HELP.sampled} (or use sampler: { kind: grid })`,
+      });
       continue;
     }
     const parsed = RANGE_SCHEMAS[kind].safeParse(raw);
@@ -131,8 +150,14 @@ function paramNames(model: AnyModel): string[] {
 function unknownParamIssue(path: string, name: string, model: AnyModel): FieldIssue {
   const known = paramNames(model);
   const close = closestNames(name, known);
-  const hint = close.length > 0 ? `did you mean ${close.join(' or ')}?` : `known parameters: ${known.slice(0, 10).join(', ')}${known.length > 10 ? ', ...' : ''}`;
-  return { path, message: `unknown parameter "${name}" of model ${model.id}; ${known.length === 0 ? 'this model takes no parameters' : hint}` };
+  const hint =
+    close.length > 0
+      ? `did you mean ${close.join(' or ')}?`
+      : `known parameters: ${known.slice(0, 10).join(', ')}${known.length > 10 ? ', ...' : ''}`;
+  return {
+    path,
+    message: `unknown parameter "${name}" of model ${model.id}; ${known.length === 0 ? 'this model takes no parameters' : hint}`,
+  };
 }
 
 /** Put the spec's fields in canonical order (sweep.json is written like this). */
@@ -148,27 +173,39 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
   const top = TopLevelSchema.safeParse(raw);
   if (!top.success) issues.push(...fieldIssues(top.error.issues, '', (p) => ALLOWED_KEYS[p]));
   const rawObject = raw as Record<string, unknown>;
-  const samplerKind =
-    top.success ? top.data.sampler.kind : typeof (rawObject['sampler'] as { kind?: unknown } | undefined)?.kind === 'string' ? String((rawObject['sampler'] as { kind: string }).kind) : 'grid';
+  const samplerKind = top.success
+    ? top.data.sampler.kind
+    : typeof (rawObject['sampler'] as { kind?: unknown } | undefined)?.kind === 'string'
+      ? String((rawObject['sampler'] as { kind: string }).kind)
+      : 'grid';
   const rawVary = top.success ? top.data.vary : rawObject['vary'];
-  const vary = rawVary !== null && typeof rawVary === 'object' && !Array.isArray(rawVary) ? parseRanges(rawVary as Record<string, unknown>, samplerKind, issues) : {};
+  const vary =
+    rawVary !== null && typeof rawVary === 'object' && !Array.isArray(rawVary)
+      ? parseRanges(rawVary as Record<string, unknown>, samplerKind, issues)
+      : {};
   if (issues.length > 0 || !top.success) fail(source, issues);
 
   const spec = orderSpec({ ...top.data, vary });
   const model = findModel(spec.model);
   if (model === undefined) {
-    const known = listModels().map((m) => m.id).join(', ');
+    const known = listModels()
+      .map((m) => m.id)
+      .join(', ');
     fail(source, [{ path: 'model', message: `unknown model "${spec.model}"; known models: ${known}` }]);
   }
 
   // Parameter names against the model, before any value is looked at.
   const known = new Set(paramNames(model));
   const variedNames = variedNamesOf(spec);
-  for (const name of Object.keys(spec.fixed)) if (!known.has(name)) issues.push(unknownParamIssue(`fixed.${name}`, name, model));
+  for (const name of Object.keys(spec.fixed))
+    if (!known.has(name)) issues.push(unknownParamIssue(`fixed.${name}`, name, model));
   for (const name of variedNames) {
     if (!known.has(name)) issues.push(unknownParamIssue(`vary.${name}`, name, model));
     if (Object.hasOwn(spec.fixed, name)) {
-      issues.push({ path: `vary.${name}`, message: `"${name}" is both fixed and varied; keep it in one of fixed or vary` });
+      issues.push({
+        path: `vary.${name}`,
+        message: `"${name}" is both fixed and varied; keep it in one of fixed or vary`,
+      });
     }
   }
   const varied = new Set(variedNames);
@@ -178,21 +215,35 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
     const name = spec.report[axis];
     if (name === undefined) continue;
     if (!varied.has(name)) {
-      issues.push({ path: `report.${axis}`, message: `"${name}" is not a varied parameter; use one of: ${variedNames.join(', ') || '(none: vary has no parameters)'}` });
+      issues.push({
+        path: `report.${axis}`,
+        message: `"${name}" is not a varied parameter; use one of: ${variedNames.join(', ') || '(none: vary has no parameters)'}`,
+      });
     } else if (used.has(name)) {
-      issues.push({ path: `report.${axis}`, message: `"${name}" is already report.${used.get(name)}; each axis needs its own parameter` });
+      issues.push({
+        path: `report.${axis}`,
+        message: `"${name}" is already report.${used.get(name)}; each axis needs its own parameter`,
+      });
     } else {
       used.set(name, axis);
     }
   }
   if (spec.sampler.kind === 'sobol' && variedNames.length > 40) {
-    issues.push({ path: 'vary', message: `the sobol sampler supports at most 40 varied parameters, got ${variedNames.length}` });
+    issues.push({
+      path: 'vary',
+      message: `the sobol sampler supports at most 40 varied parameters, got ${variedNames.length}`,
+    });
   }
   if (issues.length > 0) fail(source, issues);
 
   const requested = requestedPointCount(spec);
   if (spec.sampler.kind === 'grid' && requested > MAX_GRID_POINTS) {
-    fail(source, [{ path: 'vary', message: `the grid has ${requested} points, more than the most a sweep may have (${MAX_GRID_POINTS}); use fewer values or a sampler with points: N` }]);
+    fail(source, [
+      {
+        path: 'vary',
+        message: `the grid has ${requested} points, more than the most a sweep may have (${MAX_GRID_POINTS}); use fewer values or a sampler with points: N`,
+      },
+    ]);
   }
   if (options.jobLimit !== undefined && spec.sampler.kind === 'grid') {
     checkJobLimit(requested * spec.replicates, options.jobLimit);
@@ -231,13 +282,22 @@ export async function loadSweepFile(path: string, options: ParseOptions = {}): P
   try {
     const buffer = await readFile(path);
     if (buffer.length > MAX_FILE_BYTES) {
-      throw new InputError(`${path}: the sweep file is ${buffer.length} bytes, more than ${MAX_FILE_BYTES}`, [{ path: '(file)', message: 'file too large' }]);
+      throw new InputError(`${path}: the sweep file is ${buffer.length} bytes, more than ${MAX_FILE_BYTES}`, [
+        { path: '(file)', message: 'file too large' },
+      ]);
     }
     text = buffer.toString('utf8');
   } catch (error) {
     if (error instanceof InputError) throw error;
     const code = (error as NodeJS.ErrnoException).code;
-    const why = code === 'ENOENT' ? 'no such file' : code === 'EISDIR' ? 'is a folder, not a sweep file' : code === 'EACCES' ? 'permission denied' : String((error as Error).message);
+    const why =
+      code === 'ENOENT'
+        ? 'no such file'
+        : code === 'EISDIR'
+          ? 'is a folder, not a sweep file'
+          : code === 'EACCES'
+            ? 'permission denied'
+            : String((error as Error).message);
     throw new InputError(`${path}: ${why}`, [{ path: '(file)', message: `${path}: ${why}` }]);
   }
   return parseSweepText(text, path, options);
@@ -248,7 +308,10 @@ export function sweepFromStored(json: unknown, where = 'sweep.json'): LoadedSwee
   const stored = StoredSweepSchema.safeParse(json);
   if (!stored.success) {
     const issues = fieldIssues(stored.error.issues, '', () => undefined);
-    throw new InputError(`${where} is not a recallscape sweep record (format ${SWEEP_FORMAT}):\n${formatIssues(issues)}`, issues);
+    throw new InputError(
+      `${where} is not a recallscape sweep record (format ${SWEEP_FORMAT}):\n${formatIssues(issues)}`,
+      issues,
+    );
   }
   const loaded = buildSweep(stored.data.sweep, where);
   if (loaded.hash !== stored.data.hash) {

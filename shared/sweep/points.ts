@@ -1,7 +1,7 @@
 import { canonicalJson } from '../canonical-json.js';
 import { gridIndices, gridSize, unitPoints } from '../samplers/index.js';
 import type { Point } from '../schemas/records.js';
-import { gridValues, valueAt, type ListRange, type StepsRange } from './ranges.js';
+import { gridValues, type ListRange, type StepsRange, valueAt } from './ranges.js';
 import type { SweepSpec } from './schema.js';
 
 /** Names of the varied parameters in file order (the sampler's dimension order). */

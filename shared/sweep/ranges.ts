@@ -7,9 +7,13 @@ import { PointValueSchema } from '../schemas/records.js';
  * user meant instead of listing every alternative.
  */
 
-const ScaleSchema = z.enum(['linear', 'log']).default('linear').describe('linear: even spacing; log: even spacing of the logarithm (needs values > 0)');
+const ScaleSchema = z
+  .enum(['linear', 'log'])
+  .default('linear')
+  .describe('linear: even spacing; log: even spacing of the logarithm (needs values > 0)');
 
-const distinct = (values: readonly unknown[]): boolean => new Set(values.map((v) => `${typeof v}:${String(v)}`)).size === values.length;
+const distinct = (values: readonly unknown[]): boolean =>
+  new Set(values.map((v) => `${typeof v}:${String(v)}`)).size === values.length;
 
 /** Explicit values; a discrete set for every sampler. */
 export const ListRangeSchema = z
@@ -34,13 +38,25 @@ export const StepsRangeSchema = z
   .strict()
   .superRefine((r, ctx) => {
     if (r.scale === 'log' && (r.from <= 0 || r.to <= 0)) {
-      ctx.addIssue({ code: 'custom', path: ['from'], message: `a log scale needs from and to greater than 0 (got from ${r.from}, to ${r.to}); use scale: linear or positive ends` });
+      ctx.addIssue({
+        code: 'custom',
+        path: ['from'],
+        message: `a log scale needs from and to greater than 0 (got from ${r.from}, to ${r.to}); use scale: linear or positive ends`,
+      });
     }
     if (r.steps > 1 && r.from === r.to) {
-      ctx.addIssue({ code: 'custom', path: ['steps'], message: `from equals to, so ${r.steps} steps would repeat one value; use steps: 1 or different ends` });
+      ctx.addIssue({
+        code: 'custom',
+        path: ['steps'],
+        message: `from equals to, so ${r.steps} steps would repeat one value; use steps: 1 or different ends`,
+      });
     }
     if (r.steps === 1 && r.from !== r.to) {
-      ctx.addIssue({ code: 'custom', path: ['steps'], message: `steps: 1 gives one value but from (${r.from}) and to (${r.to}) differ; use steps >= 2, or from = to` });
+      ctx.addIssue({
+        code: 'custom',
+        path: ['steps'],
+        message: `steps: 1 gives one value but from (${r.from}) and to (${r.to}) differ; use steps >= 2, or from = to`,
+      });
     }
     // Interior values are rounded to 12 significant digits (tidy); steps closer
     // than that would repeat a value, and repeated values would be repeated jobs.
@@ -67,12 +83,25 @@ export const BetweenRangeSchema = z
   .strict()
   .superRefine((r, ctx) => {
     const [a, b] = r.between;
-    if (!(a < b)) ctx.addIssue({ code: 'custom', path: ['between'], message: `the low end must be below the high end, got [${a}, ${b}]` });
+    if (!(a < b))
+      ctx.addIssue({
+        code: 'custom',
+        path: ['between'],
+        message: `the low end must be below the high end, got [${a}, ${b}]`,
+      });
     if (r.scale === 'log' && a <= 0) {
-      ctx.addIssue({ code: 'custom', path: ['between'], message: `a log scale needs both ends greater than 0, got [${a}, ${b}]; use scale: linear or a positive low end` });
+      ctx.addIssue({
+        code: 'custom',
+        path: ['between'],
+        message: `a log scale needs both ends greater than 0, got [${a}, ${b}]; use scale: linear or a positive low end`,
+      });
     }
     if (r.integer && !(Number.isInteger(a) && Number.isInteger(b))) {
-      ctx.addIssue({ code: 'custom', path: ['between'], message: `integer: true needs whole-number ends, got [${a}, ${b}]` });
+      ctx.addIssue({
+        code: 'custom',
+        path: ['between'],
+        message: `integer: true needs whole-number ends, got [${a}, ${b}]`,
+      });
     }
   });
 

@@ -9,7 +9,8 @@ export const MAX_REPLICATES = 100_000;
 export const MAX_SAMPLED_POINTS = 1_000_000;
 export const MAX_GRID_POINTS = 5_000_000;
 
-export const SWEEP_NAME_RULE = 'use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit, with no "/" and no ".."';
+export const SWEEP_NAME_RULE =
+  'use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit, with no "/" and no ".."';
 
 export const SweepNameSchema = z
   .string({ error: `a sweep name is a string; ${SWEEP_NAME_RULE}` })
@@ -30,10 +31,22 @@ export const SamplerSchema = z
   .discriminatedUnion(
     'kind',
     [
-      z.object({ kind: z.literal('grid') }).strict().describe('Full product of the ranges'),
-      z.object({ kind: z.literal('random'), points: PointsSchema }).strict().describe('Independent uniform draws'),
-      z.object({ kind: z.literal('lhs'), points: PointsSchema }).strict().describe('Latin hypercube'),
-      z.object({ kind: z.literal('sobol'), points: PointsSchema }).strict().describe('Unscrambled Sobol sequence'),
+      z
+        .object({ kind: z.literal('grid') })
+        .strict()
+        .describe('Full product of the ranges'),
+      z
+        .object({ kind: z.literal('random'), points: PointsSchema })
+        .strict()
+        .describe('Independent uniform draws'),
+      z
+        .object({ kind: z.literal('lhs'), points: PointsSchema })
+        .strict()
+        .describe('Latin hypercube'),
+      z
+        .object({ kind: z.literal('sobol'), points: PointsSchema })
+        .strict()
+        .describe('Unscrambled Sobol sequence'),
     ],
     { error: 'sampler.kind must be one of grid, random, lhs, sobol' },
   )
@@ -46,8 +59,18 @@ export const ReportSchema = z
     x: z.string().optional().describe('Varied parameter on the horizontal axis'),
     y: z.string().optional().describe('Varied parameter on the vertical axis'),
     facet: z.string().optional().describe('Varied parameter with one panel per value'),
-    metric: z.string().regex(/^[A-Za-z_][A-Za-z0-9_]*$/, 'a metric name is a plain identifier such as success').optional().describe('Metric to show (default success)'),
-    bins: z.number().int('bins must be a whole number').min(2, 'bins must be at least 2').max(200, 'bins must be at most 200').optional().describe('Bins per axis for sampled (non-grid) sweeps'),
+    metric: z
+      .string()
+      .regex(/^[A-Za-z_][A-Za-z0-9_]*$/, 'a metric name is a plain identifier such as success')
+      .optional()
+      .describe('Metric to show (default success)'),
+    bins: z
+      .number()
+      .int('bins must be a whole number')
+      .min(2, 'bins must be at least 2')
+      .max(200, 'bins must be at most 200')
+      .optional()
+      .describe('Bins per axis for sampled (non-grid) sweeps'),
   })
   .strict();
 export type ReportSpec = z.output<typeof ReportSchema>;
@@ -72,7 +95,10 @@ export const SweepFileSchema = z
       .default(1)
       .describe('Independent trials per parameter point'),
     fixed: z.record(z.string(), z.json()).default({}).describe('Parameters held at one value'),
-    vary: z.record(z.string(), RangeSchema).default({}).describe('Parameters that change, in order (first changes slowest on a grid)'),
+    vary: z
+      .record(z.string(), RangeSchema)
+      .default({})
+      .describe('Parameters that change, in order (first changes slowest on a grid)'),
     sampler: SamplerSchema,
     report: ReportSchema.default({}),
   })

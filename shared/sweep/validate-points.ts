@@ -34,18 +34,30 @@ export function validatePoints(spec: SweepSpec, model: AnyModel, points: Iterabl
       const head = issue.path[0] === undefined ? undefined : String(issue.path[0]);
       const rest = issue.path.slice(1).map(String);
       const where =
-        head === undefined ? 'params' : Object.hasOwn(point, head) ? `vary.${head}` : Object.hasOwn(spec.fixed, head) ? `fixed.${head}` : `params.${head}`;
+        head === undefined
+          ? 'params'
+          : Object.hasOwn(point, head)
+            ? `vary.${head}`
+            : Object.hasOwn(spec.fixed, head)
+              ? `fixed.${head}`
+              : `params.${head}`;
       const path = [where, ...rest].join('.');
       let message = issue.message;
       const range = head === undefined ? undefined : spec.vary[head];
       if (issue.code === 'invalid_type' && (issue as { expected?: string }).expected === 'int') {
-        message += range !== undefined && 'between' in range ? ' (this parameter takes whole numbers: add integer: true)' : ' (this parameter takes whole numbers)';
+        message +=
+          range !== undefined && 'between' in range
+            ? ' (this parameter takes whole numbers: add integer: true)'
+            : ' (this parameter takes whole numbers)';
       }
       issues.push({ path, message: `at point ${pointCount} (${describePoint(point)}): ${message}` });
     }
   }
   if (failing > SHOWN_POINTS) {
-    issues.push({ path: 'vary', message: `${failing} of ${pointCount} points are invalid for model ${model.id}; the first ${SHOWN_POINTS} are shown` });
+    issues.push({
+      path: 'vary',
+      message: `${failing} of ${pointCount} points are invalid for model ${model.id}; the first ${SHOWN_POINTS} are shown`,
+    });
   }
   return { pointCount, issues };
 }

@@ -2,7 +2,7 @@ import { mkdir, mkdtemp, readdir, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { STACK_LINE, runCli } from './cli-helpers.js';
+import { runCli, STACK_LINE } from './cli-helpers.js';
 
 let dir = '';
 beforeAll(async () => {
@@ -109,7 +109,10 @@ describe.concurrent('bad sweep files on the command line', () => {
       const cwd = join(dir, `case-${i}`);
       await mkdir(cwd);
       await writeFile(join(cwd, 'sweep.yaml'), c.text);
-      const args = c.command === 'run' ? ['run', 'sweep.yaml', '--out', 'out', '--threads', '1'] : ['plan', 'sweep.yaml', '--calibrate', '0'];
+      const args =
+        c.command === 'run'
+          ? ['run', 'sweep.yaml', '--out', 'out', '--threads', '1']
+          : ['plan', 'sweep.yaml', '--calibrate', '0'];
       const result = await runCli([...args, ...(c.extra ?? [])], cwd);
       expect(result.code).toBe(2);
       for (const fragment of c.expected) expect(result.stderr).toContain(fragment);
@@ -124,7 +127,10 @@ describe.concurrent('bad sweep files on the command line', () => {
   it('plans a sweep over the job limit when --yes is given', async () => {
     const cwd = join(dir, 'yes');
     await mkdir(cwd);
-    await writeFile(join(cwd, 'sweep.yaml'), 'name: b\nmodel: cpu-burn\nreplicates: 200\nvary: { burnMs: { list: [1, 2, 3] } }\n');
+    await writeFile(
+      join(cwd, 'sweep.yaml'),
+      'name: b\nmodel: cpu-burn\nreplicates: 200\nvary: { burnMs: { list: [1, 2, 3] } }\n',
+    );
     const result = await runCli(['plan', 'sweep.yaml', '--max-jobs', '100', '--yes', '--calibrate', '0'], cwd);
     expect(result.code).toBe(0);
     expect(result.stdout).toMatch(/^jobs +600$/m);

@@ -18,15 +18,18 @@ function runWithStdout(args: readonly string[], fd: number): Promise<{ code: num
 }
 
 describe('command output that cannot be written', () => {
-  it.runIf(existsSync('/dev/full'))('ends with exit code 1 and one line, not a stack trace, when stdout is full', async () => {
-    const fd = openSync('/dev/full', 'w');
-    try {
-      const result = await runWithStdout(['schema'], fd);
-      expect(result.code).toBe(1);
-      expect(result.stderr.trim().split('\n')).toEqual([expect.stringContaining('cannot write the output: ENOSPC')]);
-      expect(result.stderr).not.toMatch(/^\s+at /m);
-    } finally {
-      closeSync(fd);
-    }
-  });
+  it.runIf(existsSync('/dev/full'))(
+    'ends with exit code 1 and one line, not a stack trace, when stdout is full',
+    async () => {
+      const fd = openSync('/dev/full', 'w');
+      try {
+        const result = await runWithStdout(['schema'], fd);
+        expect(result.code).toBe(1);
+        expect(result.stderr.trim().split('\n')).toEqual([expect.stringContaining('cannot write the output: ENOSPC')]);
+        expect(result.stderr).not.toMatch(/^\s+at /m);
+      } finally {
+        closeSync(fd);
+      }
+    },
+  );
 });

@@ -77,7 +77,9 @@ describe('recallscape demo', () => {
     expect(result.code).toBe(130);
     expect(result.stdout).toMatch(/sweep demo-overlap: 10560 jobs planned, 0 had results before this run, \d+ ran now/);
     expect(result.stdout).toContain('resume with: recallscape demo --out demo-out --threads 2');
-    const stored = JSON.parse(await readFile(join(dir, 'demo-out', 'demo-overlap', 'sweep.json'), 'utf8')) as { sweep: { model: string; vary: object } };
+    const stored = JSON.parse(await readFile(join(dir, 'demo-out', 'demo-overlap', 'sweep.json'), 'utf8')) as {
+      sweep: { model: string; vary: object };
+    };
     expect(stored.sweep.model).toBe('bcpnn-sequences');
     expect(Object.keys(stored.sweep.vary)).toEqual(['patternOverlap', 'overlapLength', 'tauZPre']);
   });

@@ -4,8 +4,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { promisify } from 'node:util';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { referenceRecall, referenceTrain } from './reference-model.js';
 import { params, referenceConfig } from './helpers.js';
+import { referenceRecall, referenceTrain } from './reference-model.js';
 
 // These tests run the built CLI (dist/): build first, as `npm test` does.
 const run = promisify(execFile);
@@ -31,7 +31,17 @@ afterAll(async () => {
 
 describe('recallscape simulate', () => {
   it('prints byte-identical metrics JSON in two separate processes', async () => {
-    const args = ['simulate', '--set', 'patternOverlap=0.4', '--set', 'overlapLength=2', '--set', 'noise=0.3', '--seed', '12'];
+    const args = [
+      'simulate',
+      '--set',
+      'patternOverlap=0.4',
+      '--set',
+      'overlapLength=2',
+      '--set',
+      'noise=0.3',
+      '--seed',
+      '12',
+    ];
     const [a, b] = await Promise.all([cli(args), cli(args)]);
     expect(a.code).toBe(0);
     expect(a.stdout).toBe(b.stdout);
@@ -73,8 +83,16 @@ describe('recallscape simulate', () => {
   it('writes a trace CSV whose rows follow the step-by-step reference', async () => {
     const input = {
       sequences: [
-        [[0, 1], [1, 2], [2, 0]],
-        [[3, 3], [1, 0], [0, 2]],
+        [
+          [0, 1],
+          [1, 2],
+          [2, 0],
+        ],
+        [
+          [3, 3],
+          [1, 0],
+          [0, 2],
+        ],
       ],
       minicolumns: 4,
       epochs: 2,

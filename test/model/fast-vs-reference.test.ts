@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
-import { createRandom } from '../../shared/random.js';
 import { bcpnnSequences, makePatternSet } from '../../shared/models/bcpnn-sequences/index.js';
 import type { BcpnnParams } from '../../shared/models/bcpnn-sequences/params.js';
 import { denseWeights, perUnit } from '../../shared/models/bcpnn-sequences/training.js';
+import { createRandom } from '../../shared/random.js';
 import { densePJoint, maxAbsError, maxRelativeError, params, referenceConfig, trainTrial } from './helpers.js';
 import { referencePatternIds, referenceRecall, referenceScore, referenceTrain } from './reference-model.js';
 
@@ -49,7 +49,11 @@ function randomConfigs(count: number): { label: string; p: BcpnnParams }[] {
       minDwell: pick([0, 3, 5]),
     };
     const parsed = bcpnnSequences.params.safeParse(input);
-    if (parsed.success) out.push({ label: `#${out.length} H${input.hypercolumns} M${input.minicolumns} K${K} L${L} k${k}`, p: parsed.data });
+    if (parsed.success)
+      out.push({
+        label: `#${out.length} H${input.hypercolumns} M${input.minicolumns} K${K} L${L} k${k}`,
+        p: parsed.data,
+      });
   }
   return out;
 }
@@ -93,16 +97,53 @@ describe('the fast path against the step-by-step reference', () => {
 
   it('matches on the worked example of model-spec.md', () => {
     compare(
-      params({ sequences: [[[0, 0], [1, 1], [2, 2]]], minicolumns: 3, epochs: 1, patternDuration: 50, gapDuration: 0, restDuration: 0, tauP: 200 }),
+      params({
+        sequences: [
+          [
+            [0, 0],
+            [1, 1],
+            [2, 2],
+          ],
+        ],
+        minicolumns: 3,
+        epochs: 1,
+        patternDuration: 50,
+        gapDuration: 0,
+        restDuration: 0,
+        tauP: 200,
+      }),
       1,
     );
   });
 
   it('matches when a silent segment is longer than 4096 steps (closed-form geometric sums)', () => {
-    compare(params({ hypercolumns: 2, minicolumns: 4, sequenceCount: 2, sequenceLength: 2, overlapLength: 0, restDuration: 5000, tauP: 3000, recallDuration: 200 }), 3);
+    compare(
+      params({
+        hypercolumns: 2,
+        minicolumns: 4,
+        sequenceCount: 2,
+        sequenceLength: 2,
+        overlapLength: 0,
+        restDuration: 5000,
+        tauP: 3000,
+        recallDuration: 200,
+      }),
+      3,
+    );
   });
 
   it('matches on the default network shape with shared units (M < K*L) and full overlap', () => {
-    compare(params({ hypercolumns: 3, minicolumns: 4, sequenceCount: 2, sequenceLength: 4, patternOverlap: 1, overlapLength: 2, recallDuration: 300 }), 8);
+    compare(
+      params({
+        hypercolumns: 3,
+        minicolumns: 4,
+        sequenceCount: 2,
+        sequenceLength: 4,
+        patternOverlap: 1,
+        overlapLength: 2,
+        recallDuration: 300,
+      }),
+      8,
+    );
   });
 });

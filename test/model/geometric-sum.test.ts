@@ -29,7 +29,9 @@ describe('the closed-form geometric sum of a training segment', () => {
     ];
     for (const [c, q, T] of cases) {
       const want = direct(c, q, T);
-      expect(Math.abs(geometricSum(c, q, T) - want), `${c} ${q} ${T}`).toBeLessThanOrEqual(1e-11 * Math.max(1, Math.abs(want)));
+      expect(Math.abs(geometricSum(c, q, T) - want), `${c} ${q} ${T}`).toBeLessThanOrEqual(
+        1e-11 * Math.max(1, Math.abs(want)),
+      );
     }
   });
 

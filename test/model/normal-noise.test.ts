@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { createRandom } from '../../shared/random.js';
 import { fillNormal, zigguratNormal } from '../../shared/models/bcpnn-sequences/normal-noise.js';
+import { createRandom } from '../../shared/random.js';
 
 describe('the ziggurat normal sampler used for recall noise', () => {
   it('has the moments and quantiles of the standard normal', () => {

@@ -31,7 +31,14 @@ describe('trial outcomes', () => {
   });
 
   it('gives one trace panel per recall with the cue window marked', () => {
-    const p = params({ hypercolumns: 4, minicolumns: 12, sequenceLength: 4, dt: 0.5, cueDuration: 20, recallDuration: 100 });
+    const p = params({
+      hypercolumns: 4,
+      minicolumns: 12,
+      sequenceLength: 4,
+      dt: 0.5,
+      cueDuration: 20,
+      recallDuration: 100,
+    });
     const out = bcpnnSequences.run(p, 1, { trace: true });
     expect(out.trace?.map((t) => t.title)).toEqual(['recall 0 (sequence 0)', 'recall 1 (sequence 1)']);
     const panel = out.trace![0]!;

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { createRandom } from '../../shared/random.js';
 import { generateSequences, indexPatterns, patternOverlap } from '../../shared/models/bcpnn-sequences/patterns.js';
+import { createRandom } from '../../shared/random.js';
 
 describe('pattern overlap', () => {
   it('counts the fraction of hypercolumns with the same active minicolumn', () => {
@@ -76,14 +76,28 @@ describe('the overlap generator', () => {
 
   it('numbers distinct patterns in order of first appearance and lets identical patterns share an id', () => {
     const set = indexPatterns([
-      [[0, 0], [1, 1], [2, 2]],
-      [[3, 3], [1, 1], [4, 4]],
+      [
+        [0, 0],
+        [1, 1],
+        [2, 2],
+      ],
+      [
+        [3, 3],
+        [1, 1],
+        [4, 4],
+      ],
     ]);
     expect(set.ids).toEqual([
       [0, 1, 2],
       [3, 1, 4],
     ]);
-    expect(set.patterns).toEqual([[0, 0], [1, 1], [2, 2], [3, 3], [4, 4]]);
+    expect(set.patterns).toEqual([
+      [0, 0],
+      [1, 1],
+      [2, 2],
+      [3, 3],
+      [4, 4],
+    ]);
   });
 
   it('draws the same patterns for the same seed and different ones for another seed', () => {

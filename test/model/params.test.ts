@@ -14,10 +14,31 @@ describe('bcpnn-sequences parameters', () => {
     const p = bcpnnSequences.params.parse({});
     // Defaults listed in model-spec.md, "Defaults that produce recall".
     expect(p).toMatchObject({
-      hypercolumns: 10, minicolumns: 20, sequenceCount: 2, sequenceLength: 6, dt: 1, tauZPre: 50, tauZPost: 5, tauP: 5000,
-      eps: 0.01, epochs: 3, patternDuration: 100, gapDuration: 0, restDuration: 200, tauSupport: 10, tauAdapt: 150,
-      adaptGain: 2, gain: 1, weightGain: 1, biasGain: 1, cueDuration: 50, cueStrength: 20, recallDuration: 1000,
-      noise: 0, matchThreshold: 0.5, minDwell: 5,
+      hypercolumns: 10,
+      minicolumns: 20,
+      sequenceCount: 2,
+      sequenceLength: 6,
+      dt: 1,
+      tauZPre: 50,
+      tauZPost: 5,
+      tauP: 5000,
+      eps: 0.01,
+      epochs: 3,
+      patternDuration: 100,
+      gapDuration: 0,
+      restDuration: 200,
+      tauSupport: 10,
+      tauAdapt: 150,
+      adaptGain: 2,
+      gain: 1,
+      weightGain: 1,
+      biasGain: 1,
+      cueDuration: 50,
+      cueStrength: 20,
+      recallDuration: 1000,
+      noise: 0,
+      matchThreshold: 0.5,
+      minDwell: 5,
     });
     expect(p.overlapStart).toBeUndefined();
   });
@@ -52,20 +73,35 @@ describe('bcpnn-sequences parameters', () => {
 
   it('rejects overlapStart 0 and an overlap window past the end of the sequence', () => {
     expect(rejection({ overlapStart: 0 })[0]).toMatch(/^overlapStart: /);
-    expect(rejection({ overlapStart: 5, overlapLength: 2 })[0]).toMatch(/^overlapStart: overlapStart \+ overlapLength must be <= sequenceLength \(6\)/);
-    expect(rejection({ overlapLength: 5 })[0]).toMatch(/^overlapStart: the default overlapStart .* set overlapStart to 1/);
+    expect(rejection({ overlapStart: 5, overlapLength: 2 })[0]).toMatch(
+      /^overlapStart: overlapStart \+ overlapLength must be <= sequenceLength \(6\)/,
+    );
+    expect(rejection({ overlapLength: 5 })[0]).toMatch(
+      /^overlapStart: the default overlapStart .* set overlapStart to 1/,
+    );
     expect(bcpnnSequences.params.safeParse({ overlapLength: 5, overlapStart: 1 }).success).toBe(true);
   });
 
   it('keeps rejecting generated sequences whose default overlap window would start at the cue', () => {
     // L = 2, k = 1: floor((L - k)/2) = 0, and the generator could copy into the cues.
-    expect(rejection({ sequenceLength: 2 })[0]).toMatch(/^overlapStart: the default overlapStart floor\(\(L - k\)\/2\) = 0 .* set overlapStart to 1/);
+    expect(rejection({ sequenceLength: 2 })[0]).toMatch(
+      /^overlapStart: the default overlapStart floor\(\(L - k\)\/2\) = 0 .* set overlapStart to 1/,
+    );
     expect(bcpnnSequences.params.safeParse({ sequenceLength: 2, overlapStart: 1 }).success).toBe(true);
   });
 
   it('accepts explicit sequences of length 2 under the defaults and compares position 1 in achievedOverlap', () => {
     // Position 1: [1, 2] against [1, 0] agree in hypercolumn 0 only, overlap 1/2 (by hand).
-    const sequences = [[[0, 1], [1, 2]], [[2, 3], [1, 0]]];
+    const sequences = [
+      [
+        [0, 1],
+        [1, 2],
+      ],
+      [
+        [2, 3],
+        [1, 0],
+      ],
+    ];
     const parsed = bcpnnSequences.params.safeParse({ sequences, minicolumns: 4 });
     expect(parsed.success).toBe(true);
     const p = bcpnnSequences.params.parse({ sequences, minicolumns: 4, recallDuration: 100 });
@@ -74,13 +110,25 @@ describe('bcpnn-sequences parameters', () => {
   });
 
   it('accepts explicit sequences with any overlapLength up to L - 1 when overlapStart is left out', () => {
-    const three = [[[0], [1], [2]], [[3], [4], [5]]];
+    const three = [
+      [[0], [1], [2]],
+      [[3], [4], [5]],
+    ];
     for (const overlapLength of [0, 1, 2]) {
-      expect(bcpnnSequences.params.safeParse({ sequences: three, minicolumns: 6, overlapLength }).success, `k = ${overlapLength}`).toBe(true);
+      expect(
+        bcpnnSequences.params.safeParse({ sequences: three, minicolumns: 6, overlapLength }).success,
+        `k = ${overlapLength}`,
+      ).toBe(true);
     }
-    const two = [[[0], [1]], [[2], [3]]];
+    const two = [
+      [[0], [1]],
+      [[2], [3]],
+    ];
     for (const overlapLength of [0, 1]) {
-      expect(bcpnnSequences.params.safeParse({ sequences: two, minicolumns: 4, overlapLength }).success, `k = ${overlapLength}`).toBe(true);
+      expect(
+        bcpnnSequences.params.safeParse({ sequences: two, minicolumns: 4, overlapLength }).success,
+        `k = ${overlapLength}`,
+      ).toBe(true);
     }
   });
 
@@ -90,21 +138,54 @@ describe('bcpnn-sequences parameters', () => {
   });
 
   it('rejects networks beyond the size caps', () => {
-    expect(rejection({ hypercolumns: 200, minicolumns: 200 })[0]).toMatch(/^minicolumns: hypercolumns x minicolumns must be <= 20000/);
+    expect(rejection({ hypercolumns: 200, minicolumns: 200 })[0]).toMatch(
+      /^minicolumns: hypercolumns x minicolumns must be <= 20000/,
+    );
     expect(rejection({ recallDuration: 1e8 })[0]).toMatch(/^recallDuration: /);
     // Shared units (M < K*L) make up to N unit classes: capped at 5000 units.
-    expect(rejection({ hypercolumns: 1000, minicolumns: 10 })[0]).toMatch(/^minicolumns: when minicolumns < sequenceCount x sequenceLength/);
+    expect(rejection({ hypercolumns: 1000, minicolumns: 10 })[0]).toMatch(
+      /^minicolumns: when minicolumns < sequenceCount x sequenceLength/,
+    );
     expect(bcpnnSequences.params.safeParse({ hypercolumns: 1000, minicolumns: 12 }).success).toBe(true);
   });
 
   it('takes the shape from explicit sequences and checks that given values agree', () => {
-    const sequences = [[[0, 1], [1, 2], [2, 0]], [[3, 3], [1, 2], [0, 0]]];
+    const sequences = [
+      [
+        [0, 1],
+        [1, 2],
+        [2, 0],
+      ],
+      [
+        [3, 3],
+        [1, 2],
+        [0, 0],
+      ],
+    ];
     const p = bcpnnSequences.params.parse({ sequences, minicolumns: 4 });
     expect([p.hypercolumns, p.sequenceCount, p.sequenceLength]).toEqual([2, 2, 3]);
     expect(bcpnnSequences.params.parse({ ...p }).sequences).toEqual(sequences);
-    expect(rejection({ sequences, minicolumns: 4, hypercolumns: 3 })[0]).toMatch(/^hypercolumns: hypercolumns \(3\) must equal/);
+    expect(rejection({ sequences, minicolumns: 4, hypercolumns: 3 })[0]).toMatch(
+      /^hypercolumns: hypercolumns \(3\) must equal/,
+    );
     expect(rejection({ sequences, minicolumns: 3 })[0]).toMatch(/^sequences: .*minicolumn 3; minicolumns are 0\.\.2/);
-    expect(rejection({ sequences: [[[0, 1], [1, 2]], [[0, 1], [2, 2]]], minicolumns: 4 })[0]).toMatch(/cue patterns must differ/);
-    expect(rejection({ sequences: [[[0, 1], [1]]], minicolumns: 4 })[0]).toMatch(/^sequences: pattern 1 of sequence 0 has 1 entries/);
+    expect(
+      rejection({
+        sequences: [
+          [
+            [0, 1],
+            [1, 2],
+          ],
+          [
+            [0, 1],
+            [2, 2],
+          ],
+        ],
+        minicolumns: 4,
+      })[0],
+    ).toMatch(/cue patterns must differ/);
+    expect(rejection({ sequences: [[[0, 1], [1]]], minicolumns: 4 })[0]).toMatch(
+      /^sequences: pattern 1 of sequence 0 has 1 entries/,
+    );
   });
 });

@@ -91,7 +91,10 @@ export function referenceTrain(c: ReferenceConfig): ReferenceTrained {
 }
 
 /** Distinct patterns in order of first appearance, and the id of each position. */
-export function referencePatternIds(sequences: ReferenceConfig['sequences']): { patterns: number[][]; ids: number[][] } {
+export function referencePatternIds(sequences: ReferenceConfig['sequences']): {
+  patterns: number[][];
+  ids: number[][];
+} {
   const patterns: number[][] = [];
   const ids = sequences.map((seq) =>
     seq.map((p) => {
@@ -121,7 +124,11 @@ export function referenceRecall(c: ReferenceConfig, net: ReferenceTrained, s: nu
     for (let i = 0; i < N; i++) {
       let wo = 0;
       for (let j = 0; j < N; j++) wo += net.w[i * N + j]! * o[j]!;
-      u[i] = c.biasGain * net.beta[i]! + c.weightGain * wo - c.adaptGain * adapt[i]! + (t < nCue ? c.cueStrength * cue[i]! : 0);
+      u[i] =
+        c.biasGain * net.beta[i]! +
+        c.weightGain * wo -
+        c.adaptGain * adapt[i]! +
+        (t < nCue ? c.cueStrength * cue[i]! : 0);
     }
     for (let i = 0; i < N; i++) support[i] = support[i]! + (c.dt / c.tauSupport) * (u[i]! - support[i]!);
     const next = new Float64Array(N);
@@ -144,7 +151,12 @@ export function referenceRecall(c: ReferenceConfig, net: ReferenceTrained, s: nu
 }
 
 /** Scoring as worded in model-spec.md: leading correct positions of the decoded ids. */
-export function referenceScore(c: ReferenceConfig, matches: Float64Array, nP: number, expected: readonly number[]): number {
+export function referenceScore(
+  c: ReferenceConfig,
+  matches: Float64Array,
+  nP: number,
+  expected: readonly number[],
+): number {
   const steps = matches.length / nP;
   const ids: number[] = [];
   for (let t = 0; t < steps; t++) {

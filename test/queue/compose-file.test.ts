@@ -1,7 +1,7 @@
 import { readFile } from 'node:fs/promises';
 import { join } from 'node:path';
-import { parse } from 'yaml';
 import { describe, expect, it } from 'vitest';
+import { parse } from 'yaml';
 import { ROOT, runCli } from './helpers.js';
 
 interface Service {
@@ -68,7 +68,8 @@ describe('docker-compose.yml', () => {
         if (arg.startsWith('--')) expect(text, `${name} ${arg}`).toMatch(new RegExp(`(^|\\s)${arg}[\\s,]`));
       }
       for (const variable of Object.keys(service.environment ?? {})) {
-        if (variable.startsWith('RECALLSCAPE_')) expect(text.replace(/\s+/g, ' '), `${name} ${variable}`).toContain(variable);
+        if (variable.startsWith('RECALLSCAPE_'))
+          expect(text.replace(/\s+/g, ' '), `${name} ${variable}`).toContain(variable);
       }
     });
   });

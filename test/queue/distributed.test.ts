@@ -1,21 +1,21 @@
-import { readFile, readdir, writeFile } from 'node:fs/promises';
+import { readdir, readFile, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import {
-  SHARED_REDIS,
   childrenOf,
   deleteKeys,
   inspector,
   isAlive,
+  type Running,
   readNdjson,
   removeDir,
   runCli,
+  SHARED_REDIS,
   startCli,
   stopCli,
   tempDir,
   uniqueQueue,
   waitFor,
-  type Running,
 } from './helpers.js';
 
 // Integration: real CLI processes (built dist/) against the shared Redis on 127.0.0.1:6379.
@@ -36,9 +36,12 @@ afterEach(async () => {
 });
 
 function worker(out: string, extra: string[] = []): Running {
-  const running = startCli(['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...queue.flags, ...extra], {
-    RECALLSCAPE_LOG_LEVEL: 'debug',
-  });
+  const running = startCli(
+    ['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...queue.flags, ...extra],
+    {
+      RECALLSCAPE_LOG_LEVEL: 'debug',
+    },
+  );
   started.push(running);
   return running;
 }
@@ -53,7 +56,11 @@ function logLines(running: Running): Array<Record<string, unknown>> {
 }
 
 async function ready(running: Running): Promise<void> {
-  await waitFor('a worker to be ready', async () => (logLines(running).some((l) => l['msg'] === 'worker ready') ? true : undefined), 60_000);
+  await waitFor(
+    'a worker to be ready',
+    async () => (logLines(running).some((l) => l['msg'] === 'worker ready') ? true : undefined),
+    60_000,
+  );
 }
 
 /** Every result record under a results root, for one sweep name. */
@@ -72,13 +79,22 @@ function byKey(list: Array<Record<string, unknown>>): Map<string, Array<Record<s
 
 /** The part of a record that a re-run of its job must reproduce exactly. */
 function essence(r: Record<string, unknown>): string {
-  return JSON.stringify([r['sweepHash'], r['seed'], r['replicate'], JSON.stringify(r['point']), JSON.stringify(r['metrics'])]);
+  return JSON.stringify([
+    r['sweepHash'],
+    r['seed'],
+    r['replicate'],
+    JSON.stringify(r['point']),
+    JSON.stringify(r['metrics']),
+  ]);
 }
 
 describe('a sweep served by worker processes through Redis', () => {
   it('gives, over two workers (one on the shared disk, one gathered through Redis), exactly the records of the embedded run', async () => {
     const file = join(root, 'burn.yaml');
-    await writeFile(file, 'name: two-workers\nmodel: cpu-burn\nseed: 11\nreplicates: 8\nfixed: { burnMs: 60 }\nvary:\n  successRate: { from: 0, to: 1, steps: 5 }\n');
+    await writeFile(
+      file,
+      'name: two-workers\nmodel: cpu-burn\nseed: 11\nreplicates: 8\nfixed: { burnMs: 60 }\nvary:\n  successRate: { from: 0, to: 1, steps: 5 }\n',
+    );
     const coordinatorRoot = join(root, 'coordinator');
     const elsewhere = join(root, 'other-machine');
     // Worker A writes where the coordinator reads (shared disk); worker B on a disk of its own.
@@ -86,7 +102,16 @@ describe('a sweep served by worker processes through Redis', () => {
     const b = worker(elsewhere, ['--name', 'own-disk', '--prefetch', '2']);
     await Promise.all([ready(a), ready(b)]);
 
-    const submitted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', coordinatorRoot, '--json', ...queue.flags]);
+    const submitted = await runCli([
+      'submit',
+      file,
+      '--redis',
+      SHARED_REDIS,
+      '--out',
+      coordinatorRoot,
+      '--json',
+      ...queue.flags,
+    ]);
     expect(submitted.code, submitted.stderr).toBe(0);
     const counts = JSON.parse(submitted.stdout) as Record<string, number>;
     expect(counts).toMatchObject({ planned: 40, done: 0, enqueued: 40 });
@@ -96,7 +121,12 @@ describe('a sweep served by worker processes through Redis', () => {
     // Poll Redis directly (cheaper than a CLI process per look): finished jobs sit in the completed set.
     const client = await inspector(SHARED_REDIS);
     try {
-      await waitFor('all 40 jobs to finish', async () => ((await client.zcard(`${queue.prefix}:${queue.name}:completed`)) === 40 ? true : undefined), 90_000, 250);
+      await waitFor(
+        'all 40 jobs to finish',
+        async () => ((await client.zcard(`${queue.prefix}:${queue.name}:completed`)) === 40 ? true : undefined),
+        90_000,
+        250,
+      );
     } finally {
       client.disconnect();
     }
@@ -112,7 +142,10 @@ describe('a sweep served by worker processes through Redis', () => {
     expect(onOwn.length).toBeGreaterThan(0);
 
     // Before gather, progress sees worker B's jobs only in Redis.
-    const before = JSON.parse((await runCli(progressArgs)).stdout) as { onDisk: number; queue: { finishedNotGathered: number } };
+    const before = JSON.parse((await runCli(progressArgs)).stdout) as {
+      onDisk: number;
+      queue: { finishedNotGathered: number };
+    };
     expect(before.onDisk).toBe(new Set(onShared.map((r) => r['key'])).size);
     expect(before.queue.finishedNotGathered).toBe(40 - before.onDisk);
 
@@ -123,14 +156,18 @@ describe('a sweep served by worker processes through Redis', () => {
     expect(g['copied']).toBe(new Set(onOwn.map((r) => r['key'])).size);
     expect(g['removed']).toBe(40);
     // Gathering again finds nothing left in Redis and copies nothing twice.
-    const again = JSON.parse((await runCli(['gather', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags])).stdout) as Record<string, number>;
+    const again = JSON.parse(
+      (await runCli(['gather', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags])).stdout,
+    ) as Record<string, number>;
     expect(again).toMatchObject({ found: 0, copied: 0 });
 
     // --follow on a finished sweep draws once (a plain line: stdout is a pipe here), prints the summary and ends by itself.
     const followed = await runCli(['progress', dir, '--follow', '--redis', SHARED_REDIS, ...queue.flags]);
     expect(followed.code, followed.stderr).toBe(0);
-    expect(followed.stdout).toMatch(/^finished 40\/40 \(100\.0%\) \| waiting 0 \| active 0 \| delayed 0 \| failed 0 \|/m);
-    expect(followed.stdout).toMatch(/^finished  40 \(100\.0%\)$/m);
+    expect(followed.stdout).toMatch(
+      /^finished 40\/40 \(100\.0%\) \| waiting 0 \| active 0 \| delayed 0 \| failed 0 \|/m,
+    );
+    expect(followed.stdout).toMatch(/^finished {2}40 \(100\.0%\)$/m);
 
     const embedded = await runCli(['run', file, '--out', join(root, 'embedded'), '--threads', '1']);
     expect(embedded.code, embedded.stderr).toBe(0);
@@ -164,7 +201,10 @@ describe('a sweep served by worker processes through Redis', () => {
     const submitted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, ...queue.flags]);
     expect(submitted.code, submitted.stderr).toBe(0);
 
-    const jobOf = (running: Running, msg: string): string[] => logLines(running).filter((l) => l['msg'] === msg).map((l) => String(l['job']));
+    const jobOf = (running: Running, msg: string): string[] =>
+      logLines(running)
+        .filter((l) => l['msg'] === msg)
+        .map((l) => String(l['job']));
     // Kill the victim while it is inside a job (started, not finished).
     const victimJob = await waitFor(
       'the victim to be inside a job',
@@ -231,7 +271,12 @@ describe('a sweep served by worker processes through Redis', () => {
     }
     const submitted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags]);
     expect(submitted.code, submitted.stderr).toBe(0);
-    await waitFor('the long job to finish', async () => ((await records(out, 'long-job')).length > 0 ? true : undefined), 60_000, 250);
+    await waitFor(
+      'the long job to finish',
+      async () => ((await records(out, 'long-job')).length > 0 ? true : undefined),
+      60_000,
+      250,
+    );
     // Let a second run (if there were one) show up before counting: one more stall check.
     await new Promise((r) => setTimeout(r, 2_000));
     await stopCli(w);

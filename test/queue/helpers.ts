@@ -1,4 +1,4 @@
-import { spawn, type ChildProcess } from 'node:child_process';
+import { type ChildProcess, spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import { mkdtemp, readdir, readFile, rm } from 'node:fs/promises';
 import { createServer } from 'node:net';
@@ -53,7 +53,10 @@ export interface CliResult {
 }
 
 /** Run the real CLI to completion. */
-export function runCli(args: readonly string[], options: { env?: NodeJS.ProcessEnv; timeoutMs?: number } = {}): Promise<CliResult> {
+export function runCli(
+  args: readonly string[],
+  options: { env?: NodeJS.ProcessEnv; timeoutMs?: number } = {},
+): Promise<CliResult> {
   return new Promise((done, fail) => {
     const child = spawn(process.execPath, [CLI, ...args], {
       cwd: ROOT,
@@ -107,7 +110,12 @@ export async function stopCli(running: Running, graceMs = 20_000): Promise<void>
 }
 
 /** Poll until `check` returns a value other than undefined, or fail after `timeoutMs`. */
-export async function waitFor<T>(what: string, check: () => Promise<T | undefined>, timeoutMs = 60_000, everyMs = 200): Promise<T> {
+export async function waitFor<T>(
+  what: string,
+  check: () => Promise<T | undefined>,
+  timeoutMs = 60_000,
+  everyMs = 200,
+): Promise<T> {
   const until = Date.now() + timeoutMs;
   for (;;) {
     const value = await check();
@@ -164,7 +172,8 @@ export async function startOwnRedis(extraArgs: readonly string[] = [], password?
   const args = ['--port', String(port), '--bind', '127.0.0.1', '--save', '', '--appendonly', 'no', ...extraArgs];
   if (password !== undefined) args.push('--requirepass', password);
   const child = spawn('redis-server', args, { stdio: 'ignore' });
-  const url = password === undefined ? `redis://127.0.0.1:${port}` : `redis://:${encodeURIComponent(password)}@127.0.0.1:${port}`;
+  const url =
+    password === undefined ? `redis://127.0.0.1:${port}` : `redis://:${encodeURIComponent(password)}@127.0.0.1:${port}`;
   await waitFor(
     `redis-server on port ${port}`,
     async () => {

@@ -3,11 +3,24 @@ import { join, relative } from 'node:path';
 import { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { findModel } from '../../shared/models/registry.js';
-import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
-import { parseSweepText } from '../../shared/sweep/load.js';
 import { jobIdFor } from '../../shared/queue-names.js';
 import { ResultStore } from '../../shared/store/result-store.js';
-import { SHARED_REDIS, deleteKeys, inspector, readNdjson, removeDir, runCli, startCli, stopCli, tempDir, uniqueQueue, waitFor, type Running } from './helpers.js';
+import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
+import { parseSweepText } from '../../shared/sweep/load.js';
+import {
+  deleteKeys,
+  inspector,
+  type Running,
+  readNdjson,
+  removeDir,
+  runCli,
+  SHARED_REDIS,
+  startCli,
+  stopCli,
+  tempDir,
+  uniqueQueue,
+  waitFor,
+} from './helpers.js';
 
 // Jobs pushed straight into the queue, bypassing submit: the worker must treat them as untrusted.
 
@@ -21,7 +34,11 @@ beforeAll(async () => {
   resultsRoot = join(base, 'deep', 'a', 'results');
   await mkdir(resultsRoot, { recursive: true });
   worker = startCli(['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', resultsRoot, ...queue.flags]);
-  await waitFor('the worker to be ready', async () => (worker.output().includes('worker ready') ? true : undefined), 60_000);
+  await waitFor(
+    'the worker to be ready',
+    async () => (worker.output().includes('worker ready') ? true : undefined),
+    60_000,
+  );
 });
 
 afterAll(async () => {
@@ -50,7 +67,16 @@ describe('a worker given hostile payloads', () => {
     const validJob = expandJobs(valid).next().value;
     if (validJob === undefined) throw new Error('the valid sweep has no job');
     const hostile: Record<string, unknown> = {
-      'wrong-types': { v: 1, sweep: { name: 42, hash: 'zz' }, key: 7, model: ['no-op'], params: 'x', point: null, replicate: -1, seed: 'seed' },
+      'wrong-types': {
+        v: 1,
+        sweep: { name: 42, hash: 'zz' },
+        key: 7,
+        model: ['no-op'],
+        params: 'x',
+        point: null,
+        replicate: -1,
+        seed: 'seed',
+      },
       'huge-numbers': {
         v: 1,
         sweep: { name: 'hostile-big', hash: HASH },
@@ -62,8 +88,28 @@ describe('a worker given hostile payloads', () => {
         replicate: 0,
         seed: 1,
       },
-      'path-in-name': { v: 1, sweep: { name: '../../etc/passwd', hash: HASH }, key: KEY, model: 'no-op', modelVersion: '1', params: {}, point: {}, replicate: 0, seed: 1 },
-      'huge-string': { v: 1, sweep: { name: 'hostile-str', hash: HASH }, key: KEY, model: 'm'.repeat(1_000_000), modelVersion: '1', params: {}, point: {}, replicate: 0, seed: 1 },
+      'path-in-name': {
+        v: 1,
+        sweep: { name: '../../etc/passwd', hash: HASH },
+        key: KEY,
+        model: 'no-op',
+        modelVersion: '1',
+        params: {},
+        point: {},
+        replicate: 0,
+        seed: 1,
+      },
+      'huge-string': {
+        v: 1,
+        sweep: { name: 'hostile-str', hash: HASH },
+        key: KEY,
+        model: 'm'.repeat(1_000_000),
+        modelVersion: '1',
+        params: {},
+        point: {},
+        replicate: 0,
+        seed: 1,
+      },
       'not-an-object': 'rm -rf /',
     };
     const client = await inspector(SHARED_REDIS);
@@ -71,10 +117,16 @@ describe('a worker given hostile payloads', () => {
     try {
       // The same retry policy submit uses, so "no retries" is the worker's decision.
       const opts = { attempts: 4, backoff: { type: 'exponential', delay: 1_000 } };
-      for (const [id, data] of Object.entries(hostile)) await q.add('hostile', data, { ...opts, jobId: `hostile-${id}` });
+      for (const [id, data] of Object.entries(hostile))
+        await q.add('hostile', data, { ...opts, jobId: `hostile-${id}` });
       await q.add('valid', toPayload(valid, validJob), { ...opts, jobId: 'valid-after' });
 
-      await waitFor('the valid job to complete', async () => ((await q.getJobState('valid-after')) === 'completed' ? true : undefined), 60_000, 250);
+      await waitFor(
+        'the valid job to complete',
+        async () => ((await q.getJobState('valid-after')) === 'completed' ? true : undefined),
+        60_000,
+        250,
+      );
       const expectations: Record<string, RegExp> = {
         'wrong-types': /invalid.*payload\.sweep\.name/,
         'huge-numbers': /invalid.*hypercolumns/,
@@ -121,22 +173,44 @@ describe('requeue --failed', () => {
     const flags = ['--redis', SHARED_REDIS, '--json', ...queue.flags];
     try {
       // The first job arrives asking for a model version no worker has: it fails without retries.
-      await q.add('retry-me', { ...toPayload(sweep, broken), modelVersion: '999' }, { jobId: jobIdFor(sweep.hash, broken.key), attempts: 4 });
-      await waitFor('the job to fail', async () => ((await q.getJobState(jobIdFor(sweep.hash, broken.key))) === 'failed' ? true : undefined), 60_000, 200);
+      await q.add(
+        'retry-me',
+        { ...toPayload(sweep, broken), modelVersion: '999' },
+        { jobId: jobIdFor(sweep.hash, broken.key), attempts: 4 },
+      );
+      await waitFor(
+        'the job to fail',
+        async () => ((await q.getJobState(jobIdFor(sweep.hash, broken.key))) === 'failed' ? true : undefined),
+        60_000,
+        200,
+      );
       const job = await q.getJob(jobIdFor(sweep.hash, broken.key));
       expect(job?.failedReason).toMatch(/^unsupported: job needs no-op version 999/);
 
       // Plain requeue leaves the failed job alone and queues the two others.
       const plain = JSON.parse((await runCli(['requeue', store.dir, ...flags])).stdout) as Record<string, number>;
       expect(plain).toMatchObject({ planned: 3, enqueued: 2, failedKept: 1, retried: 0 });
-      await waitFor('two results', async () => ((await readNdjson(store.resultsDir)).length === 2 ? true : undefined), 60_000, 200);
+      await waitFor(
+        'two results',
+        async () => ((await readNdjson(store.resultsDir)).length === 2 ? true : undefined),
+        60_000,
+        200,
+      );
       const before = JSON.parse((await runCli(['progress', store.dir, ...flags])).stdout) as Record<string, unknown>;
       expect(before).toMatchObject({ planned: 3, finished: 2, failingJobs: 1, failuresByKind: { unsupported: 1 } });
       expect((before['queue'] as Record<string, number>)['failed']).toBe(1);
 
-      const retried = JSON.parse((await runCli(['requeue', store.dir, '--failed', ...flags])).stdout) as Record<string, number>;
+      const retried = JSON.parse((await runCli(['requeue', store.dir, '--failed', ...flags])).stdout) as Record<
+        string,
+        number
+      >;
       expect(retried).toMatchObject({ retried: 1, enqueued: 0 });
-      await waitFor('three results', async () => ((await readNdjson(store.resultsDir)).length === 3 ? true : undefined), 60_000, 200);
+      await waitFor(
+        'three results',
+        async () => ((await readNdjson(store.resultsDir)).length === 3 ? true : undefined),
+        60_000,
+        200,
+      );
       const keys = (await readNdjson(store.resultsDir)).map((r) => r['key']).sort();
       expect(keys).toEqual(jobs.map((j) => j.key).sort());
     } finally {

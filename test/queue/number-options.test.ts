@@ -15,6 +15,8 @@ describe('whole-number options of the queue commands', () => {
   it('refuses a --connect-timeout that is not a whole number with exit code 2, naming the option', async () => {
     const result = await runCli(['progress', 'no-such-folder', '--redis', NOWHERE, '--connect-timeout', '1.5s']);
     expect(result.code).toBe(2);
-    expect(result.stderr).toBe('recallscape: --connect-timeout must be a whole number from 100 to 600000, got "1.5s"\n');
+    expect(result.stderr).toBe(
+      'recallscape: --connect-timeout must be a whole number from 100 to 600000, got "1.5s"\n',
+    );
   });
 });

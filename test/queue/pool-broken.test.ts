@@ -2,12 +2,12 @@ import { Queue } from 'bullmq';
 import { Redis } from 'ioredis';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createLogger } from '../../shared/logger.js';
-import { parseSweepText } from '../../shared/sweep/load.js';
-import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { jobIdFor } from '../../shared/queue-names.js';
+import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
+import { parseSweepText } from '../../shared/sweep/load.js';
 import { QueueConsumer } from '../../worker/queue-consumer.js';
 import type { ThreadPool } from '../../worker/thread-pool.js';
-import { SHARED_REDIS, deleteKeys, removeDir, tempDir, uniqueQueue, waitFor } from './helpers.js';
+import { deleteKeys, removeDir, SHARED_REDIS, tempDir, uniqueQueue, waitFor } from './helpers.js';
 
 // A worker whose threads cannot run anything (e.g. a broken build) must not
 // burn the attempts of the jobs it takes: they go back to waiting untouched.
@@ -36,7 +36,8 @@ describe('a worker whose thread pool is broken', () => {
     const faults: string[] = [];
     const brokenPool = {
       threads: 1,
-      run: () => Promise.reject(Object.assign(new Error('3 threads in a row died before loading'), { name: 'PoolBroken' })),
+      run: () =>
+        Promise.reject(Object.assign(new Error('3 threads in a row died before loading'), { name: 'PoolBroken' })),
     } as unknown as ThreadPool;
     const connection = new Redis(SHARED_REDIS, { maxRetriesPerRequest: null });
     const consumer = new QueueConsumer({

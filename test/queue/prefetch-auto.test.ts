@@ -7,7 +7,7 @@ import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
 import { AUTO_PREFETCH_PER_THREAD, QueueConsumer } from '../../worker/queue-consumer.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
-import { SHARED_REDIS, deleteKeys, removeDir, tempDir, uniqueQueue, waitFor } from './helpers.js';
+import { deleteKeys, removeDir, SHARED_REDIS, tempDir, uniqueQueue, waitFor } from './helpers.js';
 
 // With --prefetch auto a worker holds extra jobs only while jobs are short.
 
@@ -29,7 +29,9 @@ async function serve(yaml: string): Promise<{ concurrency: number; completed: nu
   const sweep = parseSweepText(yaml, 'test');
   const jobs = [...expandJobs(sweep)];
   const producer = new Queue(queue.name, { connection: { host: '127.0.0.1', port: 6379 }, prefix: queue.prefix });
-  await producer.addBulk(jobs.map((job) => ({ name: 'job', data: toPayload(sweep, job), opts: { jobId: jobIdFor(sweep.hash, job.key) } })));
+  await producer.addBulk(
+    jobs.map((job) => ({ name: 'job', data: toPayload(sweep, job), opts: { jobId: jobIdFor(sweep.hash, job.key) } })),
+  );
   const connection = new Redis(SHARED_REDIS, { maxRetriesPerRequest: null });
   // The threads load the built entry (vitest runs this file from sources).
   const pool = new ThreadPool({ threads: 1, context: { writer: 'prefetch-test', run: 'r1' }, entry: ENTRY });
@@ -46,7 +48,12 @@ async function serve(yaml: string): Promise<{ concurrency: number; completed: nu
   const before = consumer.counts.completed;
   await consumer.start();
   try {
-    await waitFor('every job done', async () => (consumer.counts.completed - before >= jobs.length ? true : undefined), 60_000, 50);
+    await waitFor(
+      'every job done',
+      async () => (consumer.counts.completed - before >= jobs.length ? true : undefined),
+      60_000,
+      50,
+    );
     return { concurrency: consumer.concurrency, completed: consumer.counts.completed - before, jobs: jobs.length };
   } finally {
     await consumer.close();

@@ -2,7 +2,16 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
-import { freePort, removeDir, runCli, startOwnRedis, tempDir, uniqueQueue, type CliResult, type OwnRedis } from './helpers.js';
+import {
+  type CliResult,
+  freePort,
+  type OwnRedis,
+  removeDir,
+  runCli,
+  startOwnRedis,
+  tempDir,
+  uniqueQueue,
+} from './helpers.js';
 
 // Every command that talks to Redis must fail the same way: one line, exit code 1, no secret.
 const PASSWORD = 'Zebra-Tulip-4417';
@@ -57,21 +66,31 @@ function expectOneCleanLine(result: CliResult, secret: string, pattern: RegExp):
 describe('Redis failures on the command line', () => {
   it('reports a wrong password in one masked line with exit code 1 from every command', async () => {
     const url = `redis://:${WRONG}@127.0.0.1:${guarded.port}`;
-    const results = await Promise.all(commands().map((c) => runCli([...c.args, '--redis', url, '--connect-timeout', '3000'])));
+    const results = await Promise.all(
+      commands().map((c) => runCli([...c.args, '--redis', url, '--connect-timeout', '3000'])),
+    );
     results.forEach((result, i) => {
       expect.soft(commands()[i]?.name).toBeDefined();
-      expectOneCleanLine(result, WRONG, new RegExp(`Redis refused the password for redis://:\\*\\*\\*@127\\.0\\.0\\.1:${guarded.port}`));
+      expectOneCleanLine(
+        result,
+        WRONG,
+        new RegExp(`Redis refused the password for redis://:\\*\\*\\*@127\\.0\\.0\\.1:${guarded.port}`),
+      );
     });
   });
 
   it('reports an unreachable Redis in one masked line with exit code 1 from every command, after a bounded wait', async () => {
     const url = `redis://:${PASSWORD}@127.0.0.1:${deadPort}`;
-    const results = await Promise.all(commands().map((c) => runCli([...c.args, '--redis', url, '--connect-timeout', '1500'])));
+    const results = await Promise.all(
+      commands().map((c) => runCli([...c.args, '--redis', url, '--connect-timeout', '1500'])),
+    );
     for (const result of results) {
       expectOneCleanLine(
         result,
         PASSWORD,
-        new RegExp(`cannot reach Redis at redis://:\\*\\*\\*@127\\.0\\.0\\.1:${deadPort} \\(ECONNREFUSED\\); is it running and is the URL right\\?`),
+        new RegExp(
+          `cannot reach Redis at redis://:\\*\\*\\*@127\\.0\\.0\\.1:${deadPort} \\(ECONNREFUSED\\); is it running and is the URL right\\?`,
+        ),
       );
     }
   });
@@ -83,13 +102,26 @@ describe('Redis failures on the command line', () => {
   });
 
   it('says a password is needed when the URL has none', async () => {
-    const result = await runCli(['cancel', sweepDir, '--redis', `redis://127.0.0.1:${guarded.port}`, ...uniqueQueue().flags]);
+    const result = await runCli([
+      'cancel',
+      sweepDir,
+      '--redis',
+      `redis://127.0.0.1:${guarded.port}`,
+      ...uniqueQueue().flags,
+    ]);
     expect(result.code).toBe(1);
     expect(result.stderr.trim()).toMatch(/requires a password/);
   });
 
   it('rejects a malformed URL as bad input (exit code 2) without showing its password', async () => {
-    const result = await runCli(['submit', sweepFile, '--redis', `http://:${WRONG}@127.0.0.1:1`, '--out', join(root, 'results')]);
+    const result = await runCli([
+      'submit',
+      sweepFile,
+      '--redis',
+      `http://:${WRONG}@127.0.0.1:1`,
+      '--out',
+      join(root, 'results'),
+    ]);
     expect(result.code).toBe(2);
     expect(result.stderr).toMatch(/--redis: unsupported scheme/);
     expect(result.stdout + result.stderr).not.toContain(WRONG);
@@ -97,7 +129,16 @@ describe('Redis failures on the command line', () => {
 
   it('connects with the right password (the failures above are not a broken setup)', async () => {
     const q = uniqueQueue();
-    const result = await runCli(['submit', sweepFile, '--redis', guarded.url, '--out', join(root, 'results'), '--json', ...q.flags]);
+    const result = await runCli([
+      'submit',
+      sweepFile,
+      '--redis',
+      guarded.url,
+      '--out',
+      join(root, 'results'),
+      '--json',
+      ...q.flags,
+    ]);
     expect(result.code, result.stderr).toBe(0);
     expect(JSON.parse(result.stdout)).toMatchObject({ planned: 2, enqueued: 2 });
     expect(result.stdout + result.stderr).not.toContain(PASSWORD);

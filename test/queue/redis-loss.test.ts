@@ -2,7 +2,20 @@ import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { setTimeout as sleep } from 'node:timers/promises';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { inspector, readNdjson, removeDir, runCli, startCli, startOwnRedis, stopCli, tempDir, uniqueQueue, waitFor, type OwnRedis, type Running } from './helpers.js';
+import {
+  inspector,
+  type OwnRedis,
+  type Running,
+  readNdjson,
+  removeDir,
+  runCli,
+  startCli,
+  startOwnRedis,
+  stopCli,
+  tempDir,
+  uniqueQueue,
+  waitFor,
+} from './helpers.js';
 
 // Redis loses everything mid-sweep. This test wipes a redis-server of its own, never the shared one.
 
@@ -63,7 +76,12 @@ describe('a sweep whose Redis is emptied half-way', () => {
     expect(r['done']).toBe(before.size);
     expect(r['enqueued']).toBe(30 - before.size);
 
-    await waitFor('the sweep to finish', async () => (new Set(await keysOnDisk(dir)).size === 30 ? true : undefined), 90_000, 250);
+    await waitFor(
+      'the sweep to finish',
+      async () => (new Set(await keysOnDisk(dir)).size === 30 ? true : undefined),
+      90_000,
+      250,
+    );
     await sleep(500);
     await stopCli(worker);
     expect(worker.output()).not.toMatch(/"level":[56]0/);

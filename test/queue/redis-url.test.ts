@@ -6,7 +6,14 @@ describe('Redis URLs', () => {
   it('reads host, port, database and password from a redis:// URL', () => {
     // URL layout redis://[user[:password]@]host[:port][/db]: common practice, no source (the IANA "redis" scheme registration).
     const t = parseRedisUrl('redis://:s3cret@cache.lab:6380/2');
-    expect(t).toMatchObject({ tls: false, host: 'cache.lab', port: 6380, db: 2, username: undefined, password: 's3cret' });
+    expect(t).toMatchObject({
+      tls: false,
+      host: 'cache.lab',
+      port: 6380,
+      db: 2,
+      username: undefined,
+      password: 's3cret',
+    });
     expect(t.masked).toBe('redis://:***@cache.lab:6380/2');
   });
 

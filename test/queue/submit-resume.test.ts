@@ -4,7 +4,17 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { jobIdFor } from '../../shared/queue-names.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { loadSweepFile } from '../../shared/sweep/load.js';
-import { SHARED_REDIS, deleteKeys, inspector, removeDir, runCli, startCli, tempDir, uniqueQueue, waitFor } from './helpers.js';
+import {
+  deleteKeys,
+  inspector,
+  removeDir,
+  runCli,
+  SHARED_REDIS,
+  startCli,
+  tempDir,
+  uniqueQueue,
+  waitFor,
+} from './helpers.js';
 
 let root = '';
 const queue = uniqueQueue();
@@ -23,18 +33,43 @@ const waitKey = `${queue.prefix}:${queue.name}:wait`;
 describe('submit', () => {
   it('refuses a sweep over the job limit without --yes, touching neither Redis nor the disk', async () => {
     const file = join(root, 'limit.yaml');
-    await writeFile(file, 'name: over-limit\nmodel: no-op\nseed: 1\nreplicates: 10\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n');
+    await writeFile(
+      file,
+      'name: over-limit\nmodel: no-op\nseed: 1\nreplicates: 10\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n',
+    );
     const out = join(root, 'limit-results');
     const client = await inspector(SHARED_REDIS);
     try {
-      const refused = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--max-jobs', '50', ...queue.flags]);
+      const refused = await runCli([
+        'submit',
+        file,
+        '--redis',
+        SHARED_REDIS,
+        '--out',
+        out,
+        '--max-jobs',
+        '50',
+        ...queue.flags,
+      ]);
       expect(refused.code).toBe(2);
       expect(refused.stderr).toContain('100 jobs');
       expect(refused.stderr).toContain('--yes');
       expect(await client.keys(`${queue.prefix}:*`)).toEqual([]);
       await expect(readdir(out)).rejects.toThrow(/ENOENT/);
 
-      const accepted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--max-jobs', '50', '--yes', '--json', ...queue.flags]);
+      const accepted = await runCli([
+        'submit',
+        file,
+        '--redis',
+        SHARED_REDIS,
+        '--out',
+        out,
+        '--max-jobs',
+        '50',
+        '--yes',
+        '--json',
+        ...queue.flags,
+      ]);
       expect(accepted.code, accepted.stderr).toBe(0);
       expect(JSON.parse(accepted.stdout)).toMatchObject({ planned: 100, enqueued: 100 });
       await runCli(['cancel', join(out, 'over-limit'), '--redis', SHARED_REDIS, ...queue.flags]);
@@ -45,14 +80,22 @@ describe('submit', () => {
 
   it('killed during a large submit and run again, leaves every job in the queue exactly once', async () => {
     const file = join(root, 'big.yaml');
-    await writeFile(file, 'name: big-submit\nmodel: no-op\nseed: 1\nreplicates: 100\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n');
+    await writeFile(
+      file,
+      'name: big-submit\nmodel: no-op\nseed: 1\nreplicates: 100\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n',
+    );
     const out = join(root, 'results');
     const client = await inspector(SHARED_REDIS);
     try {
       const first = startCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, ...queue.flags]);
       // Kill as soon as the first chunk (1,000 jobs, added in one transaction) is there: nine more
       // chunks would have to land in the few milliseconds before the signal for the submit to finish.
-      await waitFor('the first jobs in Redis', async () => ((await client.llen(waitKey)) > 0 ? true : undefined), 90_000, 10);
+      await waitFor(
+        'the first jobs in Redis',
+        async () => ((await client.llen(waitKey)) > 0 ? true : undefined),
+        90_000,
+        10,
+      );
       first.child.kill('SIGKILL');
       await first.exited;
       const partial = await client.llen(waitKey);

@@ -85,7 +85,9 @@ describe('loadSweepForCommand', () => {
       // 15 points x 4 replicates = 60 jobs (worked by hand).
       const refused = loadSweepForCommand(file, { maxJobs: 59, yes: false });
       await expect(refused).rejects.toMatchObject({ name: 'InputError' });
-      await expect(refused).rejects.toThrow('sweep has 60 jobs, more than the limit 59; pass --yes to run it anyway or raise --max-jobs');
+      await expect(refused).rejects.toThrow(
+        'sweep has 60 jobs, more than the limit 59; pass --yes to run it anyway or raise --max-jobs',
+      );
       expect((await loadSweepForCommand(file, { maxJobs: 60, yes: false })).pointCount).toBe(15);
       expect((await loadSweepForCommand(file, { maxJobs: 59, yes: true })).pointCount).toBe(15);
     } finally {

@@ -14,7 +14,14 @@ function capture(): { stream: Writable; text: () => string } {
   return { stream, text: () => chunks.join('') };
 }
 
-const at = (succeeded: number, failed = 0): RunProgress => ({ planned: 50, alreadyDone: 10, toRun: 40, succeeded, failed, running: 2 });
+const at = (succeeded: number, failed = 0): RunProgress => ({
+  planned: 50,
+  alreadyDone: 10,
+  toRun: 40,
+  succeeded,
+  failed,
+  running: 2,
+});
 
 describe('progress display', () => {
   // Expected figures below are plain arithmetic on the inputs (common practice, no source).

@@ -5,11 +5,11 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Writable } from 'node:stream';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import { runSweep, type RunProgress } from '../../coordinator/run-sweep.js';
+import { type RunProgress, runSweep } from '../../coordinator/run-sweep.js';
 import { createLogger } from '../../shared/logger.js';
-import { expandJobs } from '../../shared/sweep/expand.js';
-import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
 import type { ShardFs } from '../../shared/store/result-store.js';
+import { expandJobs } from '../../shared/sweep/expand.js';
+import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 
 // Threads run the compiled entry (npm test builds first); this test imports the runner from sources.
 const ENTRY = new URL('../../dist/worker/thread-entry.js', import.meta.url);
@@ -82,12 +82,21 @@ describe('runSweep', () => {
     const sweep = parseSweepText(NO_OP, 'noop.yaml');
     const { logger } = quietLogger();
     const first = await runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY });
-    expect(first).toMatchObject({ planned: 30, alreadyDone: 0, ran: 30, succeeded: 30, failed: 0, missing: 0, stopped: null });
+    expect(first).toMatchObject({
+      planned: 30,
+      alreadyDone: 0,
+      ran: 30,
+      succeeded: 30,
+      failed: 0,
+      missing: 0,
+      stopped: null,
+    });
     const records = await readShards(join(root, 'noop-run', 'results'));
     const planned = [...expandJobs(sweep)];
     expect(records.map((r) => r['key']).sort()).toEqual(planned.map((j) => j.key).sort());
     // no-op echoes its `value` parameter back as a metric.
-    for (const r of records) expect((r['metrics'] as { value: number }).value).toBe((r['point'] as { value: number }).value);
+    for (const r of records)
+      expect((r['metrics'] as { value: number }).value).toBe((r['point'] as { value: number }).value);
     const second = await runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY });
     expect(second).toMatchObject({ planned: 30, alreadyDone: 30, ran: 0, missing: 0, stopped: null });
     expect(await readShards(join(root, 'noop-run', 'results'))).toHaveLength(30);
@@ -113,7 +122,8 @@ describe('runSweep', () => {
     const all = await readShards(join(root, 'noop-run', 'failures'));
     expect(all).toHaveLength(60);
     const attempts = new Map<string, number[]>();
-    for (const f of all) attempts.set(String(f['key']), [...(attempts.get(String(f['key'])) ?? []), Number(f['attempt'])]);
+    for (const f of all)
+      attempts.set(String(f['key']), [...(attempts.get(String(f['key'])) ?? []), Number(f['attempt'])]);
     for (const list of attempts.values()) expect(list.sort()).toEqual([1, 2]);
   });
 
@@ -124,7 +134,15 @@ describe('runSweep', () => {
     const onProgress = (p: RunProgress): void => {
       if (p.succeeded >= 2) stop.abort();
     };
-    const first = await runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY, signal: stop.signal, onProgress });
+    const first = await runSweep({
+      sweep,
+      root,
+      threads: 2,
+      logger,
+      threadEntry: ENTRY,
+      signal: stop.signal,
+      onProgress,
+    });
     expect(first.stopped).toBe('graceful');
     expect(first.succeeded).toBeGreaterThanOrEqual(2);
     // The stop came at the second result; at most one job per thread was still running then.
@@ -133,7 +151,12 @@ describe('runSweep', () => {
     const written = await readShards(join(root, 'burn-run', 'results'));
     expect(written).toHaveLength(first.succeeded);
     const second = await runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY });
-    expect(second).toMatchObject({ alreadyDone: first.succeeded, ran: 12 - first.succeeded, missing: 0, stopped: null });
+    expect(second).toMatchObject({
+      alreadyDone: first.succeeded,
+      ran: 12 - first.succeeded,
+      missing: 0,
+      stopped: null,
+    });
     const keys = (await readShards(join(root, 'burn-run', 'results'))).map((r) => r['key']);
     expect(new Set(keys).size).toBe(12);
     expect(keys).toHaveLength(12);
@@ -150,7 +173,16 @@ describe('runSweep', () => {
         setTimeout(() => abandon.abort(), 50);
       }
     };
-    const result = await runSweep({ sweep, root, threads: 2, logger, threadEntry: ENTRY, signal: graceful.signal, abandonSignal: abandon.signal, onProgress });
+    const result = await runSweep({
+      sweep,
+      root,
+      threads: 2,
+      logger,
+      threadEntry: ENTRY,
+      signal: graceful.signal,
+      abandonSignal: abandon.signal,
+      onProgress,
+    });
     expect(result.stopped).toBe('abandoned');
     expect(result.ran).toBe(0);
     expect(result.missing).toBe(12);
@@ -186,7 +218,10 @@ describe('runSweep', () => {
     expect(resumed).toMatchObject({ planned: 30, alreadyDone: 4, ran: 26, succeeded: 26, missing: 0 });
     const again = (await readdir(resultsDir)).filter((n) => n !== shard);
     expect(again).toHaveLength(1);
-    const second = (await readFile(join(resultsDir, again[0]!), 'utf8')).trimEnd().split('\n').map((l) => JSON.parse(l) as { key: string });
+    const second = (await readFile(join(resultsDir, again[0]!), 'utf8'))
+      .trimEnd()
+      .split('\n')
+      .map((l) => JSON.parse(l) as { key: string });
     const firstKeys = new Set(complete.map((r) => r.key));
     for (const r of second) expect(firstKeys.has(r.key)).toBe(false);
     expect(new Set([...firstKeys, ...second.map((r) => r.key)]).size).toBe(30);
@@ -194,7 +229,10 @@ describe('runSweep', () => {
 
   it('abandons a long running job when a shard write fails instead of waiting for it', async () => {
     // Job 1 takes no time; job 2 would busy-wait ten minutes. The write of job 1's result fails.
-    const sweep = parseSweepText('name: burn-fault\nmodel: cpu-burn\nseed: 1\nvary:\n  burnMs: { list: [0, 600000] }\n', 'burn.yaml');
+    const sweep = parseSweepText(
+      'name: burn-fault\nmodel: cpu-burn\nseed: 1\nvary:\n  burnMs: { list: [0, 600000] }\n',
+      'burn.yaml',
+    );
     const { logger } = quietLogger();
     const faulty = failingFs(1);
     const outcome = await Promise.race([
@@ -220,7 +258,8 @@ describe('runSweep', () => {
         execFile(
           'bash',
           ['-c', `${limit} exec "$0" "$@"`, process.execPath, cli, 'run', file, '--out', root, '--threads', '2'],
-          (err, _stdout, stderr) => resolve({ code: err === null ? 0 : Number((err as { code?: unknown }).code), stderr }),
+          (err, _stdout, stderr) =>
+            resolve({ code: err === null ? 0 : Number((err as { code?: unknown }).code), stderr }),
         );
       });
     const first = await run('ulimit -f 2;');
@@ -241,7 +280,10 @@ describe('runSweep', () => {
     const second = await run('');
     expect(second.code).toBe(0);
     const later = (await readdir(resultsDir)).filter((n) => n !== shard);
-    const rerun = (await readFile(join(resultsDir, later[0]!), 'utf8')).trimEnd().split('\n').map((l) => JSON.parse(l) as { key: string });
+    const rerun = (await readFile(join(resultsDir, later[0]!), 'utf8'))
+      .trimEnd()
+      .split('\n')
+      .map((l) => JSON.parse(l) as { key: string });
     expect(rerun).toHaveLength(30 - complete.length);
     expect(new Set([...complete, ...rerun].map((r) => r.key)).size).toBe(30);
   });

@@ -5,8 +5,8 @@ import { pathToFileURL } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { jobKey, jobSeed } from '../../shared/job-identity.js';
 import type { JobPayload } from '../../shared/schemas/records.js';
-import { ThreadPool } from '../../worker/thread-pool.js';
 import type { JobOutcome } from '../../worker/run-job.js';
+import { ThreadPool } from '../../worker/thread-pool.js';
 
 // Threads load the compiled entry from dist/ (npm test builds first).
 const ENTRY = new URL('../../dist/worker/thread-entry.js', import.meta.url);
@@ -91,7 +91,12 @@ describe('ThreadPool', () => {
   });
 
   it('gives a crashed outcome for a thread that throws, exits or runs out of memory, and keeps working', async () => {
-    const pool = new ThreadPool({ threads: 2, context: CONTEXT, entry: faultEntry, resourceLimits: { maxOldGenerationSizeMb: 48 } });
+    const pool = new ThreadPool({
+      threads: 2,
+      context: CONTEXT,
+      entry: faultEntry,
+      resourceLimits: { maxOldGenerationSizeMb: 48 },
+    });
     const thrown = await pool.run({ fault: 'throw' });
     const exited = await pool.run({ fault: 'exit' });
     const oom = await pool.run({ fault: 'oom' });

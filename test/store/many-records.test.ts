@@ -3,8 +3,8 @@ import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
 import { ResultStore, type StoreWarning } from '../../shared/store/result-store.js';
+import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 
 const N = 200_000;
 

@@ -1,14 +1,14 @@
-import { appendFile, copyFile, mkdtemp, readFile, readdir, rm, writeFile } from 'node:fs/promises';
 import { existsSync } from 'node:fs';
+import { appendFile, copyFile, mkdtemp, readdir, readFile, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { InputError } from '../../shared/errors.js';
 import type { FailureRecord, ResultRecord } from '../../shared/schemas/records.js';
+import { newWriterId, ResultStore, type StoreWarning } from '../../shared/store/result-store.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
-import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
+import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { resultFor } from './record-fixture.js';
-import { ResultStore, newWriterId, type StoreWarning } from '../../shared/store/result-store.js';
 
 const SWEEP_TEXT = 'name: store-test\nmodel: no-op\nseed: 2\nreplicates: 2\nvary:\n  value: { list: [1, 2, 3] }\n';
 
@@ -38,7 +38,16 @@ describe('result store', () => {
     expect(json['format']).toBe('recallscape-sweep/1');
     expect(json['hash']).toBe(sweep.hash);
     expect(json['source']).toBe('store.yaml');
-    expect(Object.keys(json['sweep'] as object)).toEqual(['name', 'model', 'seed', 'replicates', 'fixed', 'vary', 'sampler', 'report']);
+    expect(Object.keys(json['sweep'] as object)).toEqual([
+      'name',
+      'model',
+      'seed',
+      'replicates',
+      'fixed',
+      'vary',
+      'sampler',
+      'report',
+    ]);
     const back = await ResultStore.open(store.dir).readSweep();
     expect(back.hash).toBe(sweep.hash);
     expect(back.spec).toEqual(sweep.spec);
@@ -70,15 +79,20 @@ describe('result store', () => {
     const store = ResultStore.at(root, 'store-test');
     await store.prepare(sweep);
     const file = join(store.dir, 'sweep.json');
-    const before = JSON.parse(await readFile(file, 'utf8')) as Record<string, unknown> & { sweep: Record<string, unknown> };
+    const before = JSON.parse(await readFile(file, 'utf8')) as Record<string, unknown> & {
+      sweep: Record<string, unknown>;
+    };
     expect(before.sweep['report']).toEqual({});
     const edited = parseSweepText(`${SWEEP_TEXT}report: { x: value, bins: 7 }\n`, 'store.yaml');
     expect(edited.hash).toBe(sweep.hash);
     await store.prepare(edited);
-    const after = JSON.parse(await readFile(file, 'utf8')) as Record<string, unknown> & { sweep: Record<string, unknown> };
+    const after = JSON.parse(await readFile(file, 'utf8')) as Record<string, unknown> & {
+      sweep: Record<string, unknown>;
+    };
     expect(after.sweep['report']).toEqual({ x: 'value', bins: 7 });
     expect(Object.keys(after)).toEqual(['format', 'hash', 'codeVersion', 'createdAt', 'source', 'sweep']);
-    for (const field of ['format', 'hash', 'codeVersion', 'createdAt', 'source']) expect(after[field]).toEqual(before[field]);
+    for (const field of ['format', 'hash', 'codeVersion', 'createdAt', 'source'])
+      expect(after[field]).toEqual(before[field]);
     expect(Object.keys(after.sweep)).toEqual(Object.keys(before.sweep));
     expect({ ...after.sweep, report: {} }).toEqual(before.sweep);
     // Read back through the store (as `recallscape report` does), and no temporary file is left.
@@ -172,7 +186,13 @@ describe('result store', () => {
     const shard = join(store.resultsDir, 'hand-made.ndjson');
     await writeFile(
       shard,
-      [JSON.stringify(resultFor(sweep, 0)), '{"v":1,"key":"nonsense"}', 'garbage{', JSON.stringify(resultFor(sweep, 1)), ''].join('\n'),
+      [
+        JSON.stringify(resultFor(sweep, 0)),
+        '{"v":1,"key":"nonsense"}',
+        'garbage{',
+        JSON.stringify(resultFor(sweep, 1)),
+        '',
+      ].join('\n'),
     );
     const warnings: StoreWarning[] = [];
     const records = await collect(store, warnings);
@@ -210,7 +230,8 @@ describe('result store', () => {
     for (const i of [2, 3, 4, 5]) wb.appendResult(resultFor(sweep, i, { writer: wb.writer }));
     wa.close();
     wb.close();
-    for (const name of await readdir(machineB.resultsDir)) await copyFile(join(machineB.resultsDir, name), join(machineA.resultsDir, name));
+    for (const name of await readdir(machineB.resultsDir))
+      await copyFile(join(machineB.resultsDir, name), join(machineA.resultsDir, name));
     const warnings: StoreWarning[] = [];
     const keys = await machineA.completedKeys({ onWarning: (w) => warnings.push(w) });
     expect(warnings).toEqual([]);

@@ -1,11 +1,11 @@
 import * as fs from 'node:fs';
-import { mkdtemp, readFile, readdir, rm } from 'node:fs/promises';
+import { mkdtemp, readdir, readFile, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
-import { resultFor } from './record-fixture.js';
 import { ResultStore, type ShardFs } from '../../shared/store/result-store.js';
+import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
+import { resultFor } from './record-fixture.js';
 
 const SWEEP_TEXT = 'name: fault-test\nmodel: no-op\nseed: 2\nreplicates: 1\nvary:\n  value: { list: [1, 2, 3, 4] }\n';
 
@@ -70,7 +70,9 @@ describe('shard writer after a failed write', () => {
     expect(failed?.message).not.toContain('\n');
 
     // The disk works again, but the writer must not append after the torn line, in either shard.
-    expect(() => writer.appendResult(resultFor(sweep, 2))).toThrow(expect.objectContaining({ name: 'ShardWriteError' }));
+    expect(() => writer.appendResult(resultFor(sweep, 2))).toThrow(
+      expect.objectContaining({ name: 'ShardWriteError' }),
+    );
     expect(() => writer.appendResult(resultFor(sweep, 2))).toThrow(file);
     expect(() =>
       writer.appendFailure({

@@ -61,8 +61,14 @@ describe('aggregateRecords', () => {
 
   it('pools groups with the same result as summarising their records together', async () => {
     const values = [0.5, 1.5, 7, 2, 9, 4.25, 3];
-    const all = await aggregateRecords(values.map((v) => record({ a: 0 }, { success: v > 2, x: v })), () => 'all');
-    const split = await aggregateRecords(values.map((v, i) => record({ a: i % 2 }, { success: v > 2, x: v })), (r) => String(r.point['a']));
+    const all = await aggregateRecords(
+      values.map((v) => record({ a: 0 }, { success: v > 2, x: v })),
+      () => 'all',
+    );
+    const split = await aggregateRecords(
+      values.map((v, i) => record({ a: i % 2 }, { success: v > 2, x: v })),
+      (r) => String(r.point['a']),
+    );
     const pooled = split.groups.get('0');
     const other = split.groups.get('1');
     if (pooled === undefined || other === undefined) throw new Error('missing groups');
@@ -81,8 +87,14 @@ describe('aggregateRecords', () => {
       record({ a: 2 }, { success: true, dwell: 5 }),
     ];
     const result = await aggregateRecords(records, (r) => String(r.point['a']));
-    const rows = [1, 2, 3].map((a) => ({ dims: [a], planned: 263, summary: result.groups.get(String(a)) ?? new GroupSummary() }));
-    const csv = toCsv(buildTable([{ name: 'a', label: 'a' }], rows, result.metricKinds)).trimEnd().split('\n');
+    const rows = [1, 2, 3].map((a) => ({
+      dims: [a],
+      planned: 263,
+      summary: result.groups.get(String(a)) ?? new GroupSummary(),
+    }));
+    const csv = toCsv(buildTable([{ name: 'a', label: 'a' }], rows, result.metricKinds))
+      .trimEnd()
+      .split('\n');
     expect(csv[0]).toBe('a,n,planned,successes,success_rate,success_lo,success_hi,dwell_mean,dwell_sd');
     expect(csv.length).toBe(4);
     const first = (csv[1] ?? '').split(',').map(Number);

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { valueAxis } from '../../coordinator/summarize/axis.js';
-import { cellValue, type CellGrid } from '../../coordinator/summarize/cell-grid.js';
+import { type CellGrid, cellValue } from '../../coordinator/summarize/cell-grid.js';
 import { GroupSummary } from '../../coordinator/summarize/group-summary.js';
 import { renderPhaseDiagram } from '../../coordinator/summarize/phase-diagram.js';
 

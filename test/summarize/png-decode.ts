@@ -25,7 +25,8 @@ export function decodePng(data: Uint8Array): { width: number; height: number; rg
       height = view.getUint32(offset + 12);
       const depth = body[8];
       const colour = body[9];
-      if (depth !== 8 || (colour !== 2 && colour !== 6) || body[12] !== 0) throw new Error(`unsupported PNG: depth ${depth}, colour ${colour}`);
+      if (depth !== 8 || (colour !== 2 && colour !== 6) || body[12] !== 0)
+        throw new Error(`unsupported PNG: depth ${depth}, colour ${colour}`);
       channels = colour === 6 ? 4 : 3;
     } else if (type === 'IDAT') {
       idat.push(body);

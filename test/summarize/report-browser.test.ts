@@ -2,7 +2,7 @@ import { existsSync } from 'node:fs';
 import { mkdir } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
-import { chromium, type Browser } from 'playwright-core';
+import { type Browser, chromium } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildReport } from '../../coordinator/summarize/build-report.js';
 import { BURN_SWEEP, makeSweepFolder, type SweepFolder } from './sweep-folder.js';
@@ -14,13 +14,26 @@ describe('the report page in headless Chromium', () => {
   let folder: SweepFolder;
   let browser: Browser;
   beforeAll(async () => {
-    if (!existsSync(CHROMIUM)) throw new Error(`${CHROMIUM} is missing: install Debian's chromium package (.ci/run does)`);
+    if (!existsSync(CHROMIUM))
+      throw new Error(`${CHROMIUM} is missing: install Debian's chromium package (.ci/run does)`);
     // Half-finished, so the page also shows incomplete cells.
-    folder = await makeSweepFolder(BURN_SWEEP, (job) => (job.point['successRate'] as number) <= 0.7 || job.replicate === 0);
+    folder = await makeSweepFolder(
+      BURN_SWEEP,
+      (job) => (job.point['successRate'] as number) <= 0.7 || job.replicate === 0,
+    );
     await buildReport({ dir: folder.dir });
     browser = await chromium.launch({
       executablePath: CHROMIUM,
-      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
+      args: [
+        '--headless',
+        '--no-sandbox',
+        '--disable-gpu',
+        '--disable-quic',
+        '--no-first-run',
+        '--disable-background-networking',
+        '--disable-component-update',
+        '--disable-sync',
+      ],
     });
   });
   afterAll(async () => {

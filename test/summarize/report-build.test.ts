@@ -1,13 +1,15 @@
-import { readFile, readdir, appendFile } from 'node:fs/promises';
+import { appendFile, readdir, readFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildReport } from '../../coordinator/summarize/build-report.js';
 import { ResultStore } from '../../shared/store/result-store.js';
-import { BURN_SWEEP, makeSweepFolder, type SweepFolder } from './sweep-folder.js';
 import { decodePng } from './png-decode.js';
+import { BURN_SWEEP, makeSweepFolder, type SweepFolder } from './sweep-folder.js';
 
 /** Records of a folder's result shards, read directly (not through the code under test). */
-async function readShardRecords(dir: string): Promise<Array<{ key: string; point: Record<string, number>; metrics: Record<string, unknown> }>> {
+async function readShardRecords(
+  dir: string,
+): Promise<Array<{ key: string; point: Record<string, number>; metrics: Record<string, unknown> }>> {
   const folder = join(dir, 'results');
   const out = [];
   for (const name of (await readdir(folder)).sort()) {
@@ -46,7 +48,16 @@ describe('buildReport on a finished grid sweep', () => {
 
   it('writes a CSV with one row per point whose counts match the records', async () => {
     const { header, rows } = parseCsv(await readFile(join(folder.dir, 'report', 'points.csv'), 'utf8'));
-    expect(header.slice(0, 8)).toEqual(['successRate', 'burnMs', 'n', 'planned', 'successes', 'success_rate', 'success_lo', 'success_hi']);
+    expect(header.slice(0, 8)).toEqual([
+      'successRate',
+      'burnMs',
+      'n',
+      'planned',
+      'successes',
+      'success_rate',
+      'success_lo',
+      'success_hi',
+    ]);
     expect(rows.length).toBe(22);
     const records = await readShardRecords(folder.dir);
     for (const row of rows) {
@@ -111,11 +122,15 @@ describe('buildReport on a finished grid sweep', () => {
   });
 
   it('refuses an unknown metric, naming the option and the metrics there are', async () => {
-    await expect(buildReport({ dir: folder.dir, metric: 'recalled' })).rejects.toThrow(/--metric: .*"recalled".*allowed: success, busy, draw/);
+    await expect(buildReport({ dir: folder.dir, metric: 'recalled' })).rejects.toThrow(
+      /--metric: .*"recalled".*allowed: success, busy, draw/,
+    );
   });
 
   it('refuses an axis that is not varied, listing the varied parameters', async () => {
-    await expect(buildReport({ dir: folder.dir, x: 'tauZPre' })).rejects.toThrow(/--x: "tauZPre" is not a varied parameter.*allowed: successRate, burnMs/);
+    await expect(buildReport({ dir: folder.dir, x: 'tauZPre' })).rejects.toThrow(
+      /--x: "tauZPre" is not a varied parameter.*allowed: successRate, burnMs/,
+    );
   });
 });
 

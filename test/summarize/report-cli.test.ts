@@ -1,5 +1,5 @@
 import { existsSync } from 'node:fs';
-import { appendFile, readFile, readdir, writeFile } from 'node:fs/promises';
+import { appendFile, readdir, readFile, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { findJob } from '../../coordinator/summarize/inspect-job.js';
@@ -117,7 +117,7 @@ describe('recallscape report and progress on a sweep one job short of done', () 
   it('reads 99.9% in progress, and 100.0% once the last job is done', async () => {
     const before = await runCli(['progress', folder.dir], folder.root);
     expect(before.code, before.stderr).toBe(0);
-    expect(before.stdout).toMatch(/^finished  9999 \(99\.9%\)$/m);
+    expect(before.stdout).toMatch(/^finished {2}9999 \(99\.9%\)$/m);
     // Run the missing job as a worker would and store its record.
     const missing = [...expandJobs(folder.sweep)][0];
     if (missing === undefined) throw new Error('the sweep has no jobs');
@@ -126,7 +126,7 @@ describe('recallscape report and progress on a sweep one job short of done', () 
     await appendFile(join(folder.dir, 'results', 'last-writer.ndjson'), `${JSON.stringify(outcome.record)}\n`);
     const after = await runCli(['progress', folder.dir], folder.root);
     expect(after.code, after.stderr).toBe(0);
-    expect(after.stdout).toMatch(/^finished  10000 \(100\.0%\)$/m);
+    expect(after.stdout).toMatch(/^finished {2}10000 \(100\.0%\)$/m);
   });
 });
 
@@ -157,7 +157,10 @@ vary:
   });
 
   it('re-runs a bcpnn-sequences job, matches its stored metrics and draws one panel per recall with the cue window', async () => {
-    const records = (await readFile(join(bcpnn.dir, 'results', 'test-writer-1.ndjson'), 'utf8')).trim().split('\n').map((l) => JSON.parse(l));
+    const records = (await readFile(join(bcpnn.dir, 'results', 'test-writer-1.ndjson'), 'utf8'))
+      .trim()
+      .split('\n')
+      .map((l) => JSON.parse(l));
     expect(records.length).toBe(1);
     const key: string = records[0].key;
     const result = await runCli(['inspect', bcpnn.dir, '--job', key.slice(0, 8)], bcpnn.root);
@@ -180,7 +183,10 @@ vary:
   });
 
   it('draws a job without a stored result and says so, writing where --out says', async () => {
-    const records = (await readFile(join(bcpnn.dir, 'results', 'test-writer-1.ndjson'), 'utf8')).trim().split('\n').map((l) => JSON.parse(l));
+    const records = (await readFile(join(bcpnn.dir, 'results', 'test-writer-1.ndjson'), 'utf8'))
+      .trim()
+      .split('\n')
+      .map((l) => JSON.parse(l));
     const done = new Set(records.map((r) => r.key));
     // The other point's job has no record.
     const out = join(bcpnn.root, 'trace.svg');
@@ -205,12 +211,20 @@ vary:
   it('exits with 1 and says the job is not reproducible when the stored metrics differ, still printing the metrics and the trace path', async () => {
     // Runs last on this folder: it changes the stored record.
     const shard = join(bcpnn.dir, 'results', 'test-writer-1.ndjson');
-    const stored = JSON.parse((await readFile(shard, 'utf8')).trim()) as { key: string; metrics: Record<string, unknown> };
-    await writeFile(shard, `${JSON.stringify({ ...stored, metrics: { ...stored.metrics, success: !stored.metrics['success'] } })}\n`);
+    const stored = JSON.parse((await readFile(shard, 'utf8')).trim()) as {
+      key: string;
+      metrics: Record<string, unknown>;
+    };
+    await writeFile(
+      shard,
+      `${JSON.stringify({ ...stored, metrics: { ...stored.metrics, success: !stored.metrics['success'] } })}\n`,
+    );
     const out = join(bcpnn.root, 'differs.svg');
     const result = await runCli(['inspect', bcpnn.dir, '--job', stored.key, '--out', out], bcpnn.root);
     expect(result.code).toBe(1);
-    expect(result.stderr).toContain(`recallscape: not reproducible: re-running job ${stored.key} gave other metrics than its stored record`);
+    expect(result.stderr).toContain(
+      `recallscape: not reproducible: re-running job ${stored.key} gave other metrics than its stored record`,
+    );
     // The re-run's own metrics are the untouched ones.
     expect(result.stdout).toContain(`metrics: ${JSON.stringify(stored.metrics)}`);
     expect(result.stdout).toContain('stored record: DIFFERENT metrics: ');

@@ -1,9 +1,9 @@
 import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { parseSweepText, type LoadedSweep } from '../../shared/sweep/load.js';
-import { expandJobs, toPayload, type PlannedJob } from '../../shared/sweep/expand.js';
 import { ResultStore } from '../../shared/store/result-store.js';
+import { expandJobs, type PlannedJob, toPayload } from '../../shared/sweep/expand.js';
+import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { runJob } from '../../worker/run-job.js';
 
 /**
@@ -33,7 +33,10 @@ export interface SweepFolder {
  * Create a sweep folder through the real store and fill it with real job
  * results (runJob, as workers do) for the jobs `keep` accepts.
  */
-export async function makeSweepFolder(text: string, keep: (job: PlannedJob) => boolean = () => true): Promise<SweepFolder> {
+export async function makeSweepFolder(
+  text: string,
+  keep: (job: PlannedJob) => boolean = () => true,
+): Promise<SweepFolder> {
   const root = await mkdtemp(join(tmpdir(), 'rs-summarize-'));
   const sweep = parseSweepText(text, 'test-sweep.yaml');
   const store = ResultStore.at(root, sweep.spec.name);

@@ -31,7 +31,14 @@ describe('sweeps of the bcpnn-sequences model', () => {
     }
     expect(new Set(jobs.map((j) => j.key)).size).toBe(880);
     // Full parameters carry the model defaults (model-spec.md: tauP 5000, cueStrength 20).
-    expect(first!.params).toMatchObject({ hypercolumns: 10, minicolumns: 20, sequenceLength: 6, tauP: 5000, cueStrength: 20, patternOverlap: 0 });
+    expect(first!.params).toMatchObject({
+      hypercolumns: 10,
+      minicolumns: 20,
+      sequenceLength: 6,
+      tauP: 5000,
+      cueStrength: 20,
+      patternOverlap: 0,
+    });
   });
 
   it('validates the random-search example with 128 distinct Sobol points', async () => {

@@ -64,7 +64,9 @@ describe('sweep hash', () => {
   it('changes with the model version', () => {
     const sweep = parseSweepText(JSON.stringify(BASE), 'h.json');
     expect(sweepHash(sweep.spec, sweep.model, sweep.baseParams)).toBe(sweep.hash);
-    expect(sweepHash(sweep.spec, { ...sweep.model, version: `${sweep.model.version}.1` }, sweep.baseParams)).not.toBe(sweep.hash);
+    expect(sweepHash(sweep.spec, { ...sweep.model, version: `${sweep.model.version}.1` }, sweep.baseParams)).not.toBe(
+      sweep.hash,
+    );
   });
 
   it('does not change when a model default is written into fixed, and neither do the job keys', () => {
@@ -92,11 +94,17 @@ describe('sweep hash', () => {
         name: 'o',
         model: 'cpu-burn',
         sampler: { kind: 'sobol', points: 4 },
-        vary: Object.fromEntries(order.map((n) => [n, n === 'burnMs' ? { between: [1, 9], integer: true } : { between: [0, 1] }])),
+        vary: Object.fromEntries(
+          order.map((n) => [n, n === 'burnMs' ? { between: [1, 9], integer: true } : { between: [0, 1] }]),
+        ),
       });
     expect(sampled(['burnMs', 'successRate'])).not.toBe(sampled(['successRate', 'burnMs']));
     const grid = (order: string[]): string =>
-      hashOf({ name: 'o', model: 'cpu-burn', vary: Object.fromEntries(order.map((n) => [n, n === 'burnMs' ? { list: [1, 2] } : { list: [0, 1] }])) });
+      hashOf({
+        name: 'o',
+        model: 'cpu-burn',
+        vary: Object.fromEntries(order.map((n) => [n, n === 'burnMs' ? { list: [1, 2] } : { list: [0, 1] }])),
+      });
     expect(grid(['burnMs', 'successRate'])).toBe(grid(['successRate', 'burnMs']));
   });
 });
@@ -105,7 +113,8 @@ describe('determinism across processes', () => {
   it('gives the same hash, points, keys and seeds in a separate process (built dist/)', async () => {
     const dist = join(process.cwd(), 'dist', 'shared', 'sweep');
     expect(existsSync(join(dist, 'load.js')), 'build first: npx tsc -p tsconfig.json').toBe(true);
-    const text = 'name: det\nmodel: cpu-burn\nseed: 123\nreplicates: 2\nsampler: { kind: random, points: 5 }\nvary:\n  successRate: { between: [0.01, 1], scale: log }\n  burnMs: { among: [0, 1, 2] }\n';
+    const text =
+      'name: det\nmodel: cpu-burn\nseed: 123\nreplicates: 2\nsampler: { kind: random, points: 5 }\nvary:\n  successRate: { between: [0.01, 1], scale: log }\n  burnMs: { among: [0, 1, 2] }\n';
     const script = `
       const { parseSweepText } = await import(${JSON.stringify(join(dist, 'load.js'))});
       const { expandJobs } = await import(${JSON.stringify(join(dist, 'expand.js'))});

@@ -19,7 +19,10 @@ const N = 2000;
 const KS_CRITICAL = 1.36 / Math.sqrt(N);
 
 function draws(range: string, seed = 17): number[] {
-  const sweep = parseSweepText(`name: r\nmodel: no-op\nseed: ${seed}\nsampler: { kind: random, points: ${N} }\nvary:\n  value: ${range}\n`, 'r.yaml');
+  const sweep = parseSweepText(
+    `name: r\nmodel: no-op\nseed: ${seed}\nsampler: { kind: random, points: ${N} }\nvary:\n  value: ${range}\n`,
+    'r.yaml',
+  );
   return expandPoints(sweep).map((p) => p['value'] as number);
 }
 
@@ -46,9 +49,13 @@ describe('random sampler distribution', () => {
   });
 
   it('covers every integer of an integer range about equally often', () => {
-    const sweep = parseSweepText(`name: r\nmodel: cpu-burn\nseed: 5\nsampler: { kind: random, points: ${N} }\nvary:\n  burnMs: { between: [3, 9], integer: true }\n  successRate: { between: [0, 1] }\n`, 'r.yaml');
+    const sweep = parseSweepText(
+      `name: r\nmodel: cpu-burn\nseed: 5\nsampler: { kind: random, points: ${N} }\nvary:\n  burnMs: { between: [3, 9], integer: true }\n  successRate: { between: [0, 1] }\n`,
+      'r.yaml',
+    );
     const counts = new Map<number, number>();
-    for (const p of expandPoints(sweep)) counts.set(p['burnMs'] as number, (counts.get(p['burnMs'] as number) ?? 0) + 1);
+    for (const p of expandPoints(sweep))
+      counts.set(p['burnMs'] as number, (counts.get(p['burnMs'] as number) ?? 0) + 1);
     expect([...counts.keys()].sort((a, b) => a - b)).toEqual([3, 4, 5, 6, 7, 8, 9]);
     const expected = N / 7;
     const chiSquare = [...counts.values()].reduce((s, c) => s + (c - expected) ** 2 / expected, 0);

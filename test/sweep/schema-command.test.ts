@@ -1,5 +1,5 @@
 import { execFile } from 'node:child_process';
-import { mkdir, mkdtemp, readFile, readdir, rm } from 'node:fs/promises';
+import { mkdir, mkdtemp, readdir, readFile, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { promisify } from 'node:util';
@@ -24,7 +24,16 @@ describe('recallscape schema', () => {
     expect(schema.type).toBe('object');
     expect(schema.required).toEqual(['name']);
     expect(schema.additionalProperties).toBe(false);
-    expect(Object.keys(schema.properties ?? {})).toEqual(['name', 'model', 'seed', 'replicates', 'fixed', 'vary', 'sampler', 'report']);
+    expect(Object.keys(schema.properties ?? {})).toEqual([
+      'name',
+      'model',
+      'seed',
+      'replicates',
+      'fixed',
+      'vary',
+      'sampler',
+      'report',
+    ]);
     expect(schema.properties?.['name']?.['pattern' as keyof JsonSchema]).toBe('^[a-z0-9][a-z0-9._-]*$');
     // Four kinds of range: list, from/to/steps, between, among.
     const ranges = schema.properties?.['vary']?.additionalProperties?.anyOf ?? [];

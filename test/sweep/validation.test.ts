@@ -2,7 +2,7 @@ import { mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { InputError, type FieldIssue } from '../../shared/errors.js';
+import { type FieldIssue, InputError } from '../../shared/errors.js';
 import { loadSweepFile, parseSweepText } from '../../shared/sweep/load.js';
 
 /** The InputError a bad sweep text gives (fails the test if none is thrown). */
@@ -32,7 +32,10 @@ describe('sweep file validation', () => {
   });
 
   it('still accepts steps that are distinct at 12 significant digits', () => {
-    const sweep = parseSweepText('name: s\nmodel: no-op\nvary:\n  value: { from: 1, to: 1.00000001, steps: 5 }\n', 'ok.yaml');
+    const sweep = parseSweepText(
+      'name: s\nmodel: no-op\nvary:\n  value: { from: 1, to: 1.00000001, steps: 5 }\n',
+      'ok.yaml',
+    );
     expect(sweep.pointCount).toBe(5);
   });
 
@@ -82,7 +85,9 @@ describe('sweep file validation', () => {
   });
 
   it('rejects a from/to/steps range with a sampled sweep', () => {
-    const error = rejection('name: s\nmodel: no-op\nsampler: { kind: lhs, points: 4 }\nvary:\n  value: { from: 1, to: 2, steps: 3 }\n');
+    const error = rejection(
+      'name: s\nmodel: no-op\nsampler: { kind: lhs, points: 4 }\nvary:\n  value: { from: 1, to: 2, steps: 3 }\n',
+    );
     expect(issueAt(error, 'vary.value.from').message).toContain('between');
   });
 
@@ -107,12 +112,22 @@ describe('sweep file validation', () => {
   });
 
   it('rejects an empty list, an empty among and an empty grid range', () => {
-    expect(issueAt(rejection('name: s\nmodel: no-op\nvary:\n  value: { list: [] }\n'), 'vary.value.list').message).toContain('at least one value');
     expect(
-      issueAt(rejection('name: s\nmodel: no-op\nsampler: { kind: random, points: 3 }\nvary:\n  value: { among: [] }\n'), 'vary.value.among').message,
+      issueAt(rejection('name: s\nmodel: no-op\nvary:\n  value: { list: [] }\n'), 'vary.value.list').message,
     ).toContain('at least one value');
-    expect(issueAt(rejection('name: s\nmodel: no-op\nvary:\n  value: { from: 0, to: 1, steps: 0 }\n'), 'vary.value.steps').message).toContain('at least 1');
-    expect(issueAt(rejection('name: s\nmodel: no-op\nvary:\n  value: {}\n'), 'vary.value').message).toContain('list, from/to/steps, between or among');
+    expect(
+      issueAt(
+        rejection('name: s\nmodel: no-op\nsampler: { kind: random, points: 3 }\nvary:\n  value: { among: [] }\n'),
+        'vary.value.among',
+      ).message,
+    ).toContain('at least one value');
+    expect(
+      issueAt(rejection('name: s\nmodel: no-op\nvary:\n  value: { from: 0, to: 1, steps: 0 }\n'), 'vary.value.steps')
+        .message,
+    ).toContain('at least 1');
+    expect(issueAt(rejection('name: s\nmodel: no-op\nvary:\n  value: {}\n'), 'vary.value').message).toContain(
+      'list, from/to/steps, between or among',
+    );
   });
 
   it('rejects a file that is neither YAML nor JSON and names the file', () => {
@@ -127,12 +142,16 @@ describe('sweep file validation', () => {
   it('rejects a log scale whose range reaches zero or below', () => {
     const grid = rejection('name: s\nmodel: no-op\nvary:\n  value: { from: 0, to: 10, steps: 3, scale: log }\n');
     expect(issueAt(grid, 'vary.value.from').message).toContain('greater than 0');
-    const sampled = rejection('name: s\nmodel: no-op\nsampler: { kind: random, points: 3 }\nvary:\n  value: { between: [-1, 10], scale: log }\n');
+    const sampled = rejection(
+      'name: s\nmodel: no-op\nsampler: { kind: random, points: 3 }\nvary:\n  value: { between: [-1, 10], scale: log }\n',
+    );
     expect(issueAt(sampled, 'vary.value.between').message).toContain('greater than 0');
   });
 
   it('rejects an unknown key with the allowed keys at that level', () => {
-    const error = rejection('name: s\nmodel: no-op\nrepeats: 3\nreport: { colour: red }\nvary:\n  value: { list: [1], step: 2 }\n');
+    const error = rejection(
+      'name: s\nmodel: no-op\nrepeats: 3\nreport: { colour: red }\nvary:\n  value: { list: [1], step: 2 }\n',
+    );
     expect(issueAt(error, 'repeats').message).toContain('replicates');
     expect(issueAt(error, 'report.colour').message).toContain('facet');
     expect(issueAt(error, 'vary.value.step').message).toContain('list');
@@ -151,7 +170,9 @@ describe('sweep file validation', () => {
     // dimension are k/64 (van der Corput), so 13 of them (k <= 12) map into
     // [0, 1] after scaling to [0, 5] and 51 do not; the second point is
     // 0.5 * 5 = 2.5 (SciPy 1.17 qmc.Sobol: second point 0.5).
-    const error = rejection('name: s\nmodel: cpu-burn\nsampler: { kind: sobol, points: 64 }\nvary:\n  successRate: { between: [0, 5] }\n');
+    const error = rejection(
+      'name: s\nmodel: cpu-burn\nsampler: { kind: sobol, points: 64 }\nvary:\n  successRate: { between: [0, 5] }\n',
+    );
     const pointIssues = error.issues.filter((i) => i.path === 'vary.successRate');
     expect(pointIssues).toHaveLength(5);
     expect(pointIssues[0]!.message).toContain('at point 2 (successRate=2.5)');
@@ -159,21 +180,32 @@ describe('sweep file validation', () => {
   });
 
   it('accepts integer draws for an integer parameter when integer: true is given', () => {
-    const sweep = parseSweepText('name: s\nmodel: cpu-burn\nsampler: { kind: random, points: 30 }\nvary:\n  burnMs: { between: [1, 9], integer: true }\n', 'ok.yaml');
+    const sweep = parseSweepText(
+      'name: s\nmodel: cpu-burn\nsampler: { kind: random, points: 30 }\nvary:\n  burnMs: { between: [1, 9], integer: true }\n',
+      'ok.yaml',
+    );
     expect(sweep.pointCount).toBeGreaterThan(0);
-    const without = rejection('name: s\nmodel: cpu-burn\nsampler: { kind: random, points: 30 }\nvary:\n  burnMs: { between: [1, 9] }\n');
+    const without = rejection(
+      'name: s\nmodel: cpu-burn\nsampler: { kind: random, points: 30 }\nvary:\n  burnMs: { between: [1, 9] }\n',
+    );
     expect(issueAt(without, 'vary.burnMs').message).toContain('add integer: true');
   });
 
   it('rejects report axes that are not varied parameters', () => {
-    const error = rejection('name: s\nmodel: cpu-burn\nvary:\n  successRate: { list: [0.5, 1] }\nreport: { x: burnMs, y: successRate, facet: successRate }\n');
+    const error = rejection(
+      'name: s\nmodel: cpu-burn\nvary:\n  successRate: { list: [0.5, 1] }\nreport: { x: burnMs, y: successRate, facet: successRate }\n',
+    );
     expect(issueAt(error, 'report.x').message).toContain('use one of: successRate');
     expect(issueAt(error, 'report.facet').message).toContain('already report.y');
   });
 
   it('refuses a sweep over the job limit with both ways out in the message', () => {
-    const error = rejection('name: s\nmodel: no-op\nreplicates: 30\nvary:\n  value: { from: 1, to: 40, steps: 40 }\n', { jobLimit: 1000 });
-    expect(error.message).toBe('sweep has 1200 jobs, more than the limit 1000; pass --yes to run it anyway or raise --max-jobs');
+    const error = rejection('name: s\nmodel: no-op\nreplicates: 30\nvary:\n  value: { from: 1, to: 40, steps: 40 }\n', {
+      jobLimit: 1000,
+    });
+    expect(error.message).toBe(
+      'sweep has 1200 jobs, more than the limit 1000; pass --yes to run it anyway or raise --max-jobs',
+    );
   });
 
   describe('files on disk', () => {

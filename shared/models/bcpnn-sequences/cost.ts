@@ -1,4 +1,4 @@
-import { resolveShape, type BcpnnParams } from './params.js';
+import { type BcpnnParams, resolveShape } from './params.js';
 
 /**
  * Estimated arithmetic operations of one trial, following what the fast path

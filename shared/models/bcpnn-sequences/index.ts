@@ -1,11 +1,11 @@
 import type { Model, RunOptions, RunOutput, TracePanel } from '../../model.js';
 import { createRandom } from '../../random.js';
 import { estimateCost } from './cost.js';
-import { bcpnnParamsSchema, paramInfo, resolveShape, type BcpnnParams } from './params.js';
+import { type BcpnnParams, bcpnnParamsSchema, paramInfo, resolveShape } from './params.js';
 import { achievedOverlap, generateSequences, indexPatterns, type PatternSet } from './patterns.js';
 import { Recaller } from './recall.js';
 import { scoreRecall } from './scoring.js';
-import { train, type TrainedNetwork } from './training.js';
+import { type TrainedNetwork, train } from './training.js';
 
 /** The stored sequences of a trial: explicit, or drawn from the 'patterns' stream. */
 export function makePatternSet(p: BcpnnParams, seed: number): PatternSet {

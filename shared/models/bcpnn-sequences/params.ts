@@ -56,7 +56,8 @@ function num(field: string, rule: NumberRule) {
   const message = allowedText(field, rule);
   let schema = z.number({ error: message });
   if (rule.int === true) schema = schema.int({ error: message });
-  schema = rule.minExclusive === true ? schema.gt(rule.min, { error: message }) : schema.gte(rule.min, { error: message });
+  schema =
+    rule.minExclusive === true ? schema.gt(rule.min, { error: message }) : schema.gte(rule.min, { error: message });
   return schema.lte(rule.max, { error: message });
 }
 
@@ -77,14 +78,18 @@ const shape = {
   hypercolumns: num('hypercolumns', { int: true, min: 1, max: LIMITS.maxUnits })
     .optional()
     .describe('Number of hypercolumns H (default 10, or taken from sequences)'),
-  minicolumns: num('minicolumns', { int: true, min: 2, max: LIMITS.maxUnits }).default(20).describe('Minicolumns per hypercolumn M'),
+  minicolumns: num('minicolumns', { int: true, min: 2, max: LIMITS.maxUnits })
+    .default(20)
+    .describe('Minicolumns per hypercolumn M'),
   sequenceCount: num('sequenceCount', { int: true, min: 1, max: LIMITS.maxSequenceCount })
     .optional()
     .describe('Number of stored sequences K (default 2, or taken from sequences)'),
   sequenceLength: num('sequenceLength', { int: true, min: 2, max: LIMITS.maxSequenceLength })
     .optional()
     .describe('Patterns per sequence L (default 6, or taken from sequences)'),
-  patternOverlap: num('patternOverlap', { min: 0, max: 1 }).default(0).describe('Fraction f of hypercolumns copied from sequence 1 at overlapped positions'),
+  patternOverlap: num('patternOverlap', { min: 0, max: 1 })
+    .default(0)
+    .describe('Fraction f of hypercolumns copied from sequence 1 at overlapped positions'),
   overlapLength: num('overlapLength', { int: true, min: 0, max: LIMITS.maxSequenceLength })
     .default(1)
     .describe('Number k of consecutive overlapped positions'),
@@ -92,7 +97,9 @@ const shape = {
     .optional()
     .describe('First overlapped position (default floor((L-k)/2), at least 1 with explicit sequences)'),
   sequences: z
-    .array(z.array(z.array(minicolumnIndex, { error: sequencesMessage }), { error: sequencesMessage }), { error: sequencesMessage })
+    .array(z.array(z.array(minicolumnIndex, { error: sequencesMessage }), { error: sequencesMessage }), {
+      error: sequencesMessage,
+    })
     .optional()
     .describe('Explicit sequences [[[H ints] x L] x K]; replaces the generator'),
   dt: num('dt', { min: 0, minExclusive: true, max: 1000 }).default(1).describe('Time step'),
@@ -114,7 +121,9 @@ const shape = {
   cueStrength: gainRule('cueStrength').default(20).describe('Input to the cue pattern units'),
   recallDuration: time('recallDuration').default(1000).describe('Free recall time after the cue'),
   noise: gainRule('noise').default(0).describe('Standard deviation of the input noise per unit per step'),
-  matchThreshold: num('matchThreshold', { min: 0, max: 1 }).default(0.5).describe('Least match for a pattern to count as active'),
+  matchThreshold: num('matchThreshold', { min: 0, max: 1 })
+    .default(0.5)
+    .describe('Least match for a pattern to count as active'),
   minDwell: time('minDwell').default(5).describe('Runs shorter than this are dropped in scoring'),
 };
 
@@ -129,107 +138,168 @@ export const bcpnnParamsSchema = z
         ? `unknown parameter${issue.keys.length > 1 ? 's' : ''} ${issue.keys.map((k) => `"${k}"`).join(', ')}; the parameters are: ${NAMES}`
         : undefined,
   })
-  .superRefine((p, ctx) => {
-    const issue = (path: string, message: string): void => {
-      ctx.addIssue({ code: 'custom', path: [path], message });
-    };
-    for (const name of TIME_CONSTANTS) {
-      if (p[name] < p.dt) issue(name, `${name} must be >= dt (${p.dt} ms), got ${p[name]}`);
-    }
-    if (Math.round(p.patternDuration / p.dt) < 1) {
-      issue('patternDuration', `patternDuration must be at least one step: round(patternDuration/dt) >= 1 (dt = ${p.dt})`);
-    }
-    const nRecall = Math.round(p.cueDuration / p.dt) + Math.round(p.recallDuration / p.dt);
-    if (nRecall < 1) issue('recallDuration', 'cueDuration + recallDuration must give at least one recall step');
-    if (nRecall > LIMITS.maxRecallStepsPerRecall) {
-      issue('recallDuration', `(cueDuration + recallDuration)/dt must be <= ${LIMITS.maxRecallStepsPerRecall} steps, got ${nRecall}`);
-    }
-
-    // Shape: explicit sequences fix K, L and H; given values must agree.
-    let K = p.sequenceCount ?? DEFAULT_SEQUENCE_COUNT;
-    let L = p.sequenceLength ?? DEFAULT_SEQUENCE_LENGTH;
-    let H = p.hypercolumns ?? DEFAULT_HYPERCOLUMNS;
-    if (p.sequences !== undefined) {
-      const seqs = p.sequences;
-      const first = seqs[0];
-      const firstPattern = first?.[0];
-      if (first === undefined || firstPattern === undefined) {
-        issue('sequences', 'sequences must hold at least one sequence of at least two patterns');
-        return;
+  .superRefine(
+    (p, ctx) => {
+      const issue = (path: string, message: string): void => {
+        ctx.addIssue({ code: 'custom', path: [path], message });
+      };
+      for (const name of TIME_CONSTANTS) {
+        if (p[name] < p.dt) issue(name, `${name} must be >= dt (${p.dt} ms), got ${p[name]}`);
       }
-      K = seqs.length;
-      L = first.length;
-      H = firstPattern.length;
-      if (L < 2) issue('sequences', 'every sequence must have at least 2 patterns');
-      if (H < 1) issue('sequences', 'every pattern must have at least one hypercolumn');
-      if (K > LIMITS.maxSequenceCount) issue('sequences', `at most ${LIMITS.maxSequenceCount} sequences are allowed`);
-      for (let s = 0; s < K; s++) {
-        const seq = seqs[s] ?? [];
-        if (seq.length !== L) issue('sequences', `sequence ${s} has ${seq.length} patterns; all sequences must have ${L} (as sequence 0)`);
-        for (let q = 0; q < seq.length; q++) {
-          const pat = seq[q] ?? [];
-          if (pat.length !== H) issue('sequences', `pattern ${q} of sequence ${s} has ${pat.length} entries; every pattern needs ${H} (one per hypercolumn)`);
-          for (const m of pat) {
-            if (m >= p.minicolumns) issue('sequences', `pattern ${q} of sequence ${s} uses minicolumn ${m}; minicolumns are 0..${p.minicolumns - 1}`);
+      if (Math.round(p.patternDuration / p.dt) < 1) {
+        issue(
+          'patternDuration',
+          `patternDuration must be at least one step: round(patternDuration/dt) >= 1 (dt = ${p.dt})`,
+        );
+      }
+      const nRecall = Math.round(p.cueDuration / p.dt) + Math.round(p.recallDuration / p.dt);
+      if (nRecall < 1) issue('recallDuration', 'cueDuration + recallDuration must give at least one recall step');
+      if (nRecall > LIMITS.maxRecallStepsPerRecall) {
+        issue(
+          'recallDuration',
+          `(cueDuration + recallDuration)/dt must be <= ${LIMITS.maxRecallStepsPerRecall} steps, got ${nRecall}`,
+        );
+      }
+
+      // Shape: explicit sequences fix K, L and H; given values must agree.
+      let K = p.sequenceCount ?? DEFAULT_SEQUENCE_COUNT;
+      let L = p.sequenceLength ?? DEFAULT_SEQUENCE_LENGTH;
+      let H = p.hypercolumns ?? DEFAULT_HYPERCOLUMNS;
+      if (p.sequences !== undefined) {
+        const seqs = p.sequences;
+        const first = seqs[0];
+        const firstPattern = first?.[0];
+        if (first === undefined || firstPattern === undefined) {
+          issue('sequences', 'sequences must hold at least one sequence of at least two patterns');
+          return;
+        }
+        K = seqs.length;
+        L = first.length;
+        H = firstPattern.length;
+        if (L < 2) issue('sequences', 'every sequence must have at least 2 patterns');
+        if (H < 1) issue('sequences', 'every pattern must have at least one hypercolumn');
+        if (K > LIMITS.maxSequenceCount) issue('sequences', `at most ${LIMITS.maxSequenceCount} sequences are allowed`);
+        for (let s = 0; s < K; s++) {
+          const seq = seqs[s] ?? [];
+          if (seq.length !== L)
+            issue(
+              'sequences',
+              `sequence ${s} has ${seq.length} patterns; all sequences must have ${L} (as sequence 0)`,
+            );
+          for (let q = 0; q < seq.length; q++) {
+            const pat = seq[q] ?? [];
+            if (pat.length !== H)
+              issue(
+                'sequences',
+                `pattern ${q} of sequence ${s} has ${pat.length} entries; every pattern needs ${H} (one per hypercolumn)`,
+              );
+            for (const m of pat) {
+              if (m >= p.minicolumns)
+                issue(
+                  'sequences',
+                  `pattern ${q} of sequence ${s} uses minicolumn ${m}; minicolumns are 0..${p.minicolumns - 1}`,
+                );
+            }
           }
         }
-      }
-      for (let s = 1; s < K; s++) {
-        for (let r = 0; r < s; r++) {
-          if (JSON.stringify(seqs[s]?.[0]) === JSON.stringify(seqs[r]?.[0])) {
-            issue('sequences', `sequences ${r} and ${s} start with the same pattern; the cue patterns must differ`);
+        for (let s = 1; s < K; s++) {
+          for (let r = 0; r < s; r++) {
+            if (JSON.stringify(seqs[s]?.[0]) === JSON.stringify(seqs[r]?.[0])) {
+              issue('sequences', `sequences ${r} and ${s} start with the same pattern; the cue patterns must differ`);
+            }
           }
         }
+        if (p.sequenceCount !== undefined && p.sequenceCount !== K)
+          issue(
+            'sequenceCount',
+            `sequenceCount (${p.sequenceCount}) must equal the number of given sequences (${K}) or be left out`,
+          );
+        if (p.sequenceLength !== undefined && p.sequenceLength !== L)
+          issue(
+            'sequenceLength',
+            `sequenceLength (${p.sequenceLength}) must equal the length of the given sequences (${L}) or be left out`,
+          );
+        if (p.hypercolumns !== undefined && p.hypercolumns !== H)
+          issue(
+            'hypercolumns',
+            `hypercolumns (${p.hypercolumns}) must equal the pattern size of the given sequences (${H}) or be left out`,
+          );
+      } else if (H * Math.log(p.minicolumns) < Math.log(K) - 1e-12) {
+        issue(
+          'sequenceCount',
+          `sequenceCount ${K} needs at least ${K} distinct cue patterns but minicolumns^hypercolumns = ${p.minicolumns ** H}`,
+        );
       }
-      if (p.sequenceCount !== undefined && p.sequenceCount !== K) issue('sequenceCount', `sequenceCount (${p.sequenceCount}) must equal the number of given sequences (${K}) or be left out`);
-      if (p.sequenceLength !== undefined && p.sequenceLength !== L) issue('sequenceLength', `sequenceLength (${p.sequenceLength}) must equal the length of the given sequences (${L}) or be left out`);
-      if (p.hypercolumns !== undefined && p.hypercolumns !== H) issue('hypercolumns', `hypercolumns (${p.hypercolumns}) must equal the pattern size of the given sequences (${H}) or be left out`);
-    } else if (H * Math.log(p.minicolumns) < Math.log(K) - 1e-12) {
-      issue('sequenceCount', `sequenceCount ${K} needs at least ${K} distinct cue patterns but minicolumns^hypercolumns = ${p.minicolumns ** H}`);
-    }
-    // Bound on the number of unit classes (docs/performance.md): small unless patterns share units at random.
-    const N0 = H * p.minicolumns;
-    let classBound = p.minicolumns >= K * L ? 0 : N0;
-    if (p.sequences !== undefined) {
-      const used = new Set<number>();
-      for (const seq of p.sequences) for (const pat of seq) pat.forEach((m, h) => used.add(h * p.minicolumns + m));
-      classBound = used.size + 1;
-    }
-    if (classBound > LIMITS.maxUnitClasses) {
-      issue(
-        'minicolumns',
-        p.sequences !== undefined
-          ? `the given sequences use ${classBound - 1} distinct units; at most ${LIMITS.maxUnitClasses - 1} are allowed`
-          : `when minicolumns < sequenceCount x sequenceLength, patterns share units and hypercolumns x minicolumns must be <= ${LIMITS.maxUnitClasses}, got ${N0}`,
-      );
-    }
-    if (K * L > LIMITS.maxPatterns) issue('sequenceLength', `sequenceCount x sequenceLength must be <= ${LIMITS.maxPatterns}, got ${K * L}`);
-    const N = H * p.minicolumns;
-    if (N > LIMITS.maxUnits) issue('minicolumns', `hypercolumns x minicolumns must be <= ${LIMITS.maxUnits} units, got ${N}`);
-    if (K * nRecall * N > LIMITS.maxRecallUnitSteps) {
-      issue('recallDuration', `sequenceCount x recall steps x units must be <= ${LIMITS.maxRecallUnitSteps}, got ${K * nRecall * N}`);
-    }
-    const perSequence = L * (Math.round(p.patternDuration / p.dt) + Math.round(p.gapDuration / p.dt)) + Math.round(p.restDuration / p.dt);
-    if (p.epochs * K * perSequence > LIMITS.maxTrainingSteps) {
-      issue('epochs', `epochs x training steps must be <= ${LIMITS.maxTrainingSteps}, got ${p.epochs * K * perSequence}`);
-    }
+      // Bound on the number of unit classes (docs/performance.md): small unless patterns share units at random.
+      const N0 = H * p.minicolumns;
+      let classBound = p.minicolumns >= K * L ? 0 : N0;
+      if (p.sequences !== undefined) {
+        const used = new Set<number>();
+        for (const seq of p.sequences)
+          for (const pat of seq)
+            pat.forEach((m, h) => {
+              used.add(h * p.minicolumns + m);
+            });
+        classBound = used.size + 1;
+      }
+      if (classBound > LIMITS.maxUnitClasses) {
+        issue(
+          'minicolumns',
+          p.sequences !== undefined
+            ? `the given sequences use ${classBound - 1} distinct units; at most ${LIMITS.maxUnitClasses - 1} are allowed`
+            : `when minicolumns < sequenceCount x sequenceLength, patterns share units and hypercolumns x minicolumns must be <= ${LIMITS.maxUnitClasses}, got ${N0}`,
+        );
+      }
+      if (K * L > LIMITS.maxPatterns)
+        issue('sequenceLength', `sequenceCount x sequenceLength must be <= ${LIMITS.maxPatterns}, got ${K * L}`);
+      const N = H * p.minicolumns;
+      if (N > LIMITS.maxUnits)
+        issue('minicolumns', `hypercolumns x minicolumns must be <= ${LIMITS.maxUnits} units, got ${N}`);
+      if (K * nRecall * N > LIMITS.maxRecallUnitSteps) {
+        issue(
+          'recallDuration',
+          `sequenceCount x recall steps x units must be <= ${LIMITS.maxRecallUnitSteps}, got ${K * nRecall * N}`,
+        );
+      }
+      const perSequence =
+        L * (Math.round(p.patternDuration / p.dt) + Math.round(p.gapDuration / p.dt)) +
+        Math.round(p.restDuration / p.dt);
+      if (p.epochs * K * perSequence > LIMITS.maxTrainingSteps) {
+        issue(
+          'epochs',
+          `epochs x training steps must be <= ${LIMITS.maxTrainingSteps}, got ${p.epochs * K * perSequence}`,
+        );
+      }
 
-    // Overlap window: start >= 1 keeps the cues apart; start + k <= L.
-    const k = p.overlapLength;
-    const start = p.overlapStart ?? defaultOverlapStart(L, k, p.sequences !== undefined);
-    if (k > L - 1) {
-      issue('overlapLength', `overlapLength must be <= sequenceLength - 1 (${L - 1}) so that the cues differ, got ${k}`);
-    } else if (start < 1) {
-      issue('overlapStart', `the default overlapStart floor((L - k)/2) = ${start} for sequenceLength ${L} and overlapLength ${k}; it must be >= 1 so that the cues differ: set overlapStart to 1`);
-    } else if (start + k > L) {
-      issue('overlapStart', `overlapStart + overlapLength must be <= sequenceLength (${L}), got ${start} + ${k}`);
-    }
-  }, { when: (payload) => payload.issues.length === 0 })
+      // Overlap window: start >= 1 keeps the cues apart; start + k <= L.
+      const k = p.overlapLength;
+      const start = p.overlapStart ?? defaultOverlapStart(L, k, p.sequences !== undefined);
+      if (k > L - 1) {
+        issue(
+          'overlapLength',
+          `overlapLength must be <= sequenceLength - 1 (${L - 1}) so that the cues differ, got ${k}`,
+        );
+      } else if (start < 1) {
+        issue(
+          'overlapStart',
+          `the default overlapStart floor((L - k)/2) = ${start} for sequenceLength ${L} and overlapLength ${k}; it must be >= 1 so that the cues differ: set overlapStart to 1`,
+        );
+      } else if (start + k > L) {
+        issue('overlapStart', `overlapStart + overlapLength must be <= sequenceLength (${L}), got ${start} + ${k}`);
+      }
+    },
+    { when: (payload) => payload.issues.length === 0 },
+  )
   // Fill the shape so that resolved parameters (job keys, records) show it.
   .overwrite((p) => {
     const seqs = p.sequences;
     if (seqs !== undefined) {
-      return { ...p, sequenceCount: seqs.length, sequenceLength: seqs[0]?.length ?? 0, hypercolumns: seqs[0]?.[0]?.length ?? 0 };
+      return {
+        ...p,
+        sequenceCount: seqs.length,
+        sequenceLength: seqs[0]?.length ?? 0,
+        hypercolumns: seqs[0]?.[0]?.length ?? 0,
+      };
     }
     return {
       ...p,
@@ -287,8 +357,15 @@ export const paramInfo: Readonly<Record<keyof typeof shape, ParamInfo>> = {
   sequenceLength: { unit: 'count', description: 'Patterns per sequence L; default 6' },
   patternOverlap: { unit: '1', description: 'Fraction of hypercolumns an overlapped pattern shares with sequence 1' },
   overlapLength: { unit: 'count', description: 'Number of consecutive overlapped positions k' },
-  overlapStart: { unit: 'count', description: 'First overlapped position (0 is the cue); default floor((L-k)/2), raised to 1 with explicit sequences' },
-  sequences: { unit: 'minicolumn index', description: 'Explicit patterns [[[H ints] x L] x K], replacing the overlap generator' },
+  overlapStart: {
+    unit: 'count',
+    description:
+      'First overlapped position (0 is the cue); default floor((L-k)/2), raised to 1 with explicit sequences',
+  },
+  sequences: {
+    unit: 'minicolumn index',
+    description: 'Explicit patterns [[[H ints] x L] x K], replacing the overlap generator',
+  },
   dt: { unit: 'ms', description: 'Time step of training and recall' },
   tauZPre: { unit: 'ms', description: 'Time constant of the presynaptic z-traces' },
   tauZPost: { unit: 'ms', description: 'Time constant of the postsynaptic z-traces' },

@@ -72,7 +72,9 @@ function chooseDistinct(rng: RandomSource, n: number, count: number, scratch: In
  */
 export function generateSequences(spec: OverlapSpec, rng: RandomSource): PatternSet {
   const { H, M, K, L, f, k, start } = spec;
-  const seqs: number[][][] = Array.from({ length: K }, () => Array.from({ length: L }, () => new Array<number>(H).fill(0)));
+  const seqs: number[][][] = Array.from({ length: K }, () =>
+    Array.from({ length: L }, () => new Array<number>(H).fill(0)),
+  );
   const at = (s: number, q: number): number[] => seqs[s]?.[q] as number[];
   const scratch = new Int32Array(Math.max(M, H));
   if (M >= K * L) {

@@ -1,7 +1,7 @@
 import type { RandomSource } from '../../random.js';
+import { fillNormal } from './normal-noise.js';
 import type { BcpnnParams, ResolvedShape } from './params.js';
 import type { PatternSet } from './patterns.js';
-import { fillNormal } from './normal-noise.js';
 import { activeAt } from './scoring.js';
 import type { TrainedNetwork } from './training.js';
 
@@ -112,7 +112,8 @@ export class Recaller {
         // Support update, then softmax of gain*s in this hypercolumn (max subtracted).
         let mx = -Infinity;
         for (let i = off; i < end; i++) {
-          const u = (classInput[classOf[i] as number] as number) - adaptGain * (a[i] as number) + (external[i] as number);
+          const u =
+            (classInput[classOf[i] as number] as number) - adaptGain * (a[i] as number) + (external[i] as number);
           const si = s[i] as number;
           const next = si + kS * (u - si);
           s[i] = next;

@@ -68,7 +68,12 @@ export interface RecallScore {
 }
 
 /** Compare the first L pattern runs with the sequence's pattern ids. */
-export function scoreRecall(active: ArrayLike<number>, expected: readonly number[], dt: number, minDwell: number): RecallScore {
+export function scoreRecall(
+  active: ArrayLike<number>,
+  expected: readonly number[],
+  dt: number,
+  minDwell: number,
+): RecallScore {
   const runs = decodeRuns(active, dt, minDwell).filter((r) => r.id !== NONE);
   let correct = 0;
   const dwellMs: number[] = [];

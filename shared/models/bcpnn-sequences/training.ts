@@ -40,7 +40,8 @@ export interface TrainedNetwork {
 export function classJoint(net: TrainedNetwork, g: number, g2: number): number {
   const { classPatterns, patternPJoint, nP } = net;
   let sum = 0;
-  for (const kk of classPatterns[g] as number[]) for (const l of classPatterns[g2] as number[]) sum += patternPJoint[kk * nP + l] as number;
+  for (const kk of classPatterns[g] as number[])
+    for (const l of classPatterns[g2] as number[]) sum += patternPJoint[kk * nP + l] as number;
   return sum;
 }
 
@@ -85,13 +86,22 @@ export function geometricSum(c: number, q: number, T: number): number {
     const lr = Math.log1p((s - b) / b);
     geo = Math.expm1(T * lr) / Math.expm1(lr);
   }
-  return q * Math.pow(b, T - 1) * geo;
+  return q * b ** (T - 1) * geo;
 }
 
 function segmentSums(T: number, r1: number, r2: number, c: number, out: SegmentSums): void {
   if (T <= LOOP_LIMIT) {
-    let A = 0, B = 0, C = 0, D = 0, E1 = 0, F1 = 0, E2 = 0, F2 = 0;
-    let q1 = 1, q2 = 1, cT = 1;
+    let A = 0,
+      B = 0,
+      C = 0,
+      D = 0,
+      E1 = 0,
+      F1 = 0,
+      E2 = 0,
+      F2 = 0;
+    let q1 = 1,
+      q2 = 1,
+      cT = 1;
     for (let n = 1; n <= T; n++) {
       q1 *= r1;
       q2 *= r2;
@@ -115,7 +125,7 @@ function segmentSums(T: number, r1: number, r2: number, c: number, out: SegmentS
   const Sr2 = geometricSum(c, r2, T);
   const Sr12 = geometricSum(c, r1 * r2, T);
   Object.assign(out, {
-    cT: Math.pow(c, T),
+    cT: c ** T,
     A: S1 - Sr1 - Sr2 + Sr12,
     B: Sr1 - Sr12,
     C: Sr2 - Sr12,
@@ -124,8 +134,8 @@ function segmentSums(T: number, r1: number, r2: number, c: number, out: SegmentS
     F1: Sr1,
     E2: S1 - Sr2,
     F2: Sr2,
-    r1T: Math.pow(r1, T),
-    r2T: Math.pow(r2, T),
+    r1T: r1 ** T,
+    r2T: r2 ** T,
   });
 }
 
@@ -177,7 +187,8 @@ export function trainPatternTraces(set: PatternSet, p: BcpnnParams, shape: Resol
     if (on >= 0) {
       const row = on * nP;
       for (let l = 0; l < nP; l++) pJoint[row + l] = (pJoint[row + l] as number) + a * S.B * (zPre[l] as number);
-      for (let kk = 0; kk < nP; kk++) pJoint[kk * nP + on] = (pJoint[kk * nP + on] as number) + a * S.C * (zPost[kk] as number);
+      for (let kk = 0; kk < nP; kk++)
+        pJoint[kk * nP + on] = (pJoint[kk * nP + on] as number) + a * S.C * (zPost[kk] as number);
       pJoint[row + on] = (pJoint[row + on] as number) + a * S.A;
     }
     for (let kk = 0; kk < nP; kk++) {
@@ -207,7 +218,12 @@ export function trainPatternTraces(set: PatternSet, p: BcpnnParams, shape: Resol
 }
 
 /** Group units by the set of patterns they belong to and form the class weights. */
-export function buildNetwork(set: PatternSet, traces: PatternTraces, p: BcpnnParams, shape: ResolvedShape): TrainedNetwork {
+export function buildNetwork(
+  set: PatternSet,
+  traces: PatternTraces,
+  p: BcpnnParams,
+  shape: ResolvedShape,
+): TrainedNetwork {
   const { H, M, N } = shape;
   const members: number[][] = Array.from({ length: N }, () => []);
   set.patterns.forEach((pattern, id) => {
@@ -254,7 +270,18 @@ export function buildNetwork(set: PatternSet, traces: PatternTraces, p: BcpnnPar
       classWeights[g * G + g2] = Math.log((sum + eps2) / (post * ((classPPre[g2] as number) + eps)));
     }
   }
-  return { N, G, classOf, classWeights, classBias, classPPre, classPPost, classPatterns: classSets, patternPJoint: pJoint, nP };
+  return {
+    N,
+    G,
+    classOf,
+    classWeights,
+    classBias,
+    classPPre,
+    classPPost,
+    classPatterns: classSets,
+    patternPJoint: pJoint,
+    nP,
+  };
 }
 
 export function train(set: PatternSet, p: BcpnnParams, shape: ResolvedShape): TrainedNetwork {
