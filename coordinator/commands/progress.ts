@@ -4,6 +4,7 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action } from '../cli-support.js';
+import { completedPercent } from '../completed-percent.js';
 import { formatDuration } from '../progress-display.js';
 import { type ProgressSnapshot, sweepProgress } from '../queue-progress.js';
 import {
@@ -14,7 +15,6 @@ import {
   type QueueSession,
 } from '../queue-session.js';
 import { asServiceError } from '../redis-connect.js';
-import { completedPercent } from '../summarize/completed-percent.js';
 
 interface ProgressOptions extends QueueCliOptions {
   readonly follow?: boolean;

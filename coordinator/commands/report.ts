@@ -2,8 +2,8 @@ import { isAbsolute, relative } from 'node:path';
 import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { action, parseWholeNumber } from '../cli-support.js';
+import { completedPercent } from '../completed-percent.js';
 import { buildReport } from '../summarize/build-report.js';
-import { completedPercent } from '../summarize/completed-percent.js';
 import { REPORT_FORMATS, type ReportFormat } from '../summarize/report-settings.js';
 
 interface ReportFlags {

@@ -1,7 +1,30 @@
+import { join } from 'node:path';
+import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { ResultStore } from '../../shared/store/result-store.js';
-import { buildReportFrom, type ReportOptions, type ReportResult } from './report-builder.js';
+import { REPORT_CHARTS } from './charts/registry.js';
+import type { ReportChart } from './charts/report-chart.js';
+import { collectReport, type ReportOptions } from './collect.js';
+import { renderReportPage } from './report-page.js';
+import type { ReportFormat } from './report-settings.js';
+import type { ReportSource, ScanWarning } from './report-source.js';
 
-export type { ReportOptions, ReportResult } from './report-builder.js';
+export type { ReportOptions } from './collect.js';
+
+export interface ReportResult {
+  readonly reportDir: string;
+  readonly indexHtml: string | null;
+  readonly files: readonly string[];
+  readonly completedJobs: number;
+  readonly plannedJobs: number;
+  /** Jobs with a failed attempt and no result. */
+  readonly failedJobs: number;
+  /** Torn lines, conflicts and other problems met while reading the shards (the first few hundred). */
+  readonly warnings: readonly ScanWarning[];
+  /** How many warnings there were in all; may exceed `warnings.length`. */
+  readonly warningCount: number;
+  /** Diagram cells with fewer trials than planned, over all facets. */
+  readonly incompleteCells: number;
+}
 
 /**
  * Tables, phase diagrams and index.html for the sweep folder `options.dir`,
@@ -10,4 +33,59 @@ export type { ReportOptions, ReportResult } from './report-builder.js';
  */
 export async function buildReport(options: ReportOptions): Promise<ReportResult> {
   return buildReportFrom(ResultStore.open(options.dir), options);
+}
+
+/**
+ * The report pipeline: collect (stream the records once into groups), render
+ * every registered chart in memory, lay out the page, and only then write,
+ * each file atomically, so bad input or a failure midway leaves the previous
+ * report untouched.
+ */
+export async function buildReportFrom(
+  source: ReportSource,
+  options: ReportOptions,
+  charts: readonly ReportChart[] = REPORT_CHARTS,
+): Promise<ReportResult> {
+  const report = await collectReport(source, options);
+  const want = (f: ReportFormat): boolean => report.settings.formats.has(f);
+  const outputs = new Map<string, string | Uint8Array>();
+  const sections: Array<{ rank: number; html: string }> = [];
+  let incompleteCells = 0;
+  for (const chart of charts) {
+    const out = chart.render(report, want);
+    for (const [name, data] of out.files) outputs.set(name, data);
+    if (out.section !== null) sections.push({ rank: chart.pageRank, html: out.section });
+    incompleteCells += out.incompleteCells ?? 0;
+  }
+
+  const reportDir = source.reportDir;
+  let indexHtml: string | null = null;
+  if (want('html')) {
+    sections.sort((a, b) => a.rank - b.rank);
+    const html = renderReportPage({
+      report,
+      generatedAt: new Date().toISOString(),
+      sections: sections.map((s) => s.html),
+    });
+    outputs.set('index.html', html);
+    indexHtml = join(reportDir, 'index.html');
+  }
+
+  const files: string[] = [];
+  for (const [name, data] of outputs) {
+    const path = join(reportDir, name);
+    await writeFileAtomic(path, data);
+    files.push(path);
+  }
+  return {
+    reportDir,
+    indexHtml,
+    files,
+    completedJobs: report.completedJobs,
+    plannedJobs: report.plannedJobs,
+    failedJobs: report.failedJobs,
+    warnings: report.warnings,
+    warningCount: report.warningCount,
+    incompleteCells,
+  };
 }

@@ -1,15 +1,6 @@
 import { GroupSummary, type MetricKind } from './group-summary.js';
+import type { ReportGroup } from './report-group.js';
 import { wilsonInterval } from './wilson.js';
-
-/** A summarised group placed on the diagram lattice: x, y and facet indices. */
-export interface PlacedGroup {
-  readonly x: number;
-  readonly y: number;
-  readonly facet: number;
-  /** Trials the sweep plans for this group. */
-  readonly planned: number;
-  readonly summary: GroupSummary;
-}
 
 /** What a diagram cell shows, for one metric. */
 export interface CellData {
@@ -75,7 +66,7 @@ export function cellValue(summary: GroupSummary, planned: number, x: number, y: 
  * Cells no group reaches get n = 0 and planned = 0.
  */
 export function buildCellGrids(
-  groups: Iterable<PlacedGroup>,
+  groups: Iterable<Pick<ReportGroup, 'x' | 'y' | 'facet' | 'planned' | 'summary'>>,
   size: { readonly nx: number; readonly ny: number; readonly facets: number },
   metric: ShownMetric,
 ): CellGrid[] {

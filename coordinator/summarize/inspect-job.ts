@@ -6,7 +6,7 @@ import type { Metrics } from '../../shared/model.js';
 import type { Point } from '../../shared/schemas/records.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { expandJobs, type PlannedJob } from '../../shared/sweep/expand.js';
-import { renderTracePlot } from './trace-plot.js';
+import { renderTracePlot } from './charts/trace-plot.js';
 
 export interface InspectOptions {
   readonly dir: string;

@@ -1,5 +1,6 @@
 import type { Point } from '../../shared/schemas/records.js';
 import { gridValues, type Range } from '../../shared/sweep/ranges.js';
+import type { SamplerKind } from '../../shared/sweep/schema.js';
 import { type Axis, type AxisValue, axisSize, binAxis, locate, valueAxis } from './axis.js';
 import type { DimensionColumn, TableCell } from './tables.js';
 
@@ -25,7 +26,7 @@ export interface ReportLayout {
 }
 
 export interface LayoutInput {
-  readonly sampler: 'grid' | 'random' | 'lhs' | 'sobol';
+  readonly sampler: SamplerKind;
   readonly vary: Readonly<Record<string, Range>>;
   readonly variedNames: readonly string[];
   readonly x: string | null;

@@ -1,49 +1,14 @@
-import { completedPercent } from './completed-percent.js';
-import type { ScanWarning } from './report-source.js';
+import { completedPercent } from '../completed-percent.js';
+import type { CollectedReport } from './collect.js';
 import { escapeXml } from './svg-util.js';
 
-export interface PageDiagram {
-  readonly id: string;
-  readonly caption: string;
-  /** Inline SVG markup (ids already unique on the page). */
-  readonly svg: string;
-  /** Files written next to the page (relative names). */
-  readonly files: readonly string[];
-  readonly cellCount: number;
-  readonly incompleteCount: number;
-}
-
+/** The page around the charts: what was swept, how far it got, what went wrong reading it. */
 export interface PageInput {
-  readonly name: string;
-  readonly model: string;
-  readonly source: string | null;
-  readonly hash: string;
-  readonly codeVersion: string;
-  readonly createdAt: string;
+  readonly report: CollectedReport;
   readonly generatedAt: string;
-  readonly sampler: string;
-  readonly replicates: number;
-  readonly plannedJobs: number;
-  readonly completedJobs: number;
-  readonly failedJobs: number;
-  readonly failuresByKind: readonly (readonly [string, number])[];
-  readonly axes: {
-    readonly x: string | null;
-    readonly y: string | null;
-    readonly facet: string | null;
-    readonly metric: string;
-  };
-  readonly pooled: readonly string[];
-  readonly warnings: readonly ScanWarning[];
-  readonly warningCount: number;
-  readonly diagrams: readonly PageDiagram[];
-  readonly table: { readonly columns: readonly string[]; readonly rows: readonly (readonly string[])[] };
-  readonly tableFile: string | null;
-  readonly binned: boolean;
+  /** The charts' sections (HTML), in page order. */
+  readonly sections: readonly string[];
 }
-
-/** Rows shown inline; the CSV always has all of them. */
-const MAX_TABLE_ROWS = 2000;
 
 const STYLE = `
 body { font-family: sans-serif; margin: 24px auto; max-width: 1200px; padding: 0 16px; color: #1a1a1a; line-height: 1.4; }
@@ -105,42 +70,50 @@ const SCRIPT = `
  */
 export function renderReportPage(input: PageInput): string {
   const e = escapeXml;
-  const pct = completedPercent(input.completedJobs, input.plannedJobs);
-  const fraction = input.plannedJobs === 0 ? 0 : input.completedJobs / input.plannedJobs;
+  const { report } = input;
+  const { sweep, settings } = report;
+  const { spec } = sweep;
+  const pct = completedPercent(report.completedJobs, report.plannedJobs);
+  const fraction = report.plannedJobs === 0 ? 0 : report.completedJobs / report.plannedJobs;
+  const sampler =
+    spec.sampler.kind === 'grid'
+      ? 'grid'
+      : `${spec.sampler.kind}, ${spec.sampler.points} points, ${settings.bins} bins per axis`;
   const meta: Array<[string, string]> = [
-    ['sweep file', e(input.source ?? '(none recorded)')],
-    ['sweep hash', `<code>${e(input.hash)}</code>`],
-    ['model', e(input.model)],
-    ['code version', e(input.codeVersion)],
-    ['created at', e(input.createdAt)],
+    ['sweep file', e(sweep.source ?? '(none recorded)')],
+    ['sweep hash', `<code>${e(sweep.hash)}</code>`],
+    ['model', e(`${sweep.model.id} ${sweep.model.version}`)],
+    ['code version', e(sweep.codeVersion)],
+    ['created at', e(sweep.createdAt)],
     ['report built at', e(input.generatedAt)],
-    ['sampler', e(input.sampler)],
-    ['replicates per point', String(input.replicates)],
-    ['jobs planned', String(input.plannedJobs)],
+    ['sampler', e(sampler)],
+    ['replicates per point', String(spec.replicates)],
+    ['jobs planned', String(report.plannedJobs)],
     [
       'jobs completed',
-      `<span id="completed">${input.completedJobs} of ${input.plannedJobs} (${pct} complete)</span><span class="progress"><span style="width:${(100 * Math.min(1, fraction)).toFixed(1)}%"></span></span>`,
+      `<span id="completed">${report.completedJobs} of ${report.plannedJobs} (${pct} complete)</span><span class="progress"><span style="width:${(100 * Math.min(1, fraction)).toFixed(1)}%"></span></span>`,
     ],
-    ['jobs failed (no result)', String(input.failedJobs)],
+    ['jobs failed (no result)', String(report.failedJobs)],
     [
       'failed attempts by kind',
-      input.failuresByKind.length === 0 ? 'none' : input.failuresByKind.map(([k, n]) => `${e(k)}: ${n}`).join(', '),
+      report.failuresByKind.length === 0 ? 'none' : report.failuresByKind.map(([k, n]) => `${e(k)}: ${n}`).join(', '),
     ],
     [
       'shown',
       e(
         [
-          `metric ${input.axes.metric}`,
-          input.axes.x === null ? null : `x ${input.axes.x}`,
-          input.axes.y === null ? null : `y ${input.axes.y}`,
-          input.axes.facet === null ? null : `one panel per ${input.axes.facet}`,
-          input.pooled.length === 0 ? null : `pooled over ${input.pooled.join(', ')}`,
+          `metric ${report.metric.name}`,
+          settings.x === null ? null : `x ${settings.x}`,
+          settings.y === null ? null : `y ${settings.y}`,
+          settings.facet === null ? null : `one panel per ${settings.facet}`,
+          report.pooled.length === 0 ? null : `pooled over ${report.pooled.join(', ')}`,
         ]
           .filter((s) => s !== null)
           .join('; '),
       ),
     ],
   ];
+  const unit = report.layout.binned ? 'bin' : 'point';
   const parts: string[] = [];
   parts.push('<!DOCTYPE html>');
   parts.push('<html lang="en"><head><meta charset="utf-8">');
@@ -148,51 +121,27 @@ export function renderReportPage(input: PageInput): string {
     `<meta http-equiv="Content-Security-Policy" content="default-src 'none'; style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src data:">`,
   );
   parts.push('<meta name="viewport" content="width=device-width, initial-scale=1">');
-  parts.push(`<title>${e(input.name)}: recallscape report</title>`);
+  parts.push(`<title>${e(spec.name)}: recallscape report</title>`);
   parts.push(`<style>${STYLE}</style></head><body>`);
-  parts.push(`<h1>${e(input.name)}</h1>`);
+  parts.push(`<h1>${e(spec.name)}</h1>`);
   parts.push(
-    `<p class="note">Phase diagrams and per-${input.binned ? 'bin' : 'point'} table of a recallscape sweep. Rates carry 95% Wilson score intervals; hover over a cell for its numbers.</p>`,
+    `<p class="note">Phase diagrams and per-${unit} table of a recallscape sweep. Rates carry 95% Wilson score intervals; hover over a cell for its numbers.</p>`,
   );
   parts.push('<h2>Sweep</h2><table class="meta">');
   for (const [k, v] of meta) parts.push(`<tr><th>${e(k)}</th><td>${v}</td></tr>`);
   parts.push('</table>');
 
-  if (input.warningCount > 0) {
+  if (report.warningCount > 0) {
     parts.push(
-      `<h2>Warnings while reading results</h2><div class="warnings" id="warnings"><p>${input.warningCount} problem(s) in the result files; the affected lines were skipped.</p><ul>`,
+      `<h2>Warnings while reading results</h2><div class="warnings" id="warnings"><p>${report.warningCount} problem(s) in the result files; the affected lines were skipped.</p><ul>`,
     );
-    for (const w of input.warnings) parts.push(`<li>${e(w.kind)}: ${e(w.file)} line ${w.line}: ${e(w.message)}</li>`);
-    if (input.warningCount > input.warnings.length)
-      parts.push(`<li>... and ${input.warningCount - input.warnings.length} more</li>`);
+    for (const w of report.warnings) parts.push(`<li>${e(w.kind)}: ${e(w.file)} line ${w.line}: ${e(w.message)}</li>`);
+    if (report.warningCount > report.warnings.length)
+      parts.push(`<li>... and ${report.warningCount - report.warnings.length} more</li>`);
     parts.push('</ul></div>');
   }
 
-  parts.push('<h2>Phase diagrams</h2>');
-  if (input.diagrams.length === 0) parts.push('<p>No diagram: the sweep varies no parameter.</p>');
-  for (const d of input.diagrams) {
-    const links = d.files.map((f) => `<a href="${e(f)}">${e(f)}</a>`).join(', ');
-    parts.push(`<figure id="figure-${e(d.id)}" data-cells="${d.cellCount}" data-incomplete="${d.incompleteCount}">`);
-    parts.push(d.svg);
-    parts.push(
-      `<figcaption>${e(d.caption)}. ${d.incompleteCount} of ${d.cellCount} cells have fewer trials than planned.${links === '' ? '' : ` Files: ${links}.`}</figcaption></figure>`,
-    );
-  }
-
-  parts.push(`<h2>Per-${input.binned ? 'bin' : 'point'} table</h2>`);
-  const rows = input.table.rows;
-  const shown = rows.slice(0, MAX_TABLE_ROWS);
-  if (input.tableFile !== null)
-    parts.push(
-      `<p class="note">Machine-readable: <a href="${e(input.tableFile)}">${e(input.tableFile)}</a> (plain numbers, one row per ${input.binned ? 'bin' : 'point'}).</p>`,
-    );
-  if (shown.length < rows.length)
-    parts.push(`<p class="note">Showing the first ${shown.length} of ${rows.length} rows.</p>`);
-  parts.push('<div class="table-wrap"><table class="summary"><thead><tr>');
-  for (const c of input.table.columns) parts.push(`<th>${e(c)}</th>`);
-  parts.push('</tr></thead><tbody>');
-  for (const row of shown) parts.push(`<tr>${row.map((c) => `<td>${e(c)}</td>`).join('')}</tr>`);
-  parts.push('</tbody></table></div>');
+  parts.push(...input.sections);
   parts.push('<div id="cell-tip" role="tooltip"></div>');
   parts.push(`<script>${SCRIPT}</script>`);
   parts.push('</body></html>');

@@ -1,5 +1,6 @@
 import { formatNumber } from './axis.js';
-import type { GroupSummary, MetricKind } from './group-summary.js';
+import type { MetricKind } from './group-summary.js';
+import type { ReportGroup } from './report-group.js';
 import { wilsonInterval } from './wilson.js';
 
 export type TableCell = number | string | boolean | null;
@@ -9,13 +10,6 @@ export interface DimensionColumn {
   readonly name: string;
   /** Where a person reads it: `name (unit)`. */
   readonly label: string;
-}
-
-/** One row: a parameter point (grid sweeps) or a bin (sampled sweeps). */
-export interface TableRow {
-  readonly dims: readonly TableCell[];
-  readonly planned: number;
-  readonly summary: GroupSummary;
 }
 
 export interface SummaryTable {
@@ -33,7 +27,7 @@ export interface SummaryTable {
  */
 export function buildTable(
   dims: readonly DimensionColumn[],
-  rows: readonly TableRow[],
+  rows: readonly Pick<ReportGroup, 'dims' | 'planned' | 'summary'>[],
   kinds: ReadonlyMap<string, MetricKind>,
 ): SummaryTable {
   const metricNames = [...kinds.keys()].sort();

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { completedPercent } from '../../coordinator/summarize/completed-percent.js';
+import { completedPercent } from '../../coordinator/completed-percent.js';
 
 // Expected strings worked by hand: the share rounded DOWN to one decimal.
 describe('completedPercent', () => {

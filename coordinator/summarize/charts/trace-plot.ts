@@ -1,7 +1,7 @@
 import { scaleLinear } from 'd3-scale';
 import { schemeTableau10 } from 'd3-scale-chromatic';
-import type { TracePanel } from '../../shared/model.js';
-import { escapeXml, FONT_FAMILY, px, textWidth } from './svg-util.js';
+import type { TracePanel } from '../../../shared/model.js';
+import { escapeXml, FONT_FAMILY, px, textWidth } from '../svg-util.js';
 
 export interface TracePlotInput {
   readonly title: string;

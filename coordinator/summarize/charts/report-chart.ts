@@ -1,0 +1,24 @@
+import type { CollectedReport } from '../collect.js';
+import type { ReportFormat } from '../report-settings.js';
+
+/** What one chart adds to a report. */
+export interface ChartOutput {
+  /** Files for the report folder, by name relative to it, in the order they are listed. */
+  readonly files: ReadonlyArray<readonly [name: string, data: string | Uint8Array]>;
+  /** Its part of index.html (headings included), or null for none. */
+  readonly section: string | null;
+  /** Diagram cells with fewer trials than planned (counted into the command's summary line). */
+  readonly incompleteCells?: number;
+}
+
+/**
+ * One kind of chart or table. A chart reads the collected report and renders
+ * in memory; the pipeline writes its files and places its page section, so a
+ * new chart is one file implementing this and one line in `registry.ts`.
+ */
+export interface ReportChart {
+  readonly id: string;
+  /** Where its section goes on the page: lower first (files are listed in registry order). */
+  readonly pageRank: number;
+  render(report: CollectedReport, want: (format: ReportFormat) => boolean): ChartOutput;
+}
