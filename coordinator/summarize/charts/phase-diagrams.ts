@@ -1,7 +1,6 @@
 import type { ParamInfo } from '../../../shared/model.js';
 import { type Axis, axisSize, cellLabel, formatValue } from '../axis.js';
 import { buildCellGrids, type CellData } from '../cell-grid.js';
-import type { CollectedReport } from '../collect.js';
 import { valueUnit } from '../param-label.js';
 import { renderPhaseDiagram } from '../phase-diagram.js';
 import { svgToPng } from '../png.js';

@@ -1,4 +1,3 @@
-import type { CollectedReport } from '../collect.js';
 import { escapeXml } from '../svg-util.js';
 import { buildTable, type SummaryTable, toCsv, toMarkdown } from '../tables.js';
 import type { ChartOutput, ReportChart } from './report-chart.js';
