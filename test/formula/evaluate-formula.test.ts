@@ -50,7 +50,7 @@ describe('evaluating formulas', () => {
     expect(value('5.5 % 2')).toBe(1.5);
   });
 
-  it('computes the functions (checked against ECMAScript\'s constants and values from memory)', () => {
+  it("computes the functions (checked against ECMAScript's constants and values from memory)", () => {
     expect(value('sqrt(2)')).toBe(Math.SQRT2);
     expect(value('exp(1)')).toBeCloseTo(Math.E, 15);
     expect(value('log(10)')).toBe(Math.LN10);
