@@ -59,3 +59,19 @@ export function issuesFromZod(
 export function formatIssues(issues: readonly FieldIssue[]): string {
   return issues.map((i) => `  ${i.path}: ${i.message}`).join('\n');
 }
+
+/**
+ * One job of an external model failed in a known way (timeout, crash, a
+ * reply outside the protocol, metrics of the wrong type). Carries the failure
+ * kind and whether another attempt could help, so job runners record it as is.
+ */
+export class ModelFailure extends Error {
+  override readonly name = 'ModelFailure';
+  readonly kind: 'exception' | 'timeout' | 'crashed';
+  readonly retryable: boolean;
+  constructor(kind: 'exception' | 'timeout' | 'crashed', message: string, retryable: boolean) {
+    super(message);
+    this.kind = kind;
+    this.retryable = retryable;
+  }
+}

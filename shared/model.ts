@@ -37,6 +37,21 @@ export interface RunOptions {
   readonly trace?: boolean;
 }
 
+/** Options of `runAsync`, for models that run outside the calling thread. */
+export interface AsyncRunOptions extends RunOptions {
+  /** The job's key, echoed by the model (a label of the caller's choosing outside sweeps). */
+  readonly key?: string;
+  /** Time limit of this trial; the model's own limit when absent. */
+  readonly timeoutMs?: number;
+}
+
+/** Type and meaning of a metric, for reports and docs. */
+export interface MetricInfo {
+  readonly type: 'boolean' | 'number' | 'integer' | 'numbers';
+  readonly description: string;
+  readonly unit?: string;
+}
+
 export interface RunOutput {
   readonly metrics: Metrics;
   readonly trace?: readonly TracePanel[];
@@ -58,6 +73,16 @@ export interface Model<Schema extends z.ZodObject = z.ZodObject> {
   cost(params: z.output<Schema>): number;
   /** Pure and deterministic: same params and seed, same metrics, anywhere. */
   run(params: z.output<Schema>, seed: number, options?: RunOptions): RunOutput;
+  /**
+   * Models run outside this thread (a program speaking the line protocol) or
+   * asynchronously have this; job runners use it when present. It fails by
+   * throwing ModelFailure (shared/errors.ts) with the failure's kind.
+   */
+  runAsync?(params: z.output<Schema>, seed: number, options?: AsyncRunOptions): Promise<RunOutput>;
+  /** Release what runAsync holds (a child process); safe to call more than once. */
+  close?(): Promise<void>;
+  /** Declared metrics, when the model declares them (models with a description file do). */
+  readonly metricInfo?: Readonly<Record<string, MetricInfo>>;
 }
 
 /** Registry entries lose the precise schema type; callers re-validate. */

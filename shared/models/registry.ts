@@ -5,7 +5,9 @@ import { cpuBurnModel } from './utility/cpu-burn.js';
 import { noOpModel } from './utility/no-op.js';
 
 /** Every model this build can run. Add a model here and nowhere else. */
-const MODELS: readonly AnyModel[] = [bcpnnSequences, noOpModel, cpuBurnModel];
+const BUILT_IN: readonly AnyModel[] = [bcpnnSequences, noOpModel, cpuBurnModel];
+/** Built-in models, then those registered at run time (model folders, see shared/models/external/). */
+const MODELS: AnyModel[] = [...BUILT_IN];
 
 const byId = new Map(MODELS.map((m) => [m.id, m]));
 
@@ -13,6 +15,18 @@ export const DEFAULT_MODEL_ID = 'bcpnn-sequences';
 
 export function listModels(): readonly AnyModel[] {
   return MODELS;
+}
+
+/** Add a model found at run time (this thread only: every thread registers its own). */
+export function registerModel(model: AnyModel): void {
+  if (byId.has(model.id)) throw new Error(`model "${model.id}" is already registered`);
+  MODELS.push(model);
+  byId.set(model.id, model);
+}
+
+/** Release what registered models hold (their child processes). */
+export async function closeModels(): Promise<void> {
+  await Promise.all(MODELS.map((m) => m.close?.()));
 }
 
 export function findModel(id: string): AnyModel | undefined {
