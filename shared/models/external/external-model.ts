@@ -22,6 +22,8 @@ export interface ExternalModel extends Model<z.ZodObject> {
   readonly source: ExternalSource;
   runAsync(params: Record<string, unknown>, seed: number, options?: AsyncRunOptions): Promise<RunOutput>;
   close(): Promise<void>;
+  /** Process id of the program's supervisor serving this thread now (program models), for diagnostics and tests. */
+  processId(): number | undefined;
 }
 
 export function isExternalModel(model: Model<z.ZodObject>): model is ExternalModel {
@@ -39,6 +41,7 @@ export interface ExternalRunner {
   runSync?(params: Record<string, unknown>, seed: number, options: RunOptions): RunOutput;
   cost?(params: Record<string, unknown>): number;
   close(): Promise<void>;
+  processId?(): number | undefined;
 }
 
 export function declarationOf(description: ModelDescription): MetricDeclaration {
@@ -91,5 +94,6 @@ export function externalModel(
       });
     },
     close: () => runner.close(),
+    processId: () => runner.processId?.(),
   };
 }

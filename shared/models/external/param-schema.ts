@@ -25,8 +25,16 @@ export class ParameterSchemaProblem extends Error {
 }
 
 function newAjv(): Ajv2020 {
-  // strict: a typo in a keyword ("maximun") is an error, not a silently ignored rule.
-  const ajv = new Ajv2020({ strict: true, allErrors: true, useDefaults: false, allowUnionTypes: true });
+  // A typo in a keyword ("maximun") is an error, not a silently ignored rule; a
+  // `minimum` without a `type` in an if/then branch is normal JSON Schema and stays allowed.
+  const ajv = new Ajv2020({
+    strict: true,
+    strictTypes: false,
+    strictTuples: false,
+    strictRequired: false,
+    allErrors: true,
+    useDefaults: false,
+  });
   ajv.addKeyword({ keyword: 'unit', schemaType: 'string' });
   return ajv;
 }

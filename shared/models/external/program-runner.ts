@@ -14,5 +14,6 @@ export function programRunner(spec: ProgramSpec, supervisor?: URL): ExternalRunn
         { timeoutMs: options.timeoutMs, ...(options.trace === true ? { trace: true } : {}) },
       ),
     close: () => client.close(),
+    processId: () => client.pid,
   };
 }
