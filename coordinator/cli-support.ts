@@ -1,4 +1,4 @@
-import { type FieldIssue, formatIssues, INPUT_ERROR_NAMES, InputError } from '../shared/errors.js';
+import { type FieldIssue, formatIssues, InputError, isInputError } from '../shared/errors.js';
 
 /** Exit codes shared by every command. */
 export const EXIT_OK = 0;
@@ -38,7 +38,6 @@ export function action<Args extends unknown[]>(
 
 /** Print an error for a person and return the exit code it deserves. */
 export function reportError(error: unknown): number {
-  const name = error instanceof Error ? error.name : 'Error';
   const message = error instanceof Error ? error.message : String(error);
   const issues = (error as { issues?: FieldIssue[] } | null)?.issues;
   let text = `recallscape: ${message}`;
@@ -49,5 +48,5 @@ export function reportError(error: unknown): number {
   if (process.env['RECALLSCAPE_DEBUG'] === '1' && error instanceof Error && error.stack !== undefined) {
     process.stderr.write(`${error.stack}\n`);
   }
-  return INPUT_ERROR_NAMES.has(name) ? EXIT_INPUT : EXIT_FAILURE;
+  return isInputError(error) ? EXIT_INPUT : EXIT_FAILURE;
 }

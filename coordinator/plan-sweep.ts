@@ -1,7 +1,8 @@
 import { jobSeed } from '../shared/job-identity.js';
 import type { Point } from '../shared/schemas/records.js';
-import { countJobs, fullParams, iteratePoints } from '../shared/sweep/expand.js';
+import { countJobs, fullParams } from '../shared/sweep/expand.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
+import { iteratePoints } from '../shared/sweep/points.js';
 import { formatDuration } from './progress-display.js';
 
 /** Default ceiling on jobs per sweep; `--yes` or `--max-jobs` lifts it. */

@@ -1,7 +1,8 @@
 /**
- * Errors that cross process boundaries (thread pool, BullMQ, CLI exit codes)
- * are identified by their stable `name`, never by `instanceof`, because a
- * structured clone or a JSON round trip drops the prototype.
+ * The errors recallscape raises on purpose: exported classes, each with a
+ * stable `name`. Code matches them by class with `isErrorOf(error, Class)`.
+ * An error that crossed a thread or a JSON round trip has lost its prototype
+ * but kept its name, and `isErrorOf` recognises it by that name.
  */
 
 /** One validation problem, kept as data: which field, and what is wrong. */
@@ -13,7 +14,8 @@ export interface FieldIssue {
 
 /** Bad input from a user: exit code 2, a message that names the field. */
 export class InputError extends Error {
-  override readonly name = 'InputError';
+  static readonly errorName = 'InputError';
+  override readonly name: string = InputError.errorName;
   readonly issues: readonly FieldIssue[];
   constructor(message: string, issues: readonly FieldIssue[] = []) {
     super(message);
@@ -23,41 +25,14 @@ export class InputError extends Error {
 
 /** Results folder belongs to a different sweep (hash mismatch). Exit code 2. */
 export class SweepMismatchError extends Error {
-  override readonly name = 'SweepMismatchError';
-}
-
-/** Result shards disagree with each other (two different records for one key). */
-export class CorruptResultsError extends Error {
-  override readonly name = 'CorruptResultsError';
+  static readonly errorName = 'SweepMismatchError';
+  override readonly name: string = SweepMismatchError.errorName;
 }
 
 /** An external service (Redis) cannot be reached or refuses us. Exit code 1. */
 export class ServiceError extends Error {
-  override readonly name = 'ServiceError';
-}
-
-/** A job payload that can never succeed: fail it without retries. */
-export class InvalidJobError extends Error {
-  override readonly name = 'InvalidJobError';
-}
-
-/** Names of errors that are the user's fault (exit code 2). */
-export const INPUT_ERROR_NAMES: ReadonlySet<string> = new Set(['InputError', 'SweepMismatchError']);
-
-/** Turn zod issues into field issues with dotted paths. */
-export function issuesFromZod(
-  issues: ReadonlyArray<{ path: ReadonlyArray<PropertyKey>; message: string }>,
-  prefix = '',
-): FieldIssue[] {
-  return issues.map((issue) => {
-    const path = [prefix, ...issue.path.map((p) => String(p))].filter((p) => p !== '').join('.');
-    return { path: path === '' ? '(root)' : path, message: issue.message };
-  });
-}
-
-/** One line per issue, `field: message`, for terminal output. */
-export function formatIssues(issues: readonly FieldIssue[]): string {
-  return issues.map((i) => `  ${i.path}: ${i.message}`).join('\n');
+  static readonly errorName = 'ServiceError';
+  override readonly name: string = ServiceError.errorName;
 }
 
 /**
@@ -66,7 +41,8 @@ export function formatIssues(issues: readonly FieldIssue[]): string {
  * kind and whether another attempt could help, so job runners record it as is.
  */
 export class ModelFailure extends Error {
-  override readonly name = 'ModelFailure';
+  static readonly errorName = 'ModelFailure';
+  override readonly name: string = ModelFailure.errorName;
   readonly kind: 'exception' | 'timeout' | 'crashed';
   readonly retryable: boolean;
   constructor(kind: 'exception' | 'timeout' | 'crashed', message: string, retryable: boolean) {
@@ -74,4 +50,98 @@ export class ModelFailure extends Error {
     this.kind = kind;
     this.retryable = retryable;
   }
+}
+
+/** A class of this file: constructible, with its stable name. */
+export type ErrorClass = (abstract new (...args: never[]) => Error) & { readonly errorName: string };
+
+/** True when `error` is an instance of `cls`, or a copy of one that kept only its name. */
+export function isErrorOf<C extends ErrorClass>(error: unknown, cls: C): error is InstanceType<C> {
+  if (error instanceof cls) return true;
+  return typeof error === 'object' && error !== null && (error as { name?: unknown }).name === cls.errorName;
+}
+
+/** Errors that are the user's fault (exit code 2). */
+export const INPUT_ERRORS: readonly ErrorClass[] = [InputError, SweepMismatchError];
+
+export function isInputError(error: unknown): boolean {
+  return INPUT_ERRORS.some((cls) => isErrorOf(error, cls));
+}
+
+/** The parts of a zod issue this file reads (zod 4's issue type is wider). */
+export interface ZodIssueLike {
+  readonly code?: string;
+  readonly path: ReadonlyArray<PropertyKey>;
+  readonly message: string;
+  /** Present on `unrecognized_keys` issues. */
+  readonly keys?: readonly string[];
+}
+
+export interface IssueOptions {
+  /** Dotted path put in front of every issue path, e.g. `vary.tauZPre`. */
+  readonly prefix?: string;
+  /** Keys allowed at a (prefixed) path, listed when an unknown key is found there. */
+  readonly allowedAt?: (path: string) => readonly string[] | undefined;
+}
+
+/**
+ * The one translation of zod issues into field issues: dotted paths, an
+ * unknown key reported at its own path with the keys allowed there, and no
+ * issue twice (zod reports each failed check, and several checks of one
+ * field often share one message).
+ */
+export function issuesFromZod(issues: readonly ZodIssueLike[], options: IssueOptions | string = {}): FieldIssue[] {
+  const { prefix = '', allowedAt } = typeof options === 'string' ? { prefix: options } : options;
+  const out: FieldIssue[] = [];
+  for (const issue of issues) {
+    const base = [prefix, ...issue.path.map(String)].filter((p) => p !== '').join('.');
+    if (issue.code === 'unrecognized_keys' && issue.keys !== undefined) {
+      const allowed = allowedAt?.(base);
+      for (const key of issue.keys) {
+        out.push({
+          path: base === '' ? key : `${base}.${key}`,
+          message: `unknown field "${shorten(key)}"${allowed !== undefined ? `; allowed here: ${allowed.join(', ')}` : ''}`,
+        });
+      }
+      continue;
+    }
+    out.push({ path: base === '' ? '(root)' : base, message: issue.message });
+  }
+  return distinctIssues(out);
+}
+
+/** Issues without repeats (same path and message), in first-seen order. */
+export function distinctIssues(issues: readonly FieldIssue[]): FieldIssue[] {
+  const seen = new Set<string>();
+  return issues.filter((issue) => {
+    const id = `${issue.path}\u0000${issue.message}`;
+    if (seen.has(id)) return false;
+    seen.add(id);
+    return true;
+  });
+}
+
+/** Issues printed in full; the rest are counted. */
+export const SHOWN_ISSUES = 20;
+
+/** One line per issue, `  field: message`, for terminal output; past SHOWN_ISSUES only a count. */
+export function formatIssues(issues: readonly FieldIssue[]): string {
+  const shown = issues.slice(0, SHOWN_ISSUES);
+  const lines = shown.map((i) => `  ${i.path}: ${i.message}`);
+  if (issues.length > shown.length) lines.push(`  ... and ${issues.length - shown.length} more`);
+  return lines.join('\n');
+}
+
+/** An InputError whose message is a headline followed by one line per distinct issue. */
+export function invalidInput(headline: string, issues: readonly FieldIssue[]): InputError {
+  const distinct = distinctIssues(issues);
+  return new InputError(`${headline}:\n${formatIssues(distinct)}`, distinct);
+}
+
+/**
+ * A user-supplied name or value inside a message: quoted, and cut short when
+ * long, so a hostile file cannot make an error message megabytes long.
+ */
+export function shorten(text: string, max = 60): string {
+  return text.length <= max ? text : `${text.slice(0, max)}... (${text.length} characters)`;
 }

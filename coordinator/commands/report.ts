@@ -1,6 +1,7 @@
 import { isAbsolute, relative } from 'node:path';
 import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
+import { MAX_BINS, MIN_BINS } from '../../shared/sweep/bins.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { completedPercent } from '../completed-percent.js';
 import { buildReport } from '../summarize/build-report.js';
@@ -71,7 +72,7 @@ export function registerReport(program: Command): void {
     .option('--bins <n>', 'bins per axis for random, lhs and sobol sweeps (default: report.bins, else 8)')
     .action(
       action(async (dir: string, flags: ReportFlags) => {
-        const bins = flags.bins === undefined ? undefined : parseWholeNumber('--bins', flags.bins, 2, 200);
+        const bins = flags.bins === undefined ? undefined : parseWholeNumber('--bins', flags.bins, MIN_BINS, MAX_BINS);
         const formats = parseFormats(flags.format);
         const result = await buildReport({
           dir,

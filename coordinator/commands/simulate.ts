@@ -1,9 +1,10 @@
 import { readFile } from 'node:fs/promises';
 import type { Command } from 'commander';
 import { writeFileAtomic } from '../../shared/atomic-write.js';
-import { type FieldIssue, InputError, issuesFromZod } from '../../shared/errors.js';
+import { type FieldIssue, InputError, invalidInput, issuesFromZod } from '../../shared/errors.js';
 import type { TracePanel } from '../../shared/model.js';
 import { DEFAULT_MODEL_ID, requireModel } from '../../shared/models/registry.js';
+import { isParamName, unknownParamIssue } from '../../shared/param-names.js';
 import { MAX_SEED } from '../../shared/random.js';
 import { action } from '../cli-support.js';
 
@@ -107,16 +108,25 @@ export function registerSimulate(program: Command): void {
       action(async (options: SimulateOptions) => {
         const model = requireModel(options.model, '--model');
         const seed = parseSeed(options.seed);
-        const raw: Record<string, unknown> = options.params === undefined ? {} : await readParamsFile(options.params);
+        const fromFile = options.params === undefined ? {} : await readParamsFile(options.params);
+        // Names are checked against the model before any value is stored, and
+        // stored as own properties: `__proto__`, `constructor` and the like
+        // are unknown parameters, never a change of the object's prototype.
+        const raw: Record<string, unknown> = Object.create(null) as Record<string, unknown>;
+        const unknown: FieldIssue[] = [];
+        const put = (where: string, name: string, value: unknown): void => {
+          if (!isParamName(model, name)) unknown.push(unknownParamIssue(where, name, model));
+          else Object.defineProperty(raw, name, { value, enumerable: true, writable: true, configurable: true });
+        };
+        for (const name of Object.keys(fromFile)) put(`--params ${name}`, name, fromFile[name]);
         for (const assignment of options.set) {
           const [name, value] = parseAssignment(assignment);
-          raw[name] = value;
+          put(`--set ${name}`, name, value);
         }
-        const parsed = model.params.safeParse(raw);
+        if (unknown.length > 0) throw invalidInput(`invalid parameters for model ${model.id}`, unknown);
+        const parsed = model.params.safeParse({ ...raw });
         if (!parsed.success) {
-          const issues: FieldIssue[] = issuesFromZod(parsed.error.issues);
-          const lines = issues.map((i) => `  ${i.path}: ${i.message}`).join('\n');
-          throw new InputError(`invalid parameters for model ${model.id}:\n${lines}`, issues);
+          throw invalidInput(`invalid parameters for model ${model.id}`, issuesFromZod(parsed.error.issues));
         }
         const output = model.run(parsed.data, seed, options.trace === undefined ? {} : { trace: true });
         if (options.trace !== undefined) {

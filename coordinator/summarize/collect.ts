@@ -1,7 +1,8 @@
 import type { ParamInfo } from '../../shared/model.js';
 import type { FailureKind } from '../../shared/schemas/records.js';
-import { countJobs, iteratePoints } from '../../shared/sweep/expand.js';
+import { countJobs } from '../../shared/sweep/expand.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
+import { iteratePoints } from '../../shared/sweep/points.js';
 import { aggregateRecords } from './aggregate.js';
 import type { ShownMetric } from './cell-grid.js';
 import { GroupSummary, type MetricKind } from './group-summary.js';

@@ -1,5 +1,5 @@
-import { z } from 'zod';
 import { InputError } from '../../shared/errors.js';
+import { BINS_RULE, BinsSchema } from '../../shared/sweep/bins.js';
 
 export const REPORT_FORMATS = ['csv', 'md', 'svg', 'png', 'html'] as const;
 export type ReportFormat = (typeof REPORT_FORMATS)[number];
@@ -29,8 +29,6 @@ export interface ResolvedSettings {
   readonly bins: number;
   readonly formats: ReadonlySet<ReportFormat>;
 }
-
-const BinsSchema = z.number().int().min(2).max(200);
 
 function reject(option: string, message: string): never {
   throw new InputError(`${option}: ${message}`, [{ path: option, message }]);
@@ -81,8 +79,7 @@ export function resolveSettings(
   const facet = y === null ? null : pick('facet');
 
   const bins = choices.bins ?? fromSweep.bins ?? DEFAULT_BINS;
-  if (!BinsSchema.safeParse(bins).success)
-    reject('--bins', `must be a whole number from 2 to 200, got ${String(bins)}`);
+  if (!BinsSchema.safeParse(bins).success) reject('--bins', `must be ${BINS_RULE}, got ${String(bins)}`);
 
   const formats = new Set<ReportFormat>();
   for (const f of choices.formats ?? REPORT_FORMATS) {

@@ -1,5 +1,5 @@
+import { closestNames } from '../closest-names.js';
 import type { FieldIssue } from '../errors.js';
-import { closestNames } from '../sweep/issues.js';
 import { evaluateFormula, type FormulaScope } from './evaluate-formula.js';
 import { formulaOrder } from './formula-order.js';
 import { type FormulaNode, namesUsed } from './formula-tree.js';

@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { MetricsSchema } from '../model.js';
+import { SweepNameSchema } from '../sweep/name.js';
 
 /** 128-bit job key in lower-case hex (see shared/job-identity.ts). */
 export const JobKeySchema = z.string().regex(/^[0-9a-f]{32}$/, 'a job key is 32 lower-case hex digits');
@@ -69,11 +70,7 @@ export type FailureRecord = z.infer<typeof FailureRecordSchema>;
 export const JobPayloadSchema = z.object({
   v: z.literal(1),
   sweep: z.object({
-    name: z
-      .string()
-      .regex(/^[a-z0-9._-]+$/)
-      .max(100)
-      .refine((n) => !n.includes('..'), 'no ".." in a sweep name'),
+    name: SweepNameSchema,
     hash: z.string().regex(/^[0-9a-f]{64}$/),
   }),
   key: JobKeySchema,

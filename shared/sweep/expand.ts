@@ -1,10 +1,10 @@
 import { canonicalJson, sha256Hex } from '../canonical-json.js';
-import { formatIssues, InputError, issuesFromZod } from '../errors.js';
+import { invalidInput, issuesFromZod } from '../errors.js';
 import { jobSeed } from '../job-identity.js';
 import type { JobPayload, Point } from '../schemas/records.js';
 import { checkJobLimit } from './job-limit.js';
 import type { LoadedSweep } from './load.js';
-import { iterateSpecPoints } from './points.js';
+import { iteratePoints } from './points.js';
 
 export interface PlannedJob {
   readonly key: string;
@@ -13,16 +13,6 @@ export interface PlannedJob {
   readonly params: Readonly<Record<string, unknown>>;
   readonly replicate: number;
   readonly seed: number;
-}
-
-/** Every point, in the sampler's deterministic order (see iteratePoints for a lazy version). */
-export function expandPoints(sweep: LoadedSweep): Point[] {
-  return [...iterateSpecPoints(sweep.spec)];
-}
-
-/** Every point, lazily. */
-export function iteratePoints(sweep: LoadedSweep): Generator<Point> {
-  return iterateSpecPoints(sweep.spec);
 }
 
 export function countJobs(sweep: LoadedSweep): number {
@@ -34,10 +24,9 @@ export function fullParams(sweep: LoadedSweep, point: Point): Record<string, unk
   const parsed = sweep.model.params.safeParse({ ...sweep.spec.fixed, ...point });
   if (!parsed.success) {
     // Load validated every point; reaching this means the model changed under us.
-    const issues = issuesFromZod(parsed.error.issues, 'params');
-    throw new InputError(
-      `point ${JSON.stringify(point)} is not valid for model ${sweep.model.id}:\n${formatIssues(issues)}`,
-      issues,
+    throw invalidInput(
+      `point ${JSON.stringify(point)} is not valid for model ${sweep.model.id}`,
+      issuesFromZod(parsed.error.issues, 'params'),
     );
   }
   return parsed.data as Record<string, unknown>;
@@ -53,7 +42,7 @@ export function* expandJobs(sweep: LoadedSweep): Generator<PlannedJob> {
   // its sorted keys are in exactly this order, so the parameter text is built
   // once per point instead of once per replicate (tests check equality with jobKey).
   const head = `{"model":${JSON.stringify(model.id)},"modelVersion":${JSON.stringify(model.version)},"params":`;
-  for (const point of iterateSpecPoints(spec)) {
+  for (const point of iteratePoints(sweep)) {
     const params = fullParams(sweep, point);
     const prefix = `${head}${canonicalJson(params)},"replicate":`;
     for (let replicate = 0; replicate < spec.replicates; replicate++) {

@@ -1,13 +1,13 @@
 import { readFile } from 'node:fs/promises';
 import { parse as parseYaml } from 'yaml';
 import { z } from 'zod';
-import { type FieldIssue, formatIssues, InputError } from '../errors.js';
+import { type FieldIssue, InputError, invalidInput, issuesFromZod } from '../errors.js';
 import type { AnyModel } from '../model.js';
 import { findModel, listModels } from '../models/registry.js';
+import { paramNames, unknownParamIssue } from '../param-names.js';
 import { SWEEP_FORMAT, sweepHash } from './hash.js';
-import { closestNames, fieldIssues } from './issues.js';
 import { checkJobLimit } from './job-limit.js';
-import { iterateSpecPoints, requestedPointCount, variedNamesOf } from './points.js';
+import { iteratePoints, requestedPointCount, variedNamesOf } from './points.js';
 import { RANGE_SCHEMAS, type Range, type RangeKind, rangeKindOf } from './ranges.js';
 import { MAX_GRID_POINTS, SPEC_FIELD_ORDER, SweepFileSchema, type SweepSpec } from './schema.js';
 import { validatePoints } from './validate-points.js';
@@ -60,9 +60,7 @@ const TopLevelSchema = SweepFileSchema.extend({
 });
 
 function fail(source: string, issues: readonly FieldIssue[]): never {
-  const shown = issues.slice(0, 20);
-  const more = issues.length > shown.length ? `\n  ... and ${issues.length - shown.length} more` : '';
-  throw new InputError(`${source} is not a valid sweep file:\n${formatIssues(shown)}${more}`, issues);
+  throw invalidInput(`${source} is not a valid sweep file`, issues);
 }
 
 /** YAML or JSON, decided by trying to parse (JSON first, then YAML 1.2). */
@@ -135,29 +133,12 @@ function parseRanges(
     const parsed = RANGE_SCHEMAS[kind].safeParse(raw);
     if (!parsed.success) {
       const allowed = Object.keys(RANGE_SCHEMAS[kind].shape);
-      issues.push(...fieldIssues(parsed.error.issues, path, () => allowed));
+      issues.push(...issuesFromZod(parsed.error.issues, { prefix: path, allowedAt: () => allowed }));
       continue;
     }
     out[name] = parsed.data;
   }
   return out;
-}
-
-function paramNames(model: AnyModel): string[] {
-  return Object.keys((model.params as z.ZodObject).shape);
-}
-
-function unknownParamIssue(path: string, name: string, model: AnyModel): FieldIssue {
-  const known = paramNames(model);
-  const close = closestNames(name, known);
-  const hint =
-    close.length > 0
-      ? `did you mean ${close.join(' or ')}?`
-      : `known parameters: ${known.slice(0, 10).join(', ')}${known.length > 10 ? ', ...' : ''}`;
-  return {
-    path,
-    message: `unknown parameter "${name}" of model ${model.id}; ${known.length === 0 ? 'this model takes no parameters' : hint}`,
-  };
 }
 
 /** Put the spec's fields in canonical order (sweep.json is written like this). */
@@ -171,7 +152,7 @@ function orderSpec(spec: SweepSpec): SweepSpec {
 export function buildSweep(raw: unknown, source: string, options: ParseOptions = {}): LoadedSweep {
   const issues: FieldIssue[] = [];
   const top = TopLevelSchema.safeParse(raw);
-  if (!top.success) issues.push(...fieldIssues(top.error.issues, '', (p) => ALLOWED_KEYS[p]));
+  if (!top.success) issues.push(...issuesFromZod(top.error.issues, { allowedAt: (p) => ALLOWED_KEYS[p] }));
   const rawObject = raw as Record<string, unknown>;
   const samplerKind = top.success
     ? top.data.sampler.kind
@@ -250,7 +231,7 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
   }
 
   // Every point merged with the model defaults and `fixed`, through the model's schema.
-  const checked = validatePoints(spec, model, iterateSpecPoints(spec));
+  const checked = validatePoints(spec, model, iteratePoints({ spec }));
   if (checked.issues.length > 0) fail(source, checked.issues);
   if (options.jobLimit !== undefined) checkJobLimit(checked.pointCount * spec.replicates, options.jobLimit);
 
@@ -307,10 +288,9 @@ export async function loadSweepFile(path: string, options: ParseOptions = {}): P
 export function sweepFromStored(json: unknown, where = 'sweep.json'): LoadedSweep {
   const stored = StoredSweepSchema.safeParse(json);
   if (!stored.success) {
-    const issues = fieldIssues(stored.error.issues, '', () => undefined);
-    throw new InputError(
-      `${where} is not a recallscape sweep record (format ${SWEEP_FORMAT}):\n${formatIssues(issues)}`,
-      issues,
+    throw invalidInput(
+      `${where} is not a recallscape sweep record (format ${SWEEP_FORMAT})`,
+      issuesFromZod(stored.error.issues),
     );
   }
   const loaded = buildSweep(stored.data.sweep, where);

@@ -27,7 +27,8 @@ export function requestedPointCount(spec: SweepSpec): number {
  * varied parameter is discrete) are dropped, because equal points would be
  * equal jobs; the first occurrence keeps its place.
  */
-export function* iterateSpecPoints(spec: SweepSpec): Generator<Point> {
+export function* iteratePoints(sweep: { readonly spec: SweepSpec }): Generator<Point> {
+  const { spec } = sweep;
   const names = variedNamesOf(spec);
   const ranges = names.map((n) => spec.vary[n]!);
   if (spec.sampler.kind === 'grid') {

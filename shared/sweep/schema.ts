@@ -1,5 +1,7 @@
 import { z } from 'zod';
 import { DEFAULT_MODEL_ID } from '../models/registry.js';
+import { BinsSchema } from './bins.js';
+import { SweepNameSchema } from './name.js';
 import { RangeSchema } from './ranges.js';
 
 export * from './ranges.js';
@@ -8,17 +10,6 @@ export * from './ranges.js';
 export const MAX_REPLICATES = 100_000;
 export const MAX_SAMPLED_POINTS = 1_000_000;
 export const MAX_GRID_POINTS = 5_000_000;
-
-export const SWEEP_NAME_RULE =
-  'use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit, with no "/" and no ".."';
-
-export const SweepNameSchema = z
-  .string({ error: `a sweep name is a string; ${SWEEP_NAME_RULE}` })
-  .min(1, SWEEP_NAME_RULE)
-  .max(100, SWEEP_NAME_RULE)
-  .regex(/^[a-z0-9][a-z0-9._-]*$/, SWEEP_NAME_RULE)
-  .refine((n) => !n.includes('..'), SWEEP_NAME_RULE)
-  .describe('Folder name under the results root');
 
 const PointsSchema = z
   .number({ error: `the random, lhs and sobol samplers need points: a whole number from 1 to ${MAX_SAMPLED_POINTS}` })
@@ -64,13 +55,7 @@ export const ReportSchema = z
       .regex(/^[A-Za-z_][A-Za-z0-9_]*$/, 'a metric name is a plain identifier such as success')
       .optional()
       .describe('Metric to show (default success)'),
-    bins: z
-      .number()
-      .int('bins must be a whole number')
-      .min(2, 'bins must be at least 2')
-      .max(200, 'bins must be at most 200')
-      .optional()
-      .describe('Bins per axis for sampled (non-grid) sweeps'),
+    bins: BinsSchema.optional().describe('Bins per axis for sampled (non-grid) sweeps'),
   })
   .strict();
 export type ReportSpec = z.output<typeof ReportSchema>;

@@ -2,8 +2,9 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { InputError } from '../../shared/errors.js';
 import { jobKey, jobSeed } from '../../shared/job-identity.js';
-import { countJobs, expandJobs, expandPoints } from '../../shared/sweep/expand.js';
+import { countJobs, expandJobs } from '../../shared/sweep/expand.js';
 import { loadSweepFile, parseSweepText } from '../../shared/sweep/load.js';
+import { iteratePoints } from '../../shared/sweep/points.js';
 
 function rejection(text: string): InputError {
   try {
@@ -44,7 +45,7 @@ describe('sweeps of the bcpnn-sequences model', () => {
   it('validates the random-search example with 128 distinct Sobol points', async () => {
     const sweep = await loadSweepFile(join(process.cwd(), 'examples', 'random-search.yaml'));
     expect(sweep.spec.sampler).toEqual({ kind: 'sobol', points: 128 });
-    const points = expandPoints(sweep);
+    const points = [...iteratePoints(sweep)];
     expect(points).toHaveLength(128);
     // Sobol starts at the zero point: every range at its low end.
     expect(points[0]).toEqual({ patternOverlap: 0, tauZPre: 20, adaptGain: 0.5, overlapLength: 1 });

@@ -1,9 +1,9 @@
 import { describe, expect, it } from 'vitest';
 import { jobKey, jobSeed } from '../../shared/job-identity.js';
 import { JobPayloadSchema } from '../../shared/schemas/records.js';
-import { assertJobLimit, countJobs, expandJobs, expandPoints, toPayload } from '../../shared/sweep/expand.js';
+import { assertJobLimit, countJobs, expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
-import { iterateSpecPoints } from '../../shared/sweep/points.js';
+import { iteratePoints } from '../../shared/sweep/points.js';
 import { SweepFileSchema } from '../../shared/sweep/schema.js';
 
 describe('grid expansion', () => {
@@ -12,12 +12,12 @@ describe('grid expansion', () => {
       'name: g\nmodel: cpu-burn\nfixed: { burnMs: 0 }\nvary:\n  successRate: { list: [0.2, 0.8] }\n',
       'g.yaml',
     );
-    expect(expandPoints(sweep)).toEqual([{ successRate: 0.2 }, { successRate: 0.8 }]);
+    expect([...iteratePoints(sweep)]).toEqual([{ successRate: 0.2 }, { successRate: 0.8 }]);
     const two = parseSweepText(
       'name: g\nmodel: cpu-burn\nvary:\n  burnMs: { list: [5, 1, 3] }\n  successRate: { from: 0, to: 1, steps: 3 }\n',
       'g.yaml',
     );
-    expect(expandPoints(two)).toEqual([
+    expect([...iteratePoints(two)]).toEqual([
       { burnMs: 5, successRate: 0 },
       { burnMs: 5, successRate: 0.5 },
       { burnMs: 5, successRate: 1 },
@@ -34,7 +34,9 @@ describe('grid expansion', () => {
   it('spaces a linear grid evenly with clean decimals and both ends included', () => {
     const sweep = parseSweepText('name: g\nmodel: no-op\nvary:\n  value: { from: 0, to: 1, steps: 11 }\n', 'g.yaml');
     // Worked by hand: 0, 0.1, ..., 1 (common practice, no source).
-    expect(expandPoints(sweep).map((p) => p['value'])).toEqual([0, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1]);
+    expect([...iteratePoints(sweep)].map((p) => p['value'])).toEqual([
+      0, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1,
+    ]);
   });
 
   it('spaces a log grid evenly in the logarithm', () => {
@@ -43,13 +45,13 @@ describe('grid expansion', () => {
       'g.yaml',
     );
     // Decades 1, 10, 100, 1000 (common practice, no source).
-    expect(expandPoints(sweep).map((p) => p['value'])).toEqual([1, 10, 100, 1000]);
+    expect([...iteratePoints(sweep)].map((p) => p['value'])).toEqual([1, 10, 100, 1000]);
     const halves = parseSweepText(
       'name: g\nmodel: no-op\nvary:\n  value: { from: 20, to: 320, steps: 5, scale: log }\n',
       'g.yaml',
     );
     // Doublings 20, 40, 80, 160, 320 (worked by hand).
-    expect(expandPoints(halves).map((p) => p['value'])).toEqual([20, 40, 80, 160, 320]);
+    expect([...iteratePoints(halves)].map((p) => p['value'])).toEqual([20, 40, 80, 160, 320]);
   });
 
   it('takes lists of strings and booleans as grid values', () => {
@@ -58,7 +60,7 @@ describe('grid expansion', () => {
       name: 'g',
       vary: { mode: { list: ['fast', 'slow'] }, plastic: { list: [true, false] } },
     });
-    expect([...iterateSpecPoints(spec)]).toEqual([
+    expect([...iteratePoints({ spec })]).toEqual([
       { mode: 'fast', plastic: true },
       { mode: 'fast', plastic: false },
       { mode: 'slow', plastic: true },
@@ -68,7 +70,7 @@ describe('grid expansion', () => {
 
   it('is a single empty point when nothing varies', () => {
     const sweep = parseSweepText('name: g\nmodel: no-op\nreplicates: 3\n', 'g.yaml');
-    expect(expandPoints(sweep)).toEqual([{}]);
+    expect([...iteratePoints(sweep)]).toEqual([{}]);
     expect(countJobs(sweep)).toBe(3);
   });
 });
@@ -158,16 +160,16 @@ describe('sampled expansion', () => {
       'name: s\nmodel: no-op\nsampler: { kind: sobol, points: 8 }\nvary:\n  value: { among: [10, 20, 30, 40] }\n',
       's.yaml',
     );
-    expect(expandPoints(sweep).map((p) => p['value'])).toEqual([10, 30, 40, 20]);
+    expect([...iteratePoints(sweep)].map((p) => p['value'])).toEqual([10, 30, 40, 20]);
     expect(sweep.pointCount).toBe(4);
   });
 
   it('gives the same lhs points for the same seed and other points for another seed', () => {
     const text = (seed: number): string =>
       `name: s\nmodel: cpu-burn\nseed: ${seed}\nsampler: { kind: lhs, points: 16 }\nvary:\n  successRate: { between: [0, 1] }\n  burnMs: { between: [1, 50], integer: true }\n`;
-    const a = expandPoints(parseSweepText(text(1), 'a.yaml'));
-    expect(expandPoints(parseSweepText(text(1), 'b.yaml'))).toEqual(a);
-    expect(expandPoints(parseSweepText(text(2), 'a.yaml'))).not.toEqual(a);
+    const a = [...iteratePoints(parseSweepText(text(1), 'a.yaml'))];
+    expect([...iteratePoints(parseSweepText(text(1), 'b.yaml'))]).toEqual(a);
+    expect([...iteratePoints(parseSweepText(text(2), 'a.yaml'))]).not.toEqual(a);
     // One point per sixteenth of [0, 1] (McKay, Beckman & Conover 1979).
     expect(a.map((p) => Math.floor((p['successRate'] as number) * 16)).sort((x, y) => x - y)).toEqual(
       Array.from({ length: 16 }, (_, k) => k),

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { expandPoints } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { iteratePoints } from '../../shared/sweep/points.js';
 
 /** One-sample Kolmogorov-Smirnov statistic of `values` against the CDF `cdf`. */
 function ksStatistic(values: readonly number[], cdf: (x: number) => number): number {
@@ -23,7 +23,7 @@ function draws(range: string, seed = 17): number[] {
     `name: r\nmodel: no-op\nseed: ${seed}\nsampler: { kind: random, points: ${N} }\nvary:\n  value: ${range}\n`,
     'r.yaml',
   );
-  return expandPoints(sweep).map((p) => p['value'] as number);
+  return [...iteratePoints(sweep)].map((p) => p['value'] as number);
 }
 
 describe('random sampler distribution', () => {
@@ -54,7 +54,7 @@ describe('random sampler distribution', () => {
       'r.yaml',
     );
     const counts = new Map<number, number>();
-    for (const p of expandPoints(sweep))
+    for (const p of iteratePoints(sweep))
       counts.set(p['burnMs'] as number, (counts.get(p['burnMs'] as number) ?? 0) + 1);
     expect([...counts.keys()].sort((a, b) => a - b)).toEqual([3, 4, 5, 6, 7, 8, 9]);
     const expected = N / 7;

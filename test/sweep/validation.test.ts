@@ -208,6 +208,20 @@ describe('sweep file validation', () => {
     );
   });
 
+  it('reports each problem once, even when several checks of one field fail with the same message', () => {
+    const cases: Array<[string, string]> = [
+      ['name: s\nmodel: bcpnn-sequences\nseed: 1e300\n', 'seed'],
+      ['name: ../evil\nmodel: bcpnn-sequences\n', 'name'],
+      ['name: s\nmodel: bcpnn-sequences\nfixed: { hypercolumns: 1e300 }\n', 'fixed.hypercolumns'],
+    ];
+    for (const [text, path] of cases) {
+      const error = rejection(text);
+      expect(error.issues.filter((i) => i.path === path)).toHaveLength(1);
+      const lines = error.message.split('\n').filter((line) => line.startsWith(`  ${path}:`));
+      expect(lines).toHaveLength(1);
+    }
+  });
+
   describe('files on disk', () => {
     let dir = '';
     beforeAll(async () => {
