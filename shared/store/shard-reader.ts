@@ -29,39 +29,80 @@ export async function listShards(folder: string): Promise<string[]> {
     .map((n) => join(folder, n));
 }
 
+/**
+ * Longest line a reader keeps. A record is a few kilobytes; a longer line is
+ * damage or an attack, and holding it would cost memory without limit (and
+ * fail outright past the longest string the runtime can build).
+ */
+export const MAX_LINE_BYTES = 16 * 1024 * 1024;
+
 export interface RawLine {
-  readonly text: string;
+  /** The line without its newline, or null when it was longer than the limit (skipped unread). */
+  readonly text: string | null;
   readonly line: number;
+  /** Byte offset of the line's first byte in the file. */
+  readonly offset: number;
+  /** Length in bytes, newline excluded. */
+  readonly bytes: number;
   /** False only for a last line with no newline after it (a write cut short). */
   readonly terminated: boolean;
 }
 
 /**
- * Lines of a file, streamed in large chunks (constant memory whatever the file
- * size). Knows whether the last line ended with a newline, which is how a
- * torn write is told apart from a bad line in the middle.
+ * Lines of a file, streamed in large chunks: memory stays at one chunk plus
+ * at most `maxLineBytes` whatever the file holds. Knows whether the last line
+ * ended with a newline, which is how a torn write is told apart from a bad
+ * line in the middle. A line longer than `maxLineBytes` is passed over and
+ * reported with `text: null`.
  */
-export async function* readLines(file: string): AsyncGenerator<RawLine> {
+export async function* readLines(file: string, maxLineBytes = MAX_LINE_BYTES): AsyncGenerator<RawLine> {
   let pending: Buffer[] = [];
+  let pendingBytes = 0;
+  // True once the current line has outgrown the limit: its bytes are counted, not kept.
+  let skipping = false;
   let line = 0;
+  let offset = 0;
+  let lineStart = 0;
+  const finish = (end: number, terminated: boolean): RawLine => {
+    line++;
+    const bytes = end - lineStart;
+    const text = skipping
+      ? null
+      : pending.length === 1
+        ? pending[0]!.toString('utf8')
+        : Buffer.concat(pending, pendingBytes).toString('utf8');
+    const raw: RawLine = { text, line, offset: lineStart, bytes, terminated };
+    pending = [];
+    pendingBytes = 0;
+    skipping = false;
+    return raw;
+  };
+  const keep = (piece: Buffer, copy: boolean): void => {
+    if (skipping || piece.length === 0) return;
+    if (pendingBytes + piece.length > maxLineBytes) {
+      pending = [];
+      pendingBytes = 0;
+      skipping = true;
+      return;
+    }
+    pending.push(copy ? Buffer.from(piece) : piece);
+    pendingBytes += piece.length;
+  };
   for await (const chunk of createReadStream(file, { highWaterMark: 1 << 20 }) as AsyncIterable<Buffer>) {
     let start = 0;
     for (;;) {
       const nl = chunk.indexOf(10, start);
       if (nl === -1) break;
-      line++;
-      const piece = chunk.subarray(start, nl);
-      const text = pending.length === 0 ? piece.toString('utf8') : Buffer.concat([...pending, piece]).toString('utf8');
-      pending = [];
-      yield { text, line, terminated: true };
+      keep(chunk.subarray(start, nl), false);
+      yield finish(offset + nl, true);
       start = nl + 1;
+      lineStart = offset + start;
     }
-    if (start < chunk.length) pending.push(chunk.subarray(start));
+    // A short tail is copied: a view would pin its whole 1 MiB chunk while the line goes on.
+    if (start < chunk.length) keep(chunk.subarray(start), start > 0);
+    offset += chunk.length;
   }
-  if (pending.length > 0) {
-    line++;
-    yield { text: Buffer.concat(pending).toString('utf8'), line, terminated: false };
-  }
+  if (offset > lineStart) yield finish(offset, false);
 }
 
 export interface ScannedRecord<T> {
@@ -88,6 +129,16 @@ export async function* scanShards<S extends z.ZodType<{ sweepHash: string }>>(
     let firstForeign = 0;
     let foreignHash = '';
     for await (const raw of readLines(file)) {
+      if (raw.text === null) {
+        const where = `${file}:${raw.line} (byte offset ${raw.offset})`;
+        warn({
+          kind: raw.terminated ? 'bad-line' : 'torn-line',
+          file,
+          line: raw.line,
+          message: `${where}: a line of ${raw.bytes} bytes, longer than the ${MAX_LINE_BYTES} a record may have; skipped unread`,
+        });
+        continue;
+      }
       if (raw.text.trim() === '') continue;
       let value: unknown;
       let valid = false;
