@@ -19,11 +19,18 @@ import { Z_95 } from './wilson.js';
  *      (three coefficients need more than a couple of points);
  *   3. every trial within reach had the same outcome: local constant (the
  *      local logistic likelihood has no finite maximum);
- *   4. the points within reach are (nearly) on one line: local constant;
- *   5. Newton's method does not converge within MAX_NEWTON_ITERATIONS or the
- *      fitted logit passes +-MAX_ABS_LOGIT (separation: successes and failures
- *      split by a line, so the maximum is at infinity): local constant.
+ *   4. the points within reach are (nearly) on one line, so the local design
+ *      [1, dx, dy] weighted by w n has no full rank: local constant;
+ *   5. the local logistic likelihood has no finite maximum (successes and
+ *      failures within reach split by a line): seen as Newton's method not
+ *      converging within MAX_NEWTON_ITERATIONS, the fitted logit at q passing
+ *      +-MAX_ABS_LOGIT, the information matrix turning singular, or no step
+ *      that raises the likelihood: local constant.
  * "Effective points" is Kish's (sum w)^2 / sum w^2 over the points in reach.
+ *
+ * Intervals: local linear, logit(p) +- 1.96 se on the logit scale with the
+ * sandwich standard error, mapped back with expit; local constant, the
+ * Wilson score interval at Kish's effective number of trials.
  */
 
 /** Below this many effective points there is no estimate at all. */
@@ -33,8 +40,12 @@ export const MIN_EFFECTIVE_POINTS_LINEAR = 6;
 export const MAX_NEWTON_ITERATIONS = 50;
 /** |logit| beyond this (p outside [1.4e-11, 1 - 1.4e-11]) is taken as a fit running off to infinity. */
 export const MAX_ABS_LOGIT = 25;
-/** Newton stops when no fitted logit in the window moves by more than this. */
-const STEP_TOLERANCE = 1e-10;
+/**
+ * Newton stops when no fitted logit in the window moves by more than this.
+ * The step is still applied, and quadratic convergence leaves an error of
+ * the order of its square.
+ */
+const STEP_TOLERANCE = 1e-7;
 /** A design column explained by the others up to this fraction of its weight counts as collinear. */
 const COLLINEAR = 1e-10;
 const MAX_HALVINGS = 30;
@@ -372,7 +383,7 @@ export function fitLocal(
     // that does not depend on the bandwidth the slopes are measured in.
     const size = Math.abs(d0) + Math.abs(d1) * t.maxU + Math.abs(d2) * t.maxV;
     if (size < STEP_TOLERANCE) {
-      // J and K at b differ from those at b + d by O(1e-10): good enough for an interval.
+      // J and K at b differ from those at b + d by O(1e-7) relative: good enough for an interval.
       let factor: number[] | null = l;
       if (!hasK) {
         newtonPass(win, b0, b1, b2, true);

@@ -198,7 +198,9 @@ def values():
 
 if __name__ == "__main__":
     if sys.argv[1:] == ["points"]:
-        json.dump(make_points(), open(POINTS, "w"), indent=0)
+        with open(POINTS, "w") as f:
+            json.dump(make_points(), f, indent=2)
+            f.write("\n")
     elif sys.argv[1:] == ["values"]:
         values()
     else:
