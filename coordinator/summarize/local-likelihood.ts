@@ -21,11 +21,12 @@ import { Z_95 } from './wilson.js';
  *      local logistic likelihood has no finite maximum);
  *   4. the points within reach are (nearly) on one line, so the local design
  *      [1, dx, dy] weighted by w n has no full rank: local constant;
- *   5. the local logistic likelihood has no finite maximum (successes and
- *      failures within reach split by a line): seen as Newton's method not
- *      converging within MAX_NEWTON_ITERATIONS, the fitted logit at q passing
- *      +-MAX_ABS_LOGIT, the information matrix turning singular, or no step
- *      that raises the likelihood: local constant.
+ *   5. (near) separation: successes and failures within reach split by a
+ *      line, so the local logistic likelihood has no finite maximum or one
+ *      far out. Seen as the fitted logit at q passing +-MAX_ABS_LOGIT,
+ *      Newton's method not converging within MAX_NEWTON_ITERATIONS, the
+ *      information matrix turning singular, or no step that raises the
+ *      likelihood: local constant.
  * "Effective points" is Kish's (sum w)^2 / sum w^2 over the points in reach.
  *
  * Intervals: local linear, logit(p) +- 1.96 se on the logit scale with the
@@ -38,8 +39,14 @@ export const MIN_EFFECTIVE_POINTS = 2;
 /** Below this many effective points the local logistic fit is not tried. */
 export const MIN_EFFECTIVE_POINTS_LINEAR = 6;
 export const MAX_NEWTON_ITERATIONS = 50;
-/** |logit| beyond this (p outside [1.4e-11, 1 - 1.4e-11]) is taken as a fit running off to infinity. */
-export const MAX_ABS_LOGIT = 25;
+/**
+ * A local fit whose logit at the query passes +-10 (p outside [4.5e-5,
+ * 1 - 4.5e-5]) is taken as (near) separation: running off to infinity, or
+ * finite but resting on a handful of points and wildly overconfident. Such
+ * fits would otherwise dominate the cross-validated likelihood with single
+ * terms of -20 to -90 and make the bandwidth choice erratic.
+ */
+export const MAX_ABS_LOGIT = 10;
 /**
  * Newton stops when no fitted logit in the window moves by more than this.
  * The step is still applied, and quadratic convergence leaves an error of

@@ -33,7 +33,7 @@ POINTS = os.path.join(HERE, "local-likelihood-points.json")
 REACH = 4.0  # kernel cut off at 4 bandwidths
 MIN_EFFECTIVE_POINTS = 2.0
 MIN_EFFECTIVE_POINTS_LINEAR = 6.0
-MAX_ABS_LOGIT = 25.0
+MAX_ABS_LOGIT = 10.0
 GRID = [10 ** (-(17 - i) / 10) for i in range(18)]
 Z = norm.ppf(0.975)
 
@@ -59,7 +59,12 @@ def make_points():
         x, y = float(rng.uniform()), float(rng.uniform())
         n = int(rng.integers(2, 5))
         split.append({"x": round(x, 6), "y": round(y, 6), "trials": n, "successes": n if x < 0.5 else 0})
-    return {"smooth": smooth, "split": split}
+    steep = []
+    for _ in range(40):
+        x, y = float(rng.uniform()), float(rng.uniform())
+        p = expit(30.0 * (y - 0.5))
+        steep.append({"x": round(x, 6), "y": round(y, 6), "trials": 3, "successes": int(rng.binomial(3, p))})
+    return {"smooth": smooth, "split": split, "steep": steep}
 
 
 def pooled(points):
@@ -136,7 +141,7 @@ def fit(data, h, qx, qy, exclude=-1):
         return out
     if not res.converged or abs(res.params[0]) > MAX_ABS_LOGIT:
         out = constant("separation")
-        out["statsmodels"] = "not converged" if not res.converged else "|b0| > 25"
+        out["statsmodels"] = "not converged" if not res.converged else "|b0| > 10"
         return out
     b = res.params
     j = -model.hessian(b, observed=False)
@@ -166,6 +171,7 @@ def loo(data, h):
     return {"bandwidth": h, "logLikelihood": total, "localLinear": linear}
 
 
+STEEP_QUERIES = [(0.5, 0.5), (0.5, 0.97), (0.5, 0.03), (0.3, 0.6), (0.7, 0.42)]
 QUERIES = [(0.5, 0.5), (0.1, 0.2), (0.9, 0.8), (0.3, 0.45), (0.75, 0.5), (0.02, 0.97), (0.98, 0.03), (0.6, 0.3)]
 
 
@@ -173,12 +179,14 @@ def values():
     pts = json.load(open(POINTS))
     smooth = pooled(pts["smooth"])
     split = pooled(pts["split"])
+    steep = pooled(pts["steep"])
     out = {
         "source": f"statsmodels {statsmodels.__version__}, SciPy {scipy.__version__}, NumPy {np.__version__}",
         "grid": GRID,
         "smoothAt025": [dict(q=q, **fit(smooth, 0.25, *q)) for q in QUERIES],
         "smoothAt008": [dict(q=q, **fit(smooth, 0.08, *q)) for q in QUERIES],
         "splitAt015": [dict(q=q, **fit(split, 0.15, *q)) for q in QUERIES],
+        "steepAt03": [dict(q=q, **fit(steep, 0.3, *q)) for q in STEEP_QUERIES],
         "curve": [loo(smooth, h) for h in GRID],
     }
     # With a huge bandwidth every weight is 1 to within 1e-12: the estimate is

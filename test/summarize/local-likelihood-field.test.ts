@@ -190,10 +190,14 @@ describe('smoothSuccessField estimates', () => {
     expect(sd / rmsSe).toBeLessThan(1.15);
   });
 
-  it('uses the local logistic fit everywhere on well-spread points', () => {
+  it('uses the local logistic fit wherever the true probability is between 1% and 99%', () => {
+    // Falling back is for (nearly) separated data, which only the saturated corners come close to.
     expect(field.ok).toBe(true);
     if (!field.ok) return;
-    expect(field.estimates.every((e) => e.ok && e.method === 'local-linear')).toBe(true);
+    field.estimates.forEach((e, cell) => {
+      const p = truth(((cell % nx) + 0.5) / nx, (Math.floor(cell / nx) + 0.5) / ny);
+      if (p > 0.01 && p < 0.99) expect(e.ok && e.method, `cell ${cell}`).toBe('local-linear');
+    });
   });
 
   it('gives the same field whether replicates are listed one by one or pooled', () => {

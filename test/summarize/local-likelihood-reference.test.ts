@@ -18,9 +18,10 @@ const TOLERANCE = 1e-6;
 
 const fixture = JSON.parse(
   readFileSync(new URL('../reference/local-likelihood-points.json', import.meta.url), 'utf8'),
-) as { smooth: BinomialPoint[]; split: BinomialPoint[] };
+) as { smooth: BinomialPoint[]; split: BinomialPoint[]; steep: BinomialPoint[] };
 const smooth = prepareSmoothingData(fixture.smooth);
 const split = prepareSmoothingData(fixture.split);
+const steep = prepareSmoothingData(fixture.steep);
 
 interface Expected {
   readonly q: readonly [number, number];
@@ -326,6 +327,72 @@ const SPLIT_AT_015: readonly Expected[] = [
   },
 ];
 
+// "steep" points (p = expit(30 (y - 0.5)), 3 trials each), bandwidth 0.3. Where the
+// reference says 'separation' here, statsmodels' fit converged but its logit at q
+// passed +-10, so both fall back to local constant.
+const STEEP_AT_03: readonly Expected[] = [
+  {
+    q: [0.5, 0.5],
+    method: 'local-linear',
+    fallback: null,
+    p: 0.6599997027616613,
+    lo: 0.3561768161477533,
+    hi: 0.8719802954346053,
+    logit: 0.6632928928190177,
+    seLogit: 0.6404657176196227,
+    effectivePoints: 33.86796971703135,
+    effectiveTrials: 101.60390915109403,
+  },
+  {
+    q: [0.5, 0.97],
+    method: 'local-constant',
+    fallback: 'separation',
+    p: 0.9126189328257677,
+    lo: 0.8138765229175048,
+    hi: 0.9614572171773689,
+    logit: 2.346039777831835,
+    seLogit: 0.4583765409387481,
+    effectivePoints: 19.894231199298996,
+    effectiveTrials: 59.682693597896964,
+  },
+  {
+    q: [0.5, 0.03],
+    method: 'local-constant',
+    fallback: 'separation',
+    p: 0.13578123147314416,
+    lo: 0.07264026699494973,
+    hi: 0.23962441475017715,
+    logit: -1.8507809426133361,
+    seLogit: 0.3623419096211625,
+    effectivePoints: 21.636059675846248,
+    effectiveTrials: 64.90817902753872,
+  },
+  {
+    q: [0.3, 0.6],
+    method: 'local-linear',
+    fallback: null,
+    p: 0.8624235863625215,
+    lo: 0.4945618195592112,
+    hi: 0.9757049517167994,
+    logit: 1.835567051170871,
+    seLogit: 0.9476299796286732,
+    effectivePoints: 29.13436223482366,
+    effectiveTrials: 87.40308670447102,
+  },
+  {
+    q: [0.7, 0.42],
+    method: 'local-linear',
+    fallback: null,
+    p: 0.22810644708007555,
+    lo: 0.03546979734390035,
+    hi: 0.7036815242107431,
+    logit: -1.2190342625377364,
+    seLogit: 1.0632467457317292,
+    effectivePoints: 30.486738796360825,
+    effectiveTrials: 91.4602163890825,
+  },
+];
+
 // Plain (unweighted) logistic regression of the "smooth" points on x and y with statsmodels:
 // the linear predictor at q and its usual standard error sqrt(x_q^T cov x_q).
 const GLOBAL_FIT = [
@@ -420,6 +487,11 @@ describe('local likelihood estimate against statsmodels', () => {
   it('falls back to local constant where successes and failures are split by a line, and gives no estimate where too few points are near', () => {
     check(split, 0.15, SPLIT_AT_015);
     expect(SPLIT_AT_015.filter((e) => e.fallback === 'separation').length).toBe(4);
+  });
+
+  it('falls back to local constant where a converged local fit puts the logit beyond +-10', () => {
+    check(steep, 0.3, STEEP_AT_03);
+    expect(STEEP_AT_03.filter((e) => e.fallback === 'separation').length).toBe(2);
   });
 
   it('equals plain logistic regression when the bandwidth is so wide that every weight is 1', () => {
