@@ -57,7 +57,7 @@ export function progressLine(progress: RunProgress, elapsedSeconds: number): str
   const percent = f.toRun === 0 ? 100 : Math.floor((100 * f.finished) / f.toRun);
   return (
     `progress: ${f.finished}/${f.toRun} jobs (${percent}%), ${formatRate(f.rate)} jobs/s, ` +
-    `elapsed ${formatDuration(elapsedSeconds)}, left ~${f.eta}, failed ${progress.failed}`
+    `elapsed ${formatDuration(elapsedSeconds)}, left ~${f.eta}, errors ${progress.failed}`
   );
 }
 
@@ -98,7 +98,7 @@ function lineDisplay(
 function barDisplay(stream: NodeJS.WritableStream, started: number, now: () => number): ProgressDisplay {
   const bar = new cliProgress.SingleBar({
     stream,
-    format: 'jobs [{bar}] {percentage}% {value}/{total} | {rate} jobs/s | left ~{left} | failed {failed}',
+    format: 'jobs [{bar}] {percentage}% {value}/{total} | {rate} jobs/s | left ~{left} | errors {failed}',
     barCompleteChar: '#',
     barIncompleteChar: '.',
     hideCursor: true,

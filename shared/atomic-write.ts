@@ -10,12 +10,13 @@ export interface AtomicWriteOptions {
 /**
  * Write a file so readers see the old content or the new, never half of it:
  * write a hidden temporary file in the same folder, then rename it over the
- * target. On any failure the temporary file is removed and the error is
+ * target. Async iterables are streamed, so a large table never sits in
+ * memory whole. On any failure the temporary file is removed and the error is
  * rethrown unchanged.
  */
 export async function writeFileAtomic(
   path: string,
-  data: string | Uint8Array,
+  data: string | Uint8Array | AsyncIterable<string>,
   options: AtomicWriteOptions = {},
 ): Promise<void> {
   const dir = dirname(path);

@@ -16,6 +16,12 @@ export interface ParamInfo {
   readonly description: string;
 }
 
+/** Where a traced pattern is stored: sequence and position, both counted from 0 (position 0 is the cue). */
+export interface TraceMember {
+  readonly sequence: number;
+  readonly position: number;
+}
+
 /**
  * A time course recorded during one trial, e.g. the match of every stored
  * pattern during one recall. `values` is row-major: steps x series.
@@ -27,6 +33,11 @@ export interface TracePanel {
   /** Number of recorded rows. */
   readonly steps: number;
   readonly seriesLabels: readonly string[];
+  /**
+   * Per series, where its pattern is stored; more than one place for a
+   * pattern several sequences share. Lets a plot group lines by sequence.
+   */
+  readonly seriesMembers?: readonly (readonly TraceMember[])[];
   /** Rows before this time (ms) are the cue window, drawn shaded. */
   readonly markEndMs: number;
   readonly values: Float64Array;
@@ -45,7 +56,11 @@ export interface AsyncRunOptions extends RunOptions {
   readonly timeoutMs?: number;
 }
 
-/** Type and meaning of a metric, for reports and docs. */
+/**
+ * Type and meaning of a metric, for reports and docs. The description says
+ * what the metric measures in the model's own terms (for `success`: what
+ * counts as a successful trial); the unit is for people ("ms", "positions").
+ */
 export interface MetricInfo {
   readonly type: 'boolean' | 'number' | 'integer' | 'numbers';
   readonly description: string;

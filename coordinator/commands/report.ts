@@ -1,11 +1,11 @@
-import { isAbsolute, relative } from 'node:path';
 import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { MAX_BINS, MIN_BINS } from '../../shared/sweep/bins.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { completedPercent } from '../completed-percent.js';
+import { displayPath } from '../shell-text.js';
 import { buildReport } from '../summarize/build-report.js';
-import { REPORT_FORMATS, type ReportFormat } from '../summarize/report-settings.js';
+import { DEFAULT_PNG_SCALE, PNG_SCALE_RANGE, REPORT_FORMATS, type ReportFormat } from '../summarize/report-settings.js';
 
 interface ReportFlags {
   readonly x?: string;
@@ -14,15 +14,11 @@ interface ReportFlags {
   readonly metric?: string;
   readonly format?: string;
   readonly bins?: string;
+  readonly pngScale?: string;
 }
 
 /** Warnings printed in the terminal; the page lists more. */
 const MAX_PRINTED_WARNINGS = 10;
-
-function shortPath(path: string): string {
-  const rel = relative(process.cwd(), path);
-  return rel === '' ? '.' : rel.startsWith('..') || isAbsolute(rel) ? path : rel;
-}
 
 function parseFormats(text: string | undefined): ReportFormat[] | undefined {
   if (text === undefined) return undefined;
@@ -69,11 +65,22 @@ export function registerReport(program: Command): void {
       'metric to colour the cells by: success or another scalar metric of the records (default: report.metric, else success)',
     )
     .option('--format <list>', `comma-separated outputs among ${REPORT_FORMATS.join(',')} (default: all)`)
-    .option('--bins <n>', 'bins per axis for random, lhs and sobol sweeps (default: report.bins, else 8)')
+    .option(
+      '--bins <n>',
+      'bins per axis where a continuous range is drawn as cells, and most panels of a continuous facet (default: report.bins, else 8)',
+    )
+    .option(
+      '--png-scale <n>',
+      `PNG pixels per SVG unit, ${PNG_SCALE_RANGE.min} to ${PNG_SCALE_RANGE.max} (default: ${DEFAULT_PNG_SCALE}, sharp in print)`,
+    )
     .action(
       action(async (dir: string, flags: ReportFlags) => {
         const bins = flags.bins === undefined ? undefined : parseWholeNumber('--bins', flags.bins, MIN_BINS, MAX_BINS);
         const formats = parseFormats(flags.format);
+        const pngScale =
+          flags.pngScale === undefined
+            ? undefined
+            : parseWholeNumber('--png-scale', flags.pngScale, PNG_SCALE_RANGE.min, PNG_SCALE_RANGE.max);
         const result = await buildReport({
           dir,
           ...(flags.x === undefined ? {} : { x: flags.x }),
@@ -82,6 +89,7 @@ export function registerReport(program: Command): void {
           ...(flags.metric === undefined ? {} : { metric: flags.metric }),
           ...(formats === undefined ? {} : { formats }),
           ...(bins === undefined ? {} : { bins }),
+          ...(pngScale === undefined ? {} : { pngScale }),
         });
         for (const w of result.warnings.slice(0, MAX_PRINTED_WARNINGS)) {
           process.stderr.write(`recallscape: warning: ${w.kind}: ${w.message}\n`);
@@ -94,12 +102,13 @@ export function registerReport(program: Command): void {
         }
         const lines = [
           `completed ${result.completedJobs} of ${result.plannedJobs} jobs (${completedPercent(result.completedJobs, result.plannedJobs)})` +
-            (result.failedJobs > 0 ? `; ${result.failedJobs} failed without a result` : '') +
+            (result.failedJobs > 0 ? `; ${result.failedJobs} had errors and have no result` : '') +
             (result.incompleteCells > 0
               ? `; ${result.incompleteCells} diagram cells have fewer trials than planned`
-              : ''),
-          `wrote ${result.files.length} file${result.files.length === 1 ? '' : 's'} to ${shortPath(result.reportDir)}/:`,
-          ...result.files.map((f) => `  ${shortPath(f)}`),
+              : '') +
+            (result.emptyCells > 0 ? `; ${result.emptyCells} diagram cells have no trials yet` : ''),
+          `wrote ${result.files.length} file${result.files.length === 1 ? '' : 's'} to ${displayPath(result.reportDir)}/:`,
+          ...result.files.map((f) => `  ${displayPath(f)}`),
         ];
         process.stdout.write(`${lines.join('\n')}\n`);
       }),

@@ -1,4 +1,3 @@
-import { isAbsolute, relative } from 'node:path';
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
@@ -7,6 +6,7 @@ import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
 import { type RunSweepResult, runSweep, stopOnSignals } from '../run-sweep.js';
+import { displayPath, shellWord } from '../shell-text.js';
 
 /** Exit code of a run stopped by SIGINT/SIGTERM (128 + SIGINT, as shells do). */
 export const EXIT_INTERRUPTED = 130;
@@ -14,16 +14,7 @@ export const EXIT_INTERRUPTED = 130;
 /** Most threads one process may start; more is a typo, not a machine. */
 export const MAX_THREADS = 1024;
 
-/** Quote a command-line word for a POSIX shell when it needs it. */
-export function shellWord(word: string): string {
-  return /^[A-Za-z0-9_./:=@%+-]+$/.test(word) ? word : `'${word.replace(/'/g, `'\\''`)}'`;
-}
-
-/** A path as short as it can be said from the current folder. */
-export function displayPath(path: string): string {
-  const rel = relative(process.cwd(), path);
-  return rel === '' ? '.' : rel.startsWith('..') || isAbsolute(rel) ? path : rel;
-}
+export { displayPath, shellWord } from '../shell-text.js';
 
 export interface ExecuteOptions {
   readonly sweep: LoadedSweep;
@@ -73,7 +64,7 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
   lines.push('');
   lines.push(
     `sweep ${options.sweep.spec.name}: ${result.planned} jobs planned, ${result.alreadyDone} had results before this run, ` +
-      `${result.ran} ran now (${result.succeeded} succeeded, ${result.failed} failed)`,
+      `${result.ran} ran now (${result.failed} with errors)`,
   );
   lines.push(`results: ${displayPath(result.resultsDir)}/`);
   if (result.stopped !== null) {
@@ -84,8 +75,8 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
     lines.push(`resume with: ${options.resumeCommand}`);
     process.exitCode = EXIT_INTERRUPTED;
   } else if (result.failed > 0) {
-    lines.push(`${result.failed} jobs failed; their errors are in ${displayPath(result.failuresDir)}/`);
-    lines.push(`failed jobs are retried when you run the same command again: ${options.resumeCommand}`);
+    lines.push(`${result.failed} jobs had errors; the errors are in ${displayPath(result.failuresDir)}/`);
+    lines.push(`jobs with errors run again when you repeat the command: ${options.resumeCommand}`);
     process.exitCode = EXIT_FAILURE;
   } else {
     lines.push(

@@ -39,7 +39,7 @@ export async function aggregateRecords(
       group = new GroupSummary();
       groups.set(key, group);
     }
-    group.add(record.metrics, metricKinds);
+    group.add(record.metrics, metricKinds, record.key);
     count += 1;
   }
   return { groups, metricKinds, records: count, skipped };

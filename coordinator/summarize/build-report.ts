@@ -7,6 +7,7 @@ import { collectReport, type ReportOptions } from './collect.js';
 import { renderReportPage } from './report-page.js';
 import type { ReportFormat } from './report-settings.js';
 import type { ReportSource, ScanWarning } from './report-source.js';
+import { describeSweep, sweepMarkdown } from './sweep-description.js';
 
 export type { ReportOptions } from './collect.js';
 
@@ -22,8 +23,10 @@ export interface ReportResult {
   readonly warnings: readonly ScanWarning[];
   /** How many warnings there were in all; may exceed `warnings.length`. */
   readonly warningCount: number;
-  /** Diagram cells with fewer trials than planned, over all facets. */
+  /** Diagram cells with some but fewer trials than planned, over all panels. */
   readonly incompleteCells: number;
+  /** Diagram cells with planned trials and none done yet. */
+  readonly emptyCells: number;
 }
 
 /**
@@ -48,25 +51,27 @@ export async function buildReportFrom(
 ): Promise<ReportResult> {
   const report = await collectReport(source, options);
   const want = (f: ReportFormat): boolean => report.settings.formats.has(f);
-  const outputs = new Map<string, string | Uint8Array>();
+  const outputs = new Map<string, string | Uint8Array | AsyncIterable<string>>();
   const sections: Array<{ rank: number; html: string }> = [];
   let incompleteCells = 0;
+  let emptyCells = 0;
   for (const chart of charts) {
-    const out = chart.render(report, want);
+    const out = await chart.render(report, want);
     for (const [name, data] of out.files) outputs.set(name, data);
     if (out.section !== null) sections.push({ rank: chart.pageRank, html: out.section });
     incompleteCells += out.incompleteCells ?? 0;
+    emptyCells += out.emptyCells ?? 0;
   }
 
   const reportDir = source.reportDir;
+  const generatedAt = new Date().toISOString();
+  const description = describeSweep(report, generatedAt);
+  // The page links to sweep.md, so it is written whenever the page is.
+  if (want('md') || want('html')) outputs.set('sweep.md', sweepMarkdown(report.sweep.spec.name, description));
   let indexHtml: string | null = null;
   if (want('html')) {
     sections.sort((a, b) => a.rank - b.rank);
-    const html = renderReportPage({
-      report,
-      generatedAt: new Date().toISOString(),
-      sections: sections.map((s) => s.html),
-    });
+    const html = renderReportPage({ report, generatedAt, description, sections: sections.map((s) => s.html) });
     outputs.set('index.html', html);
     indexHtml = join(reportDir, 'index.html');
   }
@@ -87,5 +92,6 @@ export async function buildReportFrom(
     warnings: report.warnings,
     warningCount: report.warningCount,
     incompleteCells,
+    emptyCells,
   };
 }

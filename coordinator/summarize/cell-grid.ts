@@ -1,5 +1,7 @@
+import { axisSize } from './axis.js';
 import { GroupSummary, type MetricKind } from './group-summary.js';
 import type { ReportGroup } from './report-group.js';
+import type { CellLayout } from './report-layout.js';
 import { wilsonInterval } from './wilson.js';
 
 /** What a diagram cell shows, for one metric. */
@@ -19,6 +21,9 @@ export interface CellData {
   readonly lo: number | null;
   readonly hi: number | null;
   readonly sd: number | null;
+  /** Job keys of one successful and one unsuccessful trial in the cell, for `inspect`. */
+  readonly successKey: string | null;
+  readonly failureKey: string | null;
 }
 
 export interface CellGrid {
@@ -57,7 +62,21 @@ export function cellValue(summary: GroupSummary, planned: number, x: number, y: 
   } else {
     value = summary.metrics.get(metric.name)?.meanOrNull() ?? null;
   }
-  return { x, y, n: summary.n, planned, successes: summary.successes, metricCount, hits, value, lo, hi, sd };
+  return {
+    x,
+    y,
+    n: summary.n,
+    planned,
+    successes: summary.successes,
+    metricCount,
+    hits,
+    value,
+    lo,
+    hi,
+    sd,
+    successKey: summary.successKey,
+    failureKey: summary.failureKey,
+  };
 }
 
 /**
@@ -66,17 +85,20 @@ export function cellValue(summary: GroupSummary, planned: number, x: number, y: 
  * Cells no group reaches get n = 0 and planned = 0.
  */
 export function buildCellGrids(
-  groups: Iterable<Pick<ReportGroup, 'x' | 'y' | 'facet' | 'planned' | 'summary'>>,
-  size: { readonly nx: number; readonly ny: number; readonly facets: number },
+  groups: Iterable<Pick<ReportGroup, 'values' | 'planned' | 'summary'>>,
+  layout: CellLayout,
   metric: ShownMetric,
 ): CellGrid[] {
-  const { nx, ny, facets } = size;
+  const nx = layout.xAxis === null ? 1 : axisSize(layout.xAxis);
+  const ny = layout.yAxis === null ? 1 : axisSize(layout.yAxis);
+  const facets = layout.facetAxis === null ? 1 : axisSize(layout.facetAxis);
   const pooled: GroupSummary[] = [];
   const planned: number[] = new Array<number>(nx * ny * facets).fill(0);
   for (let i = 0; i < nx * ny * facets; i++) pooled.push(new GroupSummary());
   for (const g of groups) {
-    if (g.x < 0 || g.x >= nx || g.y < 0 || g.y >= ny || g.facet < 0 || g.facet >= facets) continue;
-    const i = (g.facet * ny + g.y) * nx + g.x;
+    const cell = layout.cellOf(g.values);
+    if (cell === null) continue;
+    const i = (cell.facet * ny + cell.y) * nx + cell.x;
     pooled[i]?.merge(g.summary);
     planned[i] = (planned[i] ?? 0) + g.planned;
   }

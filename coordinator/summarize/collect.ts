@@ -1,21 +1,15 @@
 import type { ParamInfo } from '../../shared/model.js';
-import type { FailureKind } from '../../shared/schemas/records.js';
+import type { FailureKind, Point } from '../../shared/schemas/records.js';
 import { countJobs } from '../../shared/sweep/expand.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { iteratePoints } from '../../shared/sweep/points.js';
 import { aggregateRecords } from './aggregate.js';
 import type { ShownMetric } from './cell-grid.js';
+import { type DiagramKind, diagramKindOf } from './diagram-kind.js';
 import { GroupSummary, type MetricKind } from './group-summary.js';
 import { paramLabel } from './param-label.js';
-import type { ReportGroup } from './report-group.js';
-import { allBinnedPlaces, buildLayout, type GroupPlace, type ReportLayout } from './report-layout.js';
-import {
-  checkMetric,
-  MAX_FACET_BINS,
-  type ReportFormat,
-  type ResolvedSettings,
-  resolveSettings,
-} from './report-settings.js';
+import type { ParamColumn, ReportGroup } from './report-group.js';
+import { checkMetric, type ReportFormat, type ResolvedSettings, resolveSettings } from './report-settings.js';
 import type { ReportSource, ScanWarning } from './report-source.js';
 
 export interface ReportOptions {
@@ -26,6 +20,7 @@ export interface ReportOptions {
   readonly metric?: string;
   readonly formats?: readonly ReportFormat[];
   readonly bins?: number;
+  readonly pngScale?: number;
 }
 
 export type ReportSweep = LoadedSweep & { readonly codeVersion: string; readonly createdAt: string };
@@ -33,9 +28,14 @@ export type ReportSweep = LoadedSweep & { readonly codeVersion: string; readonly
 /** Everything the charts and the page draw from: read once, rendered by many. */
 export interface CollectedReport {
   readonly sweep: ReportSweep;
+  /** Where the records came from; charts that list every trial read it again. */
+  readonly source: ReportSource;
+  /** The sweep folder as the user named it (for commands shown on the page). */
+  readonly dir: string;
   readonly settings: ResolvedSettings;
-  readonly layout: ReportLayout;
-  /** Table order: the sweep's point order (grid), or facet, y, x (bins, empty ones included). */
+  /** Leading table columns: the varied parameters in file order. */
+  readonly columns: readonly ParamColumn[];
+  /** One per parameter point, in the sweep's order; points with records but no plan come last. */
   readonly groups: readonly ReportGroup[];
   /** Every scalar metric of the records except `success`, with how it is summarised. */
   readonly metricKinds: ReadonlyMap<string, MetricKind>;
@@ -43,11 +43,13 @@ export interface CollectedReport {
   readonly metric: ShownMetric;
   /** Varied parameters on no axis and no facet: the diagrams pool over them. */
   readonly pooled: readonly string[];
+  /** Heat maps of cells, or markers over a smooth field (sampled sweeps). */
+  readonly diagramKind: DiagramKind;
   readonly plannedJobs: number;
   readonly completedJobs: number;
-  /** Jobs with a failed attempt and no result. */
+  /** Jobs with an error and no result. */
   readonly failedJobs: number;
-  /** Failed attempts by kind, most frequent first. */
+  /** Attempts that ended in an error, by kind, most frequent first. */
   readonly failuresByKind: readonly (readonly [FailureKind, number])[];
   /** The first MAX_WARNINGS_KEPT problems met while reading the shards. */
   readonly warnings: readonly ScanWarning[];
@@ -62,15 +64,16 @@ export interface CollectedReport {
 const MAX_WARNINGS_KEPT = 200;
 
 interface OpenGroup {
-  readonly place: GroupPlace;
+  readonly values: Point;
   planned: number;
   summary: GroupSummary;
 }
 
 /**
  * Resolve the axes and stream the failures and the records once into one
- * summary per group. Throws InputError for a bad option before anything is
- * written; `--metric` is checked after the scan, when the metrics are known.
+ * summary per parameter point. Throws InputError for a bad option before
+ * anything is written; `--metric` is checked after the scan, when the
+ * metrics are known.
  */
 export async function collectReport(source: ReportSource, options: ReportOptions): Promise<CollectedReport> {
   const sweep = await source.readSweep();
@@ -83,37 +86,30 @@ export async function collectReport(source: ReportSource, options: ReportOptions
       metric: options.metric,
       bins: options.bins,
       formats: options.formats,
+      pngScale: options.pngScale,
     },
     spec.report,
     sweep.variedNames,
   );
   const label = (p: string): string => paramLabel(p, model.paramInfo);
-  const layout = buildLayout({
-    sampler: spec.sampler.kind,
-    vary: spec.vary,
-    variedNames: sweep.variedNames,
-    x: settings.x,
-    y: settings.y,
-    facet: settings.facet,
-    bins: settings.bins,
-    facetBins: Math.min(settings.bins, MAX_FACET_BINS),
-    label,
-  });
+  const names = sweep.variedNames;
+  const keyOf = (point: Point): string => JSON.stringify(names.map((n) => point[n] ?? null));
+  const valuesOf = (point: Point): Point => {
+    const values: Point = {};
+    for (const n of names) {
+      const v = point[n];
+      if (v !== undefined) values[n] = v;
+    }
+    return values;
+  };
 
-  // Planned trials per group, in the sweep's order (empty bins included).
+  // Planned trials per point, in the sweep's order.
   const groups = new Map<string, OpenGroup>();
-  if (layout.binned) {
-    for (const { key, ...place } of allBinnedPlaces(layout))
-      groups.set(key, { place, planned: 0, summary: new GroupSummary() });
-  }
   for (const point of iteratePoints(sweep)) {
-    const key = layout.keyOf(point);
-    if (key === null) continue;
+    const key = keyOf(point);
     let group = groups.get(key);
     if (group === undefined) {
-      const place = layout.place(point);
-      if (place === null) continue;
-      group = { place, planned: 0, summary: new GroupSummary() };
+      group = { values: valuesOf(point), planned: 0, summary: new GroupSummary() };
       groups.set(key, group);
     }
     group.planned += spec.replicates;
@@ -135,23 +131,19 @@ export async function collectReport(source: ReportSource, options: ReportOptions
   }
 
   // Records of points the sweep does not plan (an edited sweep) still count, with planned = 0.
-  const unplanned = new Map<string, GroupPlace>();
+  const unplanned = new Map<string, Point>();
   const aggregation = await aggregateRecords(source.records({ onWarning }), (record) => {
     if (failedKeys.size > 0) failedKeys.delete(record.key);
-    const key = layout.keyOf(record.point);
-    if (key !== null && !groups.has(key) && !unplanned.has(key)) {
-      const place = layout.place(record.point);
-      if (place === null) return null;
-      unplanned.set(key, place);
-    }
+    const key = keyOf(record.point);
+    if (!groups.has(key) && !unplanned.has(key)) unplanned.set(key, valuesOf(record.point));
     return key;
   });
   for (const [key, summary] of aggregation.groups) {
     const group = groups.get(key);
     if (group !== undefined) group.summary = summary;
     else {
-      const place = unplanned.get(key);
-      if (place !== undefined) groups.set(key, { place, planned: 0, summary });
+      const values = unplanned.get(key);
+      if (values !== undefined) groups.set(key, { values, planned: 0, summary });
     }
   }
   const knownMetrics = ['success', ...[...aggregation.metricKinds.keys()].sort()];
@@ -163,12 +155,15 @@ export async function collectReport(source: ReportSource, options: ReportOptions
 
   return {
     sweep,
+    source,
+    dir: options.dir,
     settings,
-    layout,
-    groups: [...groups.values()].map((g) => ({ ...g.place, planned: g.planned, summary: g.summary })),
+    columns: names.map((n) => ({ name: n, label: label(n) })),
+    groups: [...groups.values()],
     metricKinds: aggregation.metricKinds,
     metric,
-    pooled: sweep.variedNames.filter((n) => n !== settings.x && n !== settings.y && n !== settings.facet),
+    pooled: names.filter((n) => n !== settings.x && n !== settings.y && n !== settings.facet),
+    diagramKind: diagramKindOf(spec, settings),
     plannedJobs: countJobs(sweep),
     completedJobs: aggregation.records,
     failedJobs: failedKeys.size,

@@ -24,15 +24,7 @@ export function isoLines(values: readonly (number | null)[], nx: number, ny: num
   if (nx === 0 || ny === 0) return [];
   const px = nx + 2;
   const py = ny + 2;
-  const padded = new Float64Array(px * py);
-  for (let j = 0; j < py; j++) {
-    const sy = Math.min(ny - 1, Math.max(0, j - 1));
-    for (let i = 0; i < px; i++) {
-      const sx = Math.min(nx - 1, Math.max(0, i - 1));
-      const v = values[sy * nx + sx];
-      padded[j * px + i] = v === null || v === undefined ? Number.NaN : v;
-    }
-  }
+  const padded = padGrid(values, nx, ny);
   const missing = (i: number, j: number): boolean => {
     if (i < 0 || j < 0 || i >= px || j >= py) return false;
     return Number.isNaN(padded[j * px + i]);
@@ -106,4 +98,47 @@ function mergeLines(lines: CellPoint[][]): CellPoint[][] {
     }
   }
   return out;
+}
+
+/** The grid with one more cell on every side holding a copy of the nearest edge cell; null becomes NaN. */
+function padGrid(values: readonly (number | null)[], nx: number, ny: number): Float64Array {
+  const px = nx + 2;
+  const py = ny + 2;
+  const padded = new Float64Array(px * py);
+  for (let j = 0; j < py; j++) {
+    const sy = Math.min(ny - 1, Math.max(0, j - 1));
+    for (let i = 0; i < px; i++) {
+      const sx = Math.min(nx - 1, Math.max(0, i - 1));
+      const v = values[sy * nx + sx];
+      padded[j * px + i] = v === null || v === undefined ? Number.NaN : v;
+    }
+  }
+  return padded;
+}
+
+/**
+ * The region where a field on the cell grid is at least `threshold`, as
+ * closed rings in cell coordinates (draw with the even-odd rule: holes are
+ * rings inside rings). Same marching squares and edge padding as `isoLines`,
+ * so the region's edge is exactly the iso-line; empty cells (null) count as
+ * outside. Rings run out past the plot edge onto the padded frame: the caller
+ * clips to [0, nx] x [0, ny].
+ */
+export function isoRegion(
+  values: readonly (number | null)[],
+  nx: number,
+  ny: number,
+  threshold: number,
+): CellPoint[][] {
+  if (values.length !== nx * ny) throw new RangeError(`isoRegion: ${values.length} values for a ${nx} x ${ny} grid`);
+  if (nx === 0 || ny === 0) return [];
+  const field = Array.from(padGrid(values, nx, ny));
+  const shape = contours()
+    .size([nx + 2, ny + 2])
+    .contour(field, threshold);
+  const rings: CellPoint[][] = [];
+  for (const polygon of shape.coordinates) {
+    for (const ring of polygon) rings.push(ring.map((p): CellPoint => [(p[0] ?? 0) - 1, (p[1] ?? 0) - 1]));
+  }
+  return rings;
 }

@@ -13,6 +13,9 @@ export class GroupSummary {
   successes = 0;
   /** Per metric name; `count` may be below `n` when a metric was null or absent. */
   readonly metrics = new Map<string, RunningStats>();
+  /** A job key of one successful and one unsuccessful trial, for `inspect` (null until one is seen). */
+  successKey: string | null = null;
+  failureKey: string | null = null;
 
   /**
    * Add one trial. Arrays and nulls are skipped (arrays are per-sequence
@@ -20,9 +23,12 @@ export class GroupSummary {
    * `kinds` is the sweep-wide table of metric kinds, filled in as metrics
    * appear, so no second pass is needed.
    */
-  add(metrics: Readonly<Record<string, unknown>>, kinds: Map<string, MetricKind>): void {
+  add(metrics: Readonly<Record<string, unknown>>, kinds: Map<string, MetricKind>, key: string | null = null): void {
     this.n += 1;
-    if (metrics['success'] === true) this.successes += 1;
+    if (metrics['success'] === true) {
+      this.successes += 1;
+      this.successKey ??= key;
+    } else this.failureKey ??= key;
     for (const name in metrics) {
       if (name === 'success') continue;
       const value = metrics[name];
@@ -50,6 +56,8 @@ export class GroupSummary {
   merge(other: GroupSummary): void {
     this.n += other.n;
     this.successes += other.successes;
+    this.successKey ??= other.successKey;
+    this.failureKey ??= other.failureKey;
     for (const [name, stats] of other.metrics) {
       let mine = this.metrics.get(name);
       if (mine === undefined) {

@@ -1,15 +1,23 @@
 import type { ParamInfo } from '../../shared/model.js';
 
-/** `name (unit)` for axis titles and table headers; dimensionless stays explicit. */
-export function paramLabel(name: string, info: Readonly<Record<string, ParamInfo>>): string {
+/** Units that say nothing to a reader: pure numbers and bare counts. */
+const SILENT_UNITS = new Set(['', '1', 'count']);
+
+/** The unit as shown to people: '' for pure numbers and bare counts. */
+export function unitOf(name: string, info: Readonly<Record<string, ParamInfo>>): string {
   const unit = info[name]?.unit.trim() ?? '';
-  if (unit === '') return name;
-  if (unit === '1') return `${name} (dimensionless)`;
-  return `${name} (${unit})`;
+  return SILENT_UNITS.has(unit) ? '' : unit;
 }
 
-/** The unit to write after a value, e.g. "50 ms"; empty for plain numbers ("2", not "2 count"). */
-export function valueUnit(name: string, info: Readonly<Record<string, ParamInfo>>): string {
-  const unit = info[name]?.unit.trim() ?? '';
-  return unit === '1' || unit === 'count' ? '' : unit;
+/** `name (unit)` for axis titles and table headers: "tauZPre (ms)", "overlapLength (positions)", "adaptGain". */
+export function paramLabel(name: string, info: Readonly<Record<string, ParamInfo>>): string {
+  const unit = unitOf(name, info);
+  return unit === '' ? name : `${name} (${unit})`;
+}
+
+/** A value with its unit for running text: "50 ms", "2 positions", "0.5 (fraction of hypercolumns)", "3". */
+export function withUnit(text: string, name: string, info: Readonly<Record<string, ParamInfo>>): string {
+  const unit = unitOf(name, info);
+  if (unit === '') return text;
+  return unit.includes(' ') ? `${text} (${unit})` : `${text} ${unit}`;
 }

@@ -1,7 +1,18 @@
 import { type Axis, cellLabel } from './axis.js';
 import type { CellData, CellGrid } from './cell-grid.js';
 import { colourScale } from './colour-scale.js';
-import { isoLines } from './contour.js';
+import { isoLines, isoRegion } from './contour.js';
+import {
+  bandPaths,
+  borderPaths,
+  hatchDef,
+  LEGEND_WIDTH,
+  type LegendMark,
+  legend,
+  MARK_STEP,
+  pathData,
+  TICK_FONT,
+} from './diagram-parts.js';
 import { escapeXml, FONT_FAMILY, px, textWidth } from './svg-util.js';
 
 export interface PhaseDiagramInput {
@@ -24,6 +35,8 @@ export interface PhaseDiagramInput {
   readonly border: number | null;
   /** Text for the hover title of a cell: parameter values of that cell. */
   readonly describeCell: (cell: CellData) => string;
+  /** The command that re-runs the trial with this key, for tooltips; omitted: no such line. */
+  readonly inspectCommand?: (key: string) => string;
 }
 
 export interface RenderedSvg {
@@ -31,12 +44,15 @@ export interface RenderedSvg {
   readonly width: number;
   readonly height: number;
   readonly cellCount: number;
+  /** Cells with some trials but fewer than planned (hatched). */
   readonly incompleteCount: number;
+  /** Cells the sweep plans trials for that have none yet. */
+  readonly emptyCount: number;
+  readonly borderDrawn: boolean;
+  readonly bandDrawn: boolean;
 }
 
 const FONT = 13;
-const TICK_FONT = 11;
-const LEGEND_WIDTH = 190;
 
 function fmt(v: number | null, digits = 3): string {
   return v === null ? '' : String(Number(v.toFixed(digits)));
@@ -51,19 +67,34 @@ function labelStep(labels: readonly string[], spacing: number, fontSize: number)
 export function cellTitle(input: PhaseDiagramInput, cell: CellData): string {
   const where = input.describeCell(cell);
   const done = `${cell.n} of ${cell.planned} planned trials`;
-  if (cell.value === null) return `${where}\nno data yet (${done})`;
+  if (cell.value === null) return `${where}\nno trials yet (${done})`;
+  const lines = [where];
   if (input.isRate) {
-    return `${where}\n${input.valueLabel} ${fmt(cell.value)} (${cell.hits}/${cell.metricCount}), 95% Wilson interval ${fmt(cell.lo)} to ${fmt(cell.hi)}\n${done}`;
+    lines.push(
+      `${input.valueLabel} ${fmt(cell.value)} (${cell.hits}/${cell.metricCount}), 95% Wilson interval ${fmt(cell.lo)} to ${fmt(cell.hi)}`,
+    );
+  } else {
+    const sd = cell.sd === null ? '' : `, sd ${fmt(cell.sd, 4)}`;
+    lines.push(
+      `mean ${input.valueLabel} ${fmt(cell.value, 4)}${sd} over ${cell.metricCount} trials; ${cell.successes} successes`,
+    );
   }
-  const sd = cell.sd === null ? '' : `, sd ${fmt(cell.sd, 4)}`;
-  return `${where}\nmean ${input.valueLabel} ${fmt(cell.value, 4)}${sd} over ${cell.metricCount} trials; ${cell.successes} successes\n${done}`;
+  lines.push(done);
+  const command = input.inspectCommand;
+  if (command !== undefined) {
+    if (cell.failureKey !== null) lines.push(`re-run a trial without success: ${command(cell.failureKey)}`);
+    if (cell.successKey !== null) lines.push(`re-run a successful trial: ${command(cell.successKey)}`);
+  }
+  return lines.join('\n');
 }
 
 /**
  * One heat map: cells coloured by the shown value, incomplete cells hatched,
- * empty cells white, the border (iso-line) drawn over them, axes with names
- * and units, and a legend. Each cell carries its numbers as data attributes
- * and a <title> so the report page and any SVG viewer can show them on hover.
+ * empty cells white, the border (iso-line) and, for rates, the band where
+ * the cells' 95% Wilson intervals contain the border level drawn over them,
+ * axes with names and units, and a legend of what this panel shows. Each
+ * cell carries its numbers as data attributes and a <title>, so the report
+ * page and any SVG viewer can show them.
  */
 export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
   const { grid, xAxis, yAxis } = input;
@@ -85,10 +116,37 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
   const legendX = left + plotW + 28;
   const legendH = Math.max(120, Math.min(plotH, 220));
   const width = legendX + LEGEND_WIDTH;
-  // Legend: bar, then up to three marks of 24 px each.
-  const height = Math.max(top + plotH + bottom, top + legendH + 26 + 24 * (input.border === null ? 2 : 3));
   const scale = colourScale(input.domain);
   const id = input.id;
+  const at = ([u, v]: readonly [number, number]): [number, number] => [left + u * cellW, top + (ny - v) * cellH];
+
+  const incompleteCells = grid.cells.filter((c) => c.n > 0 && c.n < c.planned);
+  const emptyCount = grid.cells.filter((c) => c.n === 0).length;
+  const values = grid.cells.map((c) => c.value);
+  const borderLines = input.border === null ? [] : isoLines(values, nx, ny, input.border);
+  const level = input.border;
+  // The band: where lo <= level <= hi, i.e. min(level - lo, hi - level) >= 0.
+  const bandRings =
+    level === null || !input.isRate || borderLines.length === 0
+      ? []
+      : isoRegion(
+          grid.cells.map((c) => (c.lo === null || c.hi === null ? null : Math.min(level - c.lo, c.hi - level))),
+          nx,
+          ny,
+          0,
+        );
+
+  const marks: LegendMark[] = [];
+  if (borderLines.length > 0 && level !== null)
+    marks.push({ kind: 'border', text: input.isRate ? `${Math.round(level * 100)}% border` : `border at ${level}` });
+  if (bandRings.length > 0) marks.push({ kind: 'band', text: '95% interval holds 50%' });
+  if (incompleteCells.length > 0) marks.push({ kind: 'incomplete' });
+  if (emptyCount > 0) {
+    const unplanned = grid.cells.filter((c) => c.n === 0 && c.planned === 0).length;
+    const text = unplanned === 0 ? 'no trials yet' : unplanned === emptyCount ? 'no point sampled here' : 'no trials';
+    marks.push({ kind: 'empty', text });
+  }
+  const height = Math.max(top + plotH + bottom, top + legendH + 26 + MARK_STEP * marks.length);
 
   const out: string[] = [];
   out.push(
@@ -96,45 +154,31 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
   );
   out.push(`<title>${escapeXml(input.title)}</title>`);
   out.push('<defs>');
-  // Two-tone hatching stays visible on the dark and the light end of the scale.
-  out.push(
-    `<pattern id="${id}-hatch" patternUnits="userSpaceOnUse" width="7" height="7" patternTransform="rotate(45)"><rect width="7" height="7" fill="none"/><line x1="1" y1="0" x2="1" y2="7" stroke="#ffffff" stroke-width="1.6" stroke-opacity="0.85"/><line x1="2.6" y1="0" x2="2.6" y2="7" stroke="#000000" stroke-width="1.2" stroke-opacity="0.7"/></pattern>`,
-  );
+  if (incompleteCells.length > 0) out.push(hatchDef(id));
   out.push(`<clipPath id="${id}-clip"><rect x="${left}" y="${top}" width="${plotW}" height="${plotH}"/></clipPath>`);
-  const stops = Array.from({ length: 11 }, (_, i) => {
-    const t = i / 10;
-    const v = scale.domain[0] + t * (scale.domain[1] - scale.domain[0]);
-    return `<stop offset="${t}" stop-color="${scale.colour(v)}"/>`;
-  }).join('');
-  out.push(`<linearGradient id="${id}-ramp" x1="0" y1="1" x2="0" y2="0">${stops}</linearGradient>`);
   out.push('</defs>');
   out.push(`<rect width="${width}" height="${height}" fill="#ffffff"/>`);
 
-  // Title and subtitle lines.
   out.push(`<text x="${left}" y="24" font-size="15" font-weight="bold">${escapeXml(input.title)}</text>`);
   input.subtitle.forEach((line, i) => {
     out.push(`<text x="${left}" y="${24 + 18 * (i + 1)}" fill="#333333">${escapeXml(line)}</text>`);
   });
 
-  // Cells.
-  let incomplete = 0;
   out.push(`<g class="cells">`);
   for (const cell of grid.cells) {
     const x = left + cell.x * cellW;
     const y = top + (ny - 1 - cell.y) * cellH;
-    const empty = cell.value === null;
-    const isIncomplete = cell.n < cell.planned;
-    if (isIncomplete) incomplete += 1;
-    const classes = ['cell', empty ? 'empty' : 'filled', isIncomplete ? 'incomplete' : 'complete'].join(' ');
-    const fill = empty ? '#ffffff' : scale.colour(cell.value ?? 0);
+    const empty = cell.n === 0;
+    const classes = ['cell', empty ? 'empty' : 'filled', !empty && cell.n < cell.planned ? 'incomplete' : 'complete'];
+    const fill = cell.value === null ? '#ffffff' : scale.colour(cell.value);
     const attrs = [
-      `class="${classes}"`,
+      `class="${classes.join(' ')}"`,
       `x="${x}"`,
       `y="${y}"`,
       `width="${cellW}"`,
       `height="${cellH}"`,
       `fill="${fill}"`,
-      empty ? 'stroke="#c8c8c8" stroke-width="0.8"' : `stroke="${fill}" stroke-width="0.5"`,
+      cell.value === null ? 'stroke="#c8c8c8" stroke-width="0.8"' : `stroke="${fill}" stroke-width="0.5"`,
       `data-x="${cell.x}"`,
       `data-y="${cell.y}"`,
       `data-n="${cell.n}"`,
@@ -144,50 +188,40 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
       `data-lo="${fmt(cell.lo, 6)}"`,
       `data-hi="${fmt(cell.hi, 6)}"`,
       `data-where="${escapeXml(input.describeCell(cell))}"`,
+      `data-success-job="${cell.successKey ?? ''}"`,
+      `data-failure-job="${cell.failureKey ?? ''}"`,
     ];
     out.push(`<rect ${attrs.join(' ')}><title>${escapeXml(cellTitle(input, cell))}</title></rect>`);
   }
   out.push('</g>');
   // Hatching over incomplete cells, in its own layer so hover still hits the cell.
-  out.push(`<g class="incomplete-marks" pointer-events="none">`);
-  for (const cell of grid.cells) {
-    if (cell.n >= cell.planned) continue;
-    const x = left + cell.x * cellW;
-    const y = top + (ny - 1 - cell.y) * cellH;
-    out.push(`<rect x="${x}" y="${y}" width="${cellW}" height="${cellH}" fill="url(#${id}-hatch)"/>`);
+  if (incompleteCells.length > 0) {
+    out.push(`<g class="incomplete-marks" pointer-events="none">`);
+    for (const cell of incompleteCells) {
+      const x = left + cell.x * cellW;
+      const y = top + (ny - 1 - cell.y) * cellH;
+      out.push(`<rect x="${x}" y="${y}" width="${cellW}" height="${cellH}" fill="url(#${id}-hatch)"/>`);
+    }
+    out.push('</g>');
   }
-  out.push('</g>');
   out.push(
     `<rect x="${left}" y="${top}" width="${plotW}" height="${plotH}" fill="none" stroke="#222222" stroke-width="1"/>`,
   );
 
-  // The border line: white casing under a black line, visible on every colour.
-  if (input.border !== null) {
-    const values = grid.cells.map((c) => c.value);
-    const lines = isoLines(values, nx, ny, input.border);
-    if (lines.length > 0) {
-      const d = lines
-        .map((line) =>
-          line
-            .map(([u, v], i) => `${i === 0 ? 'M' : 'L'}${px(left + u * cellW)},${px(top + (ny - v) * cellH)}`)
-            .join(''),
-        )
-        .join('');
-      out.push(`<g class="border" clip-path="url(#${id}-clip)" pointer-events="none">`);
-      out.push(
-        `<path d="${d}" fill="none" stroke="#ffffff" stroke-width="5" stroke-linejoin="round" stroke-linecap="round"/>`,
-      );
-      out.push(
-        `<path class="border-line" d="${d}" fill="none" stroke="#000000" stroke-width="2.2" stroke-linejoin="round" stroke-linecap="round" data-level="${input.border}"/>`,
-      );
-      out.push('</g>');
-    }
+  if (bandRings.length > 0) {
+    out.push(`<g class="band" clip-path="url(#${id}-clip)" pointer-events="none">`);
+    out.push(...bandPaths(pathData(bandRings, at, true)));
+    out.push('</g>');
+  }
+  if (borderLines.length > 0 && level !== null) {
+    out.push(`<g class="border" clip-path="url(#${id}-clip)" pointer-events="none">`);
+    out.push(...borderPaths(pathData(borderLines, at), level));
+    out.push('</g>');
   }
 
   // x axis: ticks at cell centres for values, at edges for bins.
   out.push(`<g class="x-axis" font-size="${TICK_FONT}" text-anchor="middle">`);
-  const xSpacing = cellW;
-  const xStep = labelStep(xLabels, xSpacing, TICK_FONT);
+  const xStep = labelStep(xLabels, cellW, TICK_FONT);
   xLabels.forEach((label, i) => {
     const x = left + (xAxis.kind === 'values' ? (i + 0.5) * cellW : i * cellW);
     out.push(`<line x1="${px(x)}" y1="${top + plotH}" x2="${px(x)}" y2="${top + plotH + 5}" stroke="#222222"/>`);
@@ -213,39 +247,18 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     );
   }
 
-  // Legend: colour bar with ticks, then the marks.
-  out.push(`<g class="legend">`);
-  out.push(`<text x="${legendX}" y="${top - 8}" font-weight="bold">${escapeXml(input.valueLabel)}</text>`);
-  out.push(
-    `<rect x="${legendX}" y="${top}" width="18" height="${legendH}" fill="url(#${id}-ramp)" stroke="#222222" stroke-width="0.8"/>`,
-  );
-  const [d0, d1] = scale.domain;
-  for (const t of scale.ticks(5)) {
-    const y = top + legendH - ((t - d0) / (d1 - d0)) * legendH;
-    out.push(`<line x1="${legendX + 18}" y1="${px(y)}" x2="${legendX + 23}" y2="${px(y)}" stroke="#222222"/>`);
-    out.push(
-      `<text x="${legendX + 27}" y="${px(y + 4)}" font-size="${TICK_FONT}">${escapeXml(String(Number(t.toPrecision(6))))}</text>`,
-    );
-  }
-  let ly = top + legendH + 26;
-  if (input.border !== null) {
-    out.push(`<line x1="${legendX}" y1="${ly}" x2="${legendX + 22}" y2="${ly}" stroke="#ffffff" stroke-width="5"/>`);
-    out.push(`<line x1="${legendX}" y1="${ly}" x2="${legendX + 22}" y2="${ly}" stroke="#000000" stroke-width="2.2"/>`);
-    const what = input.isRate ? `${Math.round(input.border * 100)}% border` : `border at ${input.border}`;
-    out.push(`<text x="${legendX + 30}" y="${ly + 4}" font-size="${TICK_FONT + 1}">${escapeXml(what)}</text>`);
-    ly += 24;
-  }
-  out.push(`<rect x="${legendX}" y="${ly - 8}" width="22" height="16" fill="#7f7f7f"/>`);
-  out.push(
-    `<rect x="${legendX}" y="${ly - 8}" width="22" height="16" fill="url(#${id}-hatch)" stroke="#222222" stroke-width="0.6"/>`,
-  );
-  out.push(`<text x="${legendX + 30}" y="${ly + 4}" font-size="${TICK_FONT + 1}">fewer trials than planned</text>`);
-  ly += 24;
-  out.push(`<rect x="${legendX}" y="${ly - 8}" width="22" height="16" fill="#ffffff" stroke="#c8c8c8"/>`);
-  out.push(`<text x="${legendX + 30}" y="${ly + 4}" font-size="${TICK_FONT + 1}">no data</text>`);
-  out.push('</g>');
+  out.push(...legend({ id, x: legendX, top, barHeight: legendH, title: input.valueLabel, scale, marks }).svg);
   out.push('</svg>');
-  return { svg: out.join('\n'), width, height, cellCount: grid.cells.length, incompleteCount: incomplete };
+  return {
+    svg: out.join('\n'),
+    width,
+    height,
+    cellCount: grid.cells.length,
+    incompleteCount: incompleteCells.length,
+    emptyCount: grid.cells.filter((c) => c.n === 0 && c.planned > 0).length,
+    borderDrawn: borderLines.length > 0,
+    bandDrawn: bandRings.length > 0,
+  };
 }
 
 function edgeOrCellLabel(axis: Axis, i: number): string {

@@ -1,20 +1,23 @@
+import type { Point } from '../../shared/schemas/records.js';
 import type { GroupSummary } from './group-summary.js';
-import type { TableCell } from './tables.js';
 
 /**
- * The one unit the report is built from: the trials of a parameter point
- * (grid sweeps) or of a bin (sampled sweeps), where it sits on the diagrams,
- * and how many trials the sweep plans for it. Tables show one row per group,
- * diagrams pool the groups that share a cell.
+ * The one unit the report is built from: every trial of one parameter point,
+ * summarised in constant memory, with how many trials the sweep plans there.
+ * Tables show one row per group; diagrams place groups by their values
+ * (pooling those that share a cell, or one marker each).
  */
 export interface ReportGroup {
-  /** Values of the layout's leading columns (`ReportLayout.dims`): parameter values or bin edges. */
-  readonly dims: readonly TableCell[];
-  /** Cell indices on the x, y and facet axes (0 on an axis that is not shown). */
-  readonly x: number;
-  readonly y: number;
-  readonly facet: number;
-  /** Trials the sweep plans for this group. */
+  /** Value of every parameter column (`CollectedReport.columns`): the varied ones, then any computed ones. */
+  readonly values: Readonly<Point>;
+  /** Trials the sweep plans for this point (0 for records of points it does not plan). */
   readonly planned: number;
   readonly summary: GroupSummary;
+}
+
+/** A leading column of the tables: a parameter, and how people read its name. */
+export interface ParamColumn {
+  readonly name: string;
+  /** `name (unit)`. */
+  readonly label: string;
 }

@@ -1,3 +1,4 @@
+import { z } from 'zod';
 import { InputError } from '../../shared/errors.js';
 import { BINS_RULE, BinsSchema } from '../../shared/sweep/bins.js';
 
@@ -18,6 +19,7 @@ export interface ReportChoices {
   readonly metric?: string | undefined;
   readonly bins?: number | undefined;
   readonly formats?: readonly string[] | undefined;
+  readonly pngScale?: number | undefined;
 }
 
 export interface ResolvedSettings {
@@ -28,7 +30,15 @@ export interface ResolvedSettings {
   readonly metric: string;
   readonly bins: number;
   readonly formats: ReadonlySet<ReportFormat>;
+  /** PNG pixels per SVG unit. */
+  readonly pngScale: number;
 }
+
+/** PNG pixels per SVG unit when nothing else is asked: sharp in print and on high-density screens. */
+export const DEFAULT_PNG_SCALE = 2;
+/** PNG scale: 1 is the SVG's own size; 8 makes a panel about 6000 pixels wide, plenty for a poster. */
+export const PNG_SCALE_RANGE = { min: 1, max: 8 } as const;
+const PngScaleSchema = z.number().int().min(PNG_SCALE_RANGE.min).max(PNG_SCALE_RANGE.max);
 
 function reject(option: string, message: string): never {
   throw new InputError(`${option}: ${message}`, [{ path: option, message }]);
@@ -90,8 +100,15 @@ export function resolveSettings(
   }
   if (formats.size === 0) reject('--format', `name at least one of ${REPORT_FORMATS.join(', ')}`);
 
+  const pngScale = choices.pngScale ?? DEFAULT_PNG_SCALE;
+  if (!PngScaleSchema.safeParse(pngScale).success)
+    reject(
+      '--png-scale',
+      `must be a whole number from ${PNG_SCALE_RANGE.min} to ${PNG_SCALE_RANGE.max}, got ${String(pngScale)}`,
+    );
+
   const metric = choices.metric ?? fromSweep.metric ?? 'success';
-  return { x, y, facet, metric, bins, formats };
+  return { x, y, facet, metric, bins, formats, pngScale };
 }
 
 /** After the scan, when the metrics are known: InputError for an unknown --metric. */

@@ -1,33 +1,31 @@
 import { formatNumber } from './axis.js';
 import type { MetricKind } from './group-summary.js';
-import type { ReportGroup } from './report-group.js';
+import type { ParamColumn, ReportGroup } from './report-group.js';
+import { formatMeanSd, formatRateInterval } from './significant.js';
 import { wilsonInterval } from './wilson.js';
 
 export type TableCell = number | string | boolean | null;
 
-/** A leading column of the table: a parameter value, or one edge of a bin. */
-export interface DimensionColumn {
-  readonly name: string;
-  /** Where a person reads it: `name (unit)`. */
-  readonly label: string;
-}
-
 export interface SummaryTable {
   readonly columns: readonly string[];
   readonly rows: readonly (readonly TableCell[])[];
-  /** The same table for people: combined interval and mean ± sd columns. */
+  /** The same table for people: combined interval and mean ± sd columns, digits matching the uncertainty. */
   readonly display: { readonly columns: readonly string[]; readonly rows: readonly (readonly string[])[] };
 }
 
+/** Characters of a job key shown to people; `inspect` takes any unique prefix. */
+export const SHORT_KEY = 12;
+
 /**
- * The per-point table: varied values (or bin edges), trials done and
- * planned, successes, success rate with its 95% Wilson interval, and mean and
- * sample sd of every other scalar metric (booleans as rates). Metrics that
- * were null in some trials get a `<metric>_n` column with their own count.
+ * The per-point table: parameter values, trials done and planned, successes,
+ * success rate with its 95% Wilson interval, mean and sample sd of every
+ * other scalar metric (booleans as rates), and the job key of one successful
+ * and one unsuccessful trial (for `inspect`). Metrics that were null in some
+ * trials get a `<metric>_n` column with their own count.
  */
 export function buildTable(
-  dims: readonly DimensionColumn[],
-  rows: readonly Pick<ReportGroup, 'dims' | 'planned' | 'summary'>[],
+  params: readonly ParamColumn[],
+  rows: readonly Pick<ReportGroup, 'values' | 'planned' | 'summary'>[],
   kinds: ReadonlyMap<string, MetricKind>,
 ): SummaryTable {
   const metricNames = [...kinds.keys()].sort();
@@ -35,7 +33,7 @@ export function buildTable(
     metricNames.filter((m) => rows.some((r) => (r.summary.metrics.get(m)?.count ?? 0) < r.summary.n)),
   );
   const columns: string[] = [
-    ...dims.map((d) => d.name),
+    ...params.map((d) => d.name),
     'n',
     'planned',
     'successes',
@@ -44,7 +42,7 @@ export function buildTable(
     'success_hi',
   ];
   const displayColumns: string[] = [
-    ...dims.map((d) => d.label),
+    ...params.map((d) => d.label),
     'n / planned',
     'successes',
     'success rate [95% Wilson]',
@@ -53,8 +51,10 @@ export function buildTable(
     if (kinds.get(m) === 'boolean') columns.push(`${m}_rate`);
     else columns.push(`${m}_mean`, `${m}_sd`);
     if (partial.has(m)) columns.push(`${m}_n`);
-    displayColumns.push(kinds.get(m) === 'boolean' ? `${m} (rate)` : `${m} (mean ± sd)`);
+    displayColumns.push(kinds.get(m) === 'boolean' ? `${m} (rate [95% Wilson])` : `${m} (mean ± sd)`);
   }
+  columns.push('success_job', 'failure_job');
+  displayColumns.push('a trial to inspect');
   const out: TableCell[][] = [];
   const display: string[][] = [];
   for (const row of rows) {
@@ -62,7 +62,7 @@ export function buildTable(
     const interval = wilsonInterval(s.successes, s.n);
     const rate = s.n === 0 ? null : s.successes / s.n;
     const cells: TableCell[] = [
-      ...row.dims,
+      ...params.map((p) => row.values[p.name] ?? null),
       s.n,
       row.planned,
       s.successes,
@@ -71,12 +71,13 @@ export function buildTable(
       interval?.hi ?? null,
     ];
     const shown: string[] = [
-      ...row.dims.map((d) => (d === null ? '' : typeof d === 'number' ? formatNumber(d) : String(d))),
+      ...params.map((p) => {
+        const v = row.values[p.name];
+        return v === undefined ? '' : typeof v === 'number' ? formatNumber(v) : String(v);
+      }),
       `${s.n} / ${row.planned}`,
       String(s.successes),
-      rate === null || interval === null
-        ? ''
-        : `${rate.toFixed(3)} [${interval.lo.toFixed(3)}, ${interval.hi.toFixed(3)}]`,
+      rate === null || interval === null ? '' : formatRateInterval(rate, interval.lo, interval.hi),
     ];
     for (const m of metricNames) {
       const stats = s.metrics.get(m);
@@ -84,22 +85,32 @@ export function buildTable(
       const sd = stats?.sd() ?? null;
       if (kinds.get(m) === 'boolean') {
         cells.push(mean);
-        shown.push(mean === null ? '' : mean.toFixed(3));
+        const count = stats?.count ?? 0;
+        const hits = Math.round((mean ?? 0) * count);
+        const ci = wilsonInterval(hits, count);
+        shown.push(mean === null || ci === null ? '' : formatRateInterval(mean, ci.lo, ci.hi));
       } else {
         cells.push(mean, sd);
-        shown.push(
-          mean === null ? '' : sd === null ? formatNumber(mean) : `${formatNumber(mean)} ± ${formatNumber(sd)}`,
-        );
+        shown.push(mean === null ? '' : formatMeanSd(mean, sd));
       }
       if (partial.has(m)) cells.push(stats?.count ?? 0);
     }
+    cells.push(s.successKey, s.failureKey);
+    shown.push(
+      [
+        s.successKey === null ? null : `success ${s.successKey.slice(0, SHORT_KEY)}`,
+        s.failureKey === null ? null : `no success ${s.failureKey.slice(0, SHORT_KEY)}`,
+      ]
+        .filter((t) => t !== null)
+        .join(', '),
+    );
     out.push(cells);
     display.push(shown);
   }
   return { columns, rows: out, display: { columns: displayColumns, rows: display } };
 }
 
-function csvField(value: TableCell): string {
+export function csvField(value: TableCell): string {
   if (value === null) return '';
   if (typeof value === 'number') return Number.isFinite(value) ? String(value) : '';
   const text = String(value);
@@ -111,7 +122,7 @@ function csvField(value: TableCell): string {
  * are quoted as RFC 4180 says, but lines end in LF, not CRLF: LF is what
  * pandas and R read by default.
  */
-export function toCsv(table: SummaryTable): string {
+export function toCsv(table: Pick<SummaryTable, 'columns' | 'rows'>): string {
   const lines = [table.columns.map(csvField).join(',')];
   for (const row of table.rows) lines.push(row.map(csvField).join(','));
   return `${lines.join('\n')}\n`;

@@ -26,7 +26,7 @@ const at = (succeeded: number, failed = 0): RunProgress => ({
 describe('progress display', () => {
   // Expected figures below are plain arithmetic on the inputs (common practice, no source).
   it('writes a plain line with count, percent, rate and time left', () => {
-    expect(progressLine(at(9, 1), 5)).toBe('progress: 10/40 jobs (25%), 2.0 jobs/s, elapsed 5s, left ~15s, failed 1');
+    expect(progressLine(at(9, 1), 5)).toBe('progress: 10/40 jobs (25%), 2.0 jobs/s, elapsed 5s, left ~15s, errors 1');
   });
 
   it('prints plain lines no more often than the interval, and a last line when stopped', () => {
@@ -45,8 +45,8 @@ describe('progress display', () => {
     display.stop(at(40));
     const lines = out.text().trimEnd().split('\n');
     expect(lines).toEqual([
-      'progress: 5/40 jobs (12%), 1.0 jobs/s, elapsed 5s, left ~35s, failed 0',
-      'progress: 40/40 jobs (100%), 4.0 jobs/s, elapsed 10s, left ~0s, failed 0',
+      'progress: 5/40 jobs (12%), 1.0 jobs/s, elapsed 5s, left ~35s, errors 0',
+      'progress: 40/40 jobs (100%), 4.0 jobs/s, elapsed 10s, left ~0s, errors 0',
     ]);
   });
 

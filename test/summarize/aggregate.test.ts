@@ -88,14 +88,16 @@ describe('aggregateRecords', () => {
     ];
     const result = await aggregateRecords(records, (r) => String(r.point['a']));
     const rows = [1, 2, 3].map((a) => ({
-      dims: [a],
+      values: { a },
       planned: 263,
       summary: result.groups.get(String(a)) ?? new GroupSummary(),
     }));
     const csv = toCsv(buildTable([{ name: 'a', label: 'a' }], rows, result.metricKinds))
       .trimEnd()
       .split('\n');
-    expect(csv[0]).toBe('a,n,planned,successes,success_rate,success_lo,success_hi,dwell_mean,dwell_sd');
+    expect(csv[0]).toBe(
+      'a,n,planned,successes,success_rate,success_lo,success_hi,dwell_mean,dwell_sd,success_job,failure_job',
+    );
     expect(csv.length).toBe(4);
     const first = (csv[1] ?? '').split(',').map(Number);
     expect(first.slice(0, 4)).toEqual([1, 263, 263, 81]);
@@ -104,7 +106,7 @@ describe('aggregateRecords', () => {
     expect(first[6]?.toFixed(4)).toBe('0.3662');
     expect(first[8]).toBe(0);
     // A point without records: zero counts and empty fields (NA for pandas and R).
-    expect(csv[3]).toBe('3,0,263,0,,,,,');
+    expect(csv[3]).toBe('3,0,263,0,,,,,,,');
   });
 });
 

@@ -74,27 +74,44 @@ describe('buildReport on a finished grid sweep', () => {
     const cells = cellTags(svg);
     expect(cells.length).toBe(22);
     for (const cell of cells) expect(attr(cell, 'data-n')).toBe('4');
-    expect(svg).toContain('successRate (dimensionless)');
+    // A pure number (unit 1) is named alone; a unit is said.
+    expect(svg).toMatch(/<text class="x-title"[^>]*>successRate<\/text>/);
     expect(svg).toContain('burnMs (ms)');
     expect(svg).not.toContain('class="cell empty');
+    // Nothing is missing, so the legend explains neither hatching nor empty cells.
+    expect(svg).not.toContain('fewer trials than planned');
+    expect(svg).not.toContain('no trials yet');
   });
 
-  it('renders a PNG of the size the SVG declares, with visible text', async () => {
+  it('renders a PNG at twice the size the SVG declares by default, with visible text', async () => {
     const svg = await readFile(join(folder.dir, 'report', 'phase-success.svg'), 'utf8');
     const png = decodePng(await readFile(join(folder.dir, 'report', 'phase-success.png')));
     const root = /<svg [^>]*>/.exec(svg)?.[0] ?? '';
-    expect(png.width).toBe(Number(attr(root, 'width')));
-    expect(png.height).toBe(Number(attr(root, 'height')));
-    // The title is black text at y 10..28 from the plot's left edge: some pixels there must be dark.
-    const left = Number(attr(root, 'data-plot-left'));
+    expect(png.width).toBe(2 * Number(attr(root, 'width')));
+    expect(png.height).toBe(2 * Number(attr(root, 'height')));
+    // The title is black text at y 10..28 (SVG units) from the plot's left edge: some pixels there must be dark.
+    const left = 2 * Number(attr(root, 'data-plot-left'));
     let dark = 0;
-    for (let y = 10; y < 28; y++) {
-      for (let x = left; x < left + 200; x++) {
+    for (let y = 20; y < 56; y++) {
+      for (let x = left; x < left + 400; x++) {
         const i = (y * png.width + x) * 4;
         if ((png.rgba[i] ?? 255) < 80 && (png.rgba[i + 1] ?? 255) < 80 && (png.rgba[i + 2] ?? 255) < 80) dark += 1;
       }
     }
-    expect(dark).toBeGreaterThan(50);
+    expect(dark).toBeGreaterThan(200);
+  });
+
+  it('renders the PNG at the scale asked for', async () => {
+    await buildReport({ dir: folder.dir, formats: ['png', 'svg'], pngScale: 3 });
+    const svg = await readFile(join(folder.dir, 'report', 'phase-success.svg'), 'utf8');
+    const png = decodePng(await readFile(join(folder.dir, 'report', 'phase-success.png')));
+    expect(png.width).toBe(3 * Number(attr(/<svg [^>]*>/.exec(svg)?.[0] ?? '', 'width')));
+  });
+
+  it('refuses a PNG scale out of range, naming the option', async () => {
+    await expect(buildReport({ dir: folder.dir, pngScale: 9 })).rejects.toThrow(
+      /--png-scale: must be a whole number from 1 to 8/,
+    );
   });
 
   it('states the sweep in index.html and inlines the diagram', async () => {
@@ -109,7 +126,7 @@ describe('buildReport on a finished grid sweep', () => {
 
   it('writes only the formats asked for', async () => {
     const result = await buildReport({ dir: folder.dir, formats: ['csv'] });
-    expect(result.files.map((f) => f.split('/').pop())).toEqual(['points.csv']);
+    expect(result.files.map((f) => f.split('/').pop())).toEqual(['points.csv', 'trials.csv']);
     expect(result.indexHtml).toBeNull();
   });
 
@@ -171,15 +188,23 @@ describe('buildReport on a half-finished sweep', () => {
     expect(folder.written).toBe(57);
     expect(result.completedJobs).toBe(57);
     expect(result.plannedJobs).toBe(88);
-    expect(result.incompleteCells).toBe(10);
+    // 9 points with one of 4 replicates are incomplete; (1, 1 ms) has none: empty, not incomplete.
+    expect(result.incompleteCells).toBe(9);
+    expect(result.emptyCells).toBe(1);
     const svg = await readFile(join(folder.dir, 'report', 'phase-success.svg'), 'utf8');
     const cells = cellTags(svg);
-    expect(cells.filter((c) => /class="cell [^"]*incomplete/.test(c)).length).toBe(10);
-    expect(cells.filter((c) => /class="cell empty/.test(c)).length).toBe(1);
-    // Hatching is drawn over exactly those cells.
+    expect(cells.filter((c) => /class="cell [^"]*incomplete/.test(c)).length).toBe(9);
+    const empty = cells.filter((c) => /class="cell empty/.test(c));
+    expect(empty.length).toBe(1);
+    expect(empty[0]).toContain('class="cell empty complete"');
+    // Hatching is drawn over exactly the incomplete cells, not over the empty one.
     const marks = /<g class="incomplete-marks"[^>]*>([\s\S]*?)<\/g>/.exec(svg)?.[1] ?? '';
-    expect((marks.match(/<rect /g) ?? []).length).toBe(10);
+    expect((marks.match(/<rect /g) ?? []).length).toBe(9);
+    const emptyX = attr(empty[0] ?? '', 'x');
+    const emptyY = attr(empty[0] ?? '', 'y');
+    expect(marks).not.toContain(`x="${emptyX}" y="${emptyY}"`);
     expect(svg).toContain('fewer trials than planned');
+    expect(svg).toContain('no trials yet');
   });
 
   it('states the completed fraction, the failures and the torn line in index.html', async () => {
@@ -208,25 +233,24 @@ sampler: { kind: lhs, points: 40 }
   });
   afterAll(async () => folder.cleanup());
 
-  it('bins the points over x and puts the bin edges in the table', async () => {
+  it('writes one row per sampled point, with its own trials, and bins the diagram cells over x', async () => {
     await buildReport({ dir: folder.dir, bins: 4, formats: ['csv', 'svg'] });
-    const { header, rows } = parseCsv(await readFile(join(folder.dir, 'report', 'bins.csv'), 'utf8'));
-    expect(header.slice(0, 5)).toEqual(['successRate_lo', 'successRate_hi', 'burnMs', 'n', 'planned']);
-    expect(rows.length).toBe(8);
+    const { header, rows } = parseCsv(await readFile(join(folder.dir, 'report', 'points.csv'), 'utf8'));
+    expect(header.slice(0, 4)).toEqual(['successRate', 'burnMs', 'n', 'planned']);
     const records = await readShardRecords(folder.dir);
     expect(records.length).toBe(80);
+    // 40 Latin hypercube points (distinct successRate values), 2 replicates each.
+    expect(rows.length).toBe(40);
     for (const row of rows) {
-      const [lo, hi, burn, n] = row.map(Number);
-      // Edges 0, 0.25, 0.5, 0.75, 1 (4 equal bins of [0, 1]); the last bin is closed.
-      expect([0, 0.25, 0.5, 0.75]).toContain(lo);
-      expect(hi).toBeCloseTo((lo ?? 0) + 0.25, 12);
-      const inside = records.filter((r) => {
-        const v = r.point['successRate'] ?? NaN;
-        return r.point['burnMs'] === burn && v >= (lo ?? 0) && (v < (hi ?? 0) || (hi === 1 && v === 1));
-      });
-      expect(n).toBe(inside.length);
+      const [rate, burn, n, planned] = row.map(Number);
+      expect(planned).toBe(2);
+      expect(n).toBe(records.filter((r) => r.point['successRate'] === rate && r.point['burnMs'] === burn).length);
     }
     const svg = await readFile(join(folder.dir, 'report', 'phase-success.svg'), 'utf8');
-    expect(cellTags(svg).length).toBe(8);
+    // 4 bins of successRate x 2 burnMs values; the cells pool the points inside them.
+    const cells = cellTags(svg);
+    expect(cells.length).toBe(8);
+    const pooled = cells.reduce((sum, c) => sum + Number(attr(c, 'data-n')), 0);
+    expect(pooled).toBe(80);
   });
 });

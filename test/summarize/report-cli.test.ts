@@ -24,7 +24,15 @@ describe('recallscape report', () => {
     expect(result.code).toBe(0);
     expect(result.stdout).toContain('completed 44 of 88 jobs (50.0%)');
     const names = (await readdir(join(folder.dir, 'report'))).sort();
-    expect(names).toEqual(['index.html', 'phase-success.png', 'phase-success.svg', 'points.csv', 'points.md']);
+    expect(names).toEqual([
+      'index.html',
+      'phase-success.png',
+      'phase-success.svg',
+      'points.csv',
+      'points.md',
+      'sweep.md',
+      'trials.csv',
+    ]);
     for (const name of names) expect(result.stdout).toContain(join('report', name));
     const csv = (await readFile(join(folder.dir, 'report', 'points.csv'), 'utf8')).trimEnd().split('\n');
     expect(csv.length).toBe(1 + 22);

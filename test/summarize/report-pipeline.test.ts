@@ -36,9 +36,9 @@ describe('the report pipeline', () => {
     expect(await readFile(join(folder.dir, 'report', 'group-count.txt'), 'utf8')).toBe('22 groups, 66 trials\n');
     expect(result.files.map((f) => f.split('/').pop())).toContain('group-count.txt');
     const html = await readFile(join(folder.dir, 'report', 'index.html'), 'utf8');
-    const diagrams = html.indexOf('<h2>Phase diagrams</h2>');
+    const diagrams = html.indexOf('<h2 id="diagrams">Phase diagrams</h2>');
     const mine = html.indexOf('<h2 id="group-count">22 groups</h2>');
-    const table = html.indexOf('<h2>Per-point table</h2>');
+    const table = html.indexOf('<h2 id="points">Per-point table</h2>');
     expect(diagrams).toBeGreaterThan(0);
     expect(mine).toBeGreaterThan(diagrams);
     expect(table).toBeGreaterThan(mine);

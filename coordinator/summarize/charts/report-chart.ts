@@ -3,12 +3,17 @@ import type { ReportFormat } from '../report-settings.js';
 
 /** What one chart adds to a report. */
 export interface ChartOutput {
-  /** Files for the report folder, by name relative to it, in the order they are listed. */
-  readonly files: ReadonlyArray<readonly [name: string, data: string | Uint8Array]>;
+  /**
+   * Files for the report folder, by name relative to it, in the order they
+   * are listed. An async iterable is streamed to disk (tables of every trial).
+   */
+  readonly files: ReadonlyArray<readonly [name: string, data: string | Uint8Array | AsyncIterable<string>]>;
   /** Its part of index.html (headings included), or null for none. */
   readonly section: string | null;
-  /** Diagram cells with fewer trials than planned (counted into the command's summary line). */
+  /** Diagram cells with some but fewer trials than planned (for the command's summary line). */
   readonly incompleteCells?: number;
+  /** Diagram cells with planned trials and none done yet. */
+  readonly emptyCells?: number;
 }
 
 /**
@@ -20,5 +25,5 @@ export interface ReportChart {
   readonly id: string;
   /** Where its section goes on the page: lower first (files are listed in registry order). */
   readonly pageRank: number;
-  render(report: CollectedReport, want: (format: ReportFormat) => boolean): ChartOutput;
+  render(report: CollectedReport, want: (format: ReportFormat) => boolean): ChartOutput | Promise<ChartOutput>;
 }

@@ -1,6 +1,7 @@
 import type { Model, RunOptions, RunOutput, TracePanel } from '../../model.js';
 import { createRandom } from '../../random.js';
 import { estimateCost } from './cost.js';
+import { metricInfo } from './metric-info.js';
 import { type BcpnnParams, bcpnnParamsSchema, paramInfo, resolveShape } from './params.js';
 import { achievedOverlap, generateSequences, indexPatterns, type PatternSet } from './patterns.js';
 import { Recaller } from './recall.js';
@@ -37,6 +38,12 @@ export function recallTrial(p: BcpnnParams, seed: number, parts: TrialParts, opt
   const noise = p.noise > 0 ? createRandom(seed, 'noise') : null;
   const active = new Int32Array(recaller.steps);
   const trace: TracePanel[] = [];
+  const members = set.patterns.map((): { sequence: number; position: number }[] => []);
+  set.ids.forEach((seq, sequence) => {
+    seq.forEach((id, position) => {
+      members[id]?.push({ sequence, position });
+    });
+  });
   const correctPrefix: number[] = [];
   const firstError: (number | null)[] = [];
   const dwell: number[] = [];
@@ -58,6 +65,7 @@ export function recallTrial(p: BcpnnParams, seed: number, parts: TrialParts, opt
         stepMs: p.dt,
         steps: recaller.steps,
         seriesLabels: set.patterns.map((_, k) => `p${k}`),
+        seriesMembers: members,
         markEndMs: shape.nCue * p.dt,
         values,
       });
@@ -84,6 +92,7 @@ export const bcpnnSequences: Model<typeof bcpnnParamsSchema> = {
     'Modular attractor network (hypercolumns of minicolumns) trained with the BCPNN rule on K sequences with controlled overlap, then cued recall of each sequence; success when every sequence is replayed in order.',
   params: bcpnnParamsSchema,
   paramInfo,
+  metricInfo,
   cost: estimateCost,
   run(params: BcpnnParams, seed: number, options: RunOptions = {}): RunOutput {
     const parts = trainTrial(params, seed);

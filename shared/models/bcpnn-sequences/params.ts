@@ -351,14 +351,20 @@ export function resolveShape(p: BcpnnParams): ResolvedShape {
 }
 
 export const paramInfo: Readonly<Record<keyof typeof shape, ParamInfo>> = {
-  hypercolumns: { unit: 'count', description: 'Number of hypercolumns H (modules with one winner each); default 10' },
-  minicolumns: { unit: 'count', description: 'Minicolumns (units) per hypercolumn M' },
-  sequenceCount: { unit: 'count', description: 'Number of stored sequences K; default 2' },
-  sequenceLength: { unit: 'count', description: 'Patterns per sequence L; default 6' },
-  patternOverlap: { unit: '1', description: 'Fraction of hypercolumns an overlapped pattern shares with sequence 1' },
-  overlapLength: { unit: 'count', description: 'Number of consecutive overlapped positions k' },
+  hypercolumns: {
+    unit: 'hypercolumns',
+    description: 'Number of hypercolumns H (modules with one winner each); default 10',
+  },
+  minicolumns: { unit: 'minicolumns per hypercolumn', description: 'Minicolumns (units) per hypercolumn M' },
+  sequenceCount: { unit: 'sequences', description: 'Number of stored sequences K; default 2' },
+  sequenceLength: { unit: 'patterns', description: 'Patterns per sequence L; default 6' },
+  patternOverlap: {
+    unit: 'fraction of hypercolumns',
+    description: 'Fraction of hypercolumns an overlapped pattern shares with sequence 1',
+  },
+  overlapLength: { unit: 'positions', description: 'Number of consecutive overlapped positions k' },
   overlapStart: {
-    unit: 'count',
+    unit: 'position',
     description:
       'First overlapped position (0 is the cue); default floor((L-k)/2), raised to 1 with explicit sequences',
   },
@@ -371,7 +377,7 @@ export const paramInfo: Readonly<Record<keyof typeof shape, ParamInfo>> = {
   tauZPost: { unit: 'ms', description: 'Time constant of the postsynaptic z-traces' },
   tauP: { unit: 'ms', description: 'Time constant of the probability traces' },
   eps: { unit: '1', description: 'Regulariser added to probability estimates before the logarithm' },
-  epochs: { unit: 'count', description: 'Training passes over all sequences' },
+  epochs: { unit: 'passes', description: 'Training passes over all sequences' },
   patternDuration: { unit: 'ms', description: 'Time each pattern is clamped during training' },
   gapDuration: { unit: 'ms', description: 'Silent time after each pattern during training' },
   restDuration: { unit: 'ms', description: 'Silent time after each sequence during training' },
@@ -385,6 +391,9 @@ export const paramInfo: Readonly<Record<keyof typeof shape, ParamInfo>> = {
   cueStrength: { unit: '1', description: 'Extra input to the cued units' },
   recallDuration: { unit: 'ms', description: 'Free recall time after the cue' },
   noise: { unit: '1', description: 'Standard deviation of Gaussian input noise per unit per step' },
-  matchThreshold: { unit: '1', description: 'Least pattern match that counts as an active pattern' },
+  matchThreshold: {
+    unit: 'fraction of hypercolumns',
+    description: 'Least pattern match that counts as an active pattern',
+  },
   minDwell: { unit: 'ms', description: 'Decoded runs shorter than this are dropped before scoring' },
 };

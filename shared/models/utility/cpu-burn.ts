@@ -23,6 +23,11 @@ export const cpuBurnModel: Model<typeof params> = {
     burnMs: { unit: 'ms', description: 'Busy time per job' },
     successRate: { unit: '1', description: 'Probability that a trial counts as a success' },
   },
+  metricInfo: {
+    success: { type: 'boolean', description: 'a uniform draw fell below successRate' },
+    draw: { type: 'number', description: 'the uniform draw in [0, 1) that decided success' },
+    busy: { type: 'boolean', description: 'the busy loop ran at least once (always true when burnMs > 0)' },
+  },
   cost: (p) => p.burnMs * 1e6,
   run: (p, seed) => {
     const until = performance.now() + p.burnMs;

@@ -17,6 +17,11 @@ export const noOpModel: Model<typeof params> = {
   summary: 'Does nothing; measures the pipeline overhead per job.',
   params,
   paramInfo: { value: { unit: '1', description: 'Echoed back as a metric' } },
+  metricInfo: {
+    success: { type: 'boolean', description: 'always true' },
+    value: { type: 'number', description: 'the value parameter, echoed' },
+    seedParity: { type: 'integer', description: 'the job seed modulo 2' },
+  },
   cost: () => 1,
   run: (p, seed) => ({ metrics: { success: true, value: p.value, seedParity: seed % 2 } }),
 };
