@@ -6,6 +6,9 @@ import { ROOT, runCli } from './helpers.js';
 
 interface Service {
   image?: string;
+  build?: string | { context?: string };
+  pull_policy?: string;
+  init?: boolean;
   entrypoint?: string[];
   command?: string[];
   environment?: Record<string, string>;
@@ -55,10 +58,31 @@ describe('docker-compose.yml', () => {
     expect(worker?.command).toContain('/results');
   });
 
+  it('runs recallscape from the image the Dockerfile builds, never from a pulled one', async () => {
+    const { services } = await compose();
+    const ours = Object.entries(services).filter(([, s]) => s.build !== undefined);
+    expect(ours.map(([name]) => name).sort()).toEqual(['progress', 'submit', 'worker']);
+    for (const [name, service] of ours) {
+      const context = typeof service.build === 'string' ? service.build : service.build?.context;
+      expect(context, name).toBe('.');
+      // Compose pulls an image that has a name before it builds unless told to build: a registry
+      // image of the same name would run instead (Compose file reference, pull_policy; from memory).
+      expect(service.pull_policy, name).toBe('build');
+      // The Dockerfile's ENTRYPOINT is the command; an override would bypass the installed package.
+      expect(service.entrypoint, name).toBeUndefined();
+      expect(service.init, name).toBe(true);
+    }
+    // Only the submit service reads sweep files from the host, read-only, at the image's working folder.
+    const dockerfile = await readFile(join(ROOT, 'Dockerfile'), 'utf8');
+    const workdir = [...dockerfile.matchAll(/^WORKDIR\s+(\S+)/gm)].at(-1)?.[1];
+    expect(services['submit']?.volumes).toContain(`./:${workdir}:ro`);
+    expect(services['worker']?.volumes?.some((v) => v.startsWith('./'))).toBe(false);
+  });
+
   it('uses only commands, options and environment variables that the CLI has', async () => {
     const { services } = await compose();
-    const ours = Object.entries(services).filter(([, s]) => s.entrypoint?.join(' ') === 'node bin/recallscape.js');
-    expect(ours.map(([name]) => name).sort()).toEqual(['progress', 'submit', 'worker']);
+    const ours = Object.entries(services).filter(([, s]) => s.build !== undefined);
+    expect(ours.length).toBe(3);
     const helps = await Promise.all(ours.map(([, s]) => runCli([s.command?.[0] ?? '', '--help'])));
     ours.forEach(([name, service], i) => {
       const help = helps[i];
