@@ -12,6 +12,7 @@ const SECTIONS: readonly Section[] = [
   { name: 'queue', load: () => import('./queue.js') },
   { name: 'summarize', load: () => import('./summarize.js') },
   { name: 'external', load: () => import('./external.js') },
+  { name: 'startup', load: () => import('./startup.js') },
 ];
 
 const wanted = process.argv.slice(2);

@@ -25,6 +25,52 @@ const COMMANDS: Readonly<Record<string, () => Promise<Register>>> = {
   inspect: async () => (await import('./commands/inspect.js')).registerInspect,
 };
 
+/**
+ * The top-level help and usage errors list every command from this table, so
+ * they load no command module (the queue commands alone take most of a
+ * second to load). Each line must match the command's own `.argument()` and
+ * `.description()`; test/cli/startup.test.ts checks that.
+ */
+const SUMMARIES: Readonly<Record<keyof typeof COMMANDS, readonly [args: string, summary: string]>> = {
+  demo: [
+    '',
+    'Run the built-in demo sweep (recall of two overlapping sequences) on this machine, a couple of minutes on 2 cores',
+  ],
+  simulate: ['', 'Run one trial of a model and print its metrics as one JSON object'],
+  schema: ['', 'print the JSON Schema of the sweep file (for editor validation), or write it to a file'],
+  plan: [
+    '<file>',
+    'Check a sweep file and show its jobs, a sample of its points and an estimate of core-hours; runs nothing else',
+  ],
+  run: ['<file>', 'Run every job of a sweep file that has no result yet, on this machine; run it again to resume'],
+  submit: ['<file>', 'Queue every job of a sweep that has no result yet, for workers on any machine; safe to repeat'],
+  worker: ['', 'Serve queued jobs of any sweep until stopped (Ctrl-C or SIGTERM finishes running jobs first)'],
+  progress: [
+    '<dir>',
+    'How far a sweep is: finished jobs from the result files, waiting/running/failed jobs from the queue, rate and time left',
+  ],
+  requeue: [
+    '<dir>',
+    'Resume a sweep: queue every job that has no result and is not in the queue (also after Redis lost everything)',
+  ],
+  gather: [
+    '<dir>',
+    'Copy records of finished jobs held in Redis into this folder, then free them in Redis (for workers without a shared disk)',
+  ],
+  cancel: [
+    '<dir>',
+    "Remove the sweep's waiting jobs from the queue; running jobs finish and keep their results (`requeue` resumes)",
+  ],
+  report: [
+    '<dir>',
+    'Summarise a sweep folder into tables, phase diagrams and index.html (in DIR/report/); works while the sweep is still running',
+  ],
+  inspect: [
+    '<dir>',
+    'Re-run one job of a sweep deterministically, check it against its stored result (exit 1 if they differ), and draw its recall trace as SVG',
+  ],
+};
+
 // Output that cannot be written (a closed pipe, a full disk) ends the command
 // with one line instead of an unhandled 'error' event and a stack trace.
 process.stdout.on('error', (error: NodeJS.ErrnoException) => {
@@ -48,13 +94,18 @@ const program = new Command()
     process.exit(EXIT_INPUT);
   });
 
-// The first word that is not an option names the sub-command; anything else
-// (help, a typo, no command) loads them all so help and errors list them.
-const first = process.argv.slice(2).find((arg) => !arg.startsWith('-'));
-const wanted = first !== undefined && Object.hasOwn(COMMANDS, first) ? [first] : Object.keys(COMMANDS);
-for (const name of wanted) {
-  const load = COMMANDS[name];
-  if (load !== undefined) (await load())(program);
+// The first word that is not an option names the sub-command (`help run` asks
+// for run's help): only that module is loaded. Anything else (--version, help,
+// a typo, no command) gets every command from SUMMARIES, which loads none.
+const words = process.argv.slice(2).filter((arg) => !arg.startsWith('-'));
+const first = words[0] === 'help' ? words[1] : words[0];
+const load = first !== undefined && Object.hasOwn(COMMANDS, first) ? COMMANDS[first] : undefined;
+if (load !== undefined) {
+  (await load())(program);
+} else {
+  for (const [name, [args, summary]] of Object.entries(SUMMARIES)) {
+    program.command(args === '' ? name : `${name} ${args}`).description(summary);
+  }
 }
 
 await program.parseAsync(process.argv);

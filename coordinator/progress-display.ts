@@ -1,4 +1,5 @@
-import cliProgress from 'cli-progress';
+import { createRequire } from 'node:module';
+import type CliProgress from 'cli-progress';
 import type { RunProgress } from './run-sweep.js';
 
 /** Shows a sweep run's progress to a person: a live bar on a terminal, plain lines elsewhere. */
@@ -95,7 +96,11 @@ function lineDisplay(
   };
 }
 
+// cli-progress is loaded only when a bar is drawn: `plan` and piped runs never need it.
+const requireCjs = createRequire(import.meta.url);
+
 function barDisplay(stream: NodeJS.WritableStream, started: number, now: () => number): ProgressDisplay {
+  const cliProgress = requireCjs('cli-progress') as typeof CliProgress;
   const bar = new cliProgress.SingleBar({
     stream,
     format: 'jobs [{bar}] {percentage}% {value}/{total} | {rate} jobs/s | left ~{left} | errors {failed}',

@@ -1,4 +1,4 @@
-import { Queue } from 'bullmq';
+import type { Queue } from 'bullmq';
 import { type Command, Option } from 'commander';
 import type { Redis } from 'ioredis';
 import type { Logger } from '../shared/logger.js';
@@ -77,6 +77,8 @@ export async function openQueueSession(settings: QueueSettings, logger?: Logger)
     connectionName: 'recallscape-coordinator',
     ...(logger !== undefined ? { logger } : {}),
   });
+  // BullMQ is loaded once Redis answers: help, bad input and an unreachable Redis are reported without it.
+  const { Queue } = await import('bullmq');
   const queue = new Queue(settings.queue.name, {
     connection: client,
     prefix: settings.queue.prefix,

@@ -104,7 +104,9 @@ export async function connectRedis(options: ConnectOptions): Promise<RedisConnec
       options.logger?.debug({ redis: target.masked, attempt }, 'connected to Redis');
       return { client, target };
     } catch (error) {
-      client.disconnect();
+      // A refused or timed-out probe has already ended; disconnect() would then wait
+      // ioredis's disconnectTimeout (2 s) for a socket that is gone, delaying the exit.
+      if (client.status !== 'end') client.disconnect();
       verdict = explainRedisError(lastError ?? error, target);
     }
     const wait = Math.min(250 * 2 ** (attempt - 1), 2_000, deadline - Date.now());

@@ -1,5 +1,9 @@
+import { createRequire } from 'node:module';
 import { type Logger, pino } from 'pino';
-import pretty from 'pino-pretty';
+import type PinoPretty from 'pino-pretty';
+
+// pino-pretty is loaded only for a terminal: piped and service runs start without it.
+const requireCjs = createRequire(import.meta.url);
 
 export type { Logger };
 
@@ -30,6 +34,7 @@ export function createLogger(options: LoggerOptions): Logger {
   const base = { name: options.name, level, redact: { paths: [...REDACTED_PATHS], censor: '***' } };
   if (options.destination !== undefined) return pino(base, options.destination);
   if (process.stderr.isTTY === true) {
+    const pretty = requireCjs('pino-pretty') as typeof PinoPretty;
     return pino(base, pretty({ destination: 2, colorize: true, sync: true }));
   }
   return pino(base, pino.destination({ dest: 2, sync: true }));
