@@ -35,7 +35,10 @@ export interface BandwidthScore {
    */
   readonly logLikelihood: number | null;
   readonly reason: string | null;
-  /** Left-out points estimated by the local logistic fit (the others by local constant). */
+  /**
+   * Left-out points estimated by the local logistic fit (the others by local
+   * constant); for a null score, those counted before the sum was abandoned.
+   */
   readonly localLinear: number;
   /** How many locations were left out in turn (all, or MAX_LEFT_OUT). */
   readonly leftOut: number;
