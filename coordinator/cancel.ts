@@ -1,6 +1,7 @@
 import type { Logger } from '../shared/logger.js';
+import type { WorkQueue } from '../shared/queue/work-queue.js';
 import { ResultStore } from '../shared/store/result-store.js';
-import { collectSweepIds, removeJobs, WAITING_STATES } from './queue-scan.js';
+import type { LoadedSweep } from '../shared/sweep/load.js';
 import { type QueueSettings, withQueue } from './queue-session.js';
 
 export interface CancelResult {
@@ -11,19 +12,24 @@ export interface CancelResult {
   readonly active: number;
 }
 
-/** Take a sweep's not-yet-started jobs out of the queue; `requeue` puts them back. */
+/** `cancel DIR`: the sweep of the folder, cancelled in the queue the settings name. */
 export async function cancelSweep(
   dir: string,
   settings: QueueSettings,
   logger: Logger | undefined,
 ): Promise<CancelResult> {
-  const store = ResultStore.open(dir);
-  const sweep = await store.readSweep();
-  return withQueue(settings, logger, async ({ client, queue }) => {
-    const ids = await collectSweepIds(client, settings.queue, sweep.hash, [...WAITING_STATES, 'delayed']);
-    const removed = await removeJobs(queue, [...ids]);
-    const active = (await collectSweepIds(client, settings.queue, sweep.hash, ['active'])).size;
-    logger?.info({ sweep: sweep.spec.name, removed, active }, 'sweep cancelled');
-    return { name: sweep.spec.name, removed, active };
-  });
+  const sweep = await ResultStore.open(dir).readSweep();
+  return withQueue(settings, logger, (queue) => cancelIn(queue, sweep, logger));
+}
+
+/** Take a sweep's not-yet-started jobs out of the queue; `requeue` puts them back. */
+export async function cancelIn(
+  queue: WorkQueue,
+  sweep: LoadedSweep,
+  logger: Logger | undefined,
+): Promise<CancelResult> {
+  const removed = await queue.cancel(sweep.hash);
+  const { active } = await queue.counts(sweep.hash);
+  logger?.info({ sweep: sweep.spec.name, removed, active }, 'sweep cancelled');
+  return { name: sweep.spec.name, removed, active };
 }

@@ -3,6 +3,7 @@ import type { Point } from '../shared/schemas/records.js';
 import { countJobs, fullParams } from '../shared/sweep/expand.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { iteratePoints } from '../shared/sweep/points.js';
+import { runModel } from '../worker/run-model.js';
 import { formatDuration } from './progress-display.js';
 
 /** Default ceiling on jobs per sweep; `--yes` or `--max-jobs` lifts it. */
@@ -91,21 +92,19 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     // One untimed run first: the first call of a model includes compiling its
     // code, which would inflate a small sample several times over.
     try {
-      sweep.model.run(fullParams(sweep, timingPoints[0]!), jobSeed(sweep.spec.seed, 'calibration-warm-up'));
+      runModel(sweep.model, fullParams(sweep, timingPoints[0]!), jobSeed(sweep.spec.seed, 'calibration-warm-up'));
     } catch {
       // Reported below when the same point is timed.
     }
     for (const [i, point] of timingPoints.entries()) {
       const params = fullParams(sweep, point);
       const seed = jobSeed(sweep.spec.seed, `calibration-${i}`);
-      const started = performance.now();
       try {
-        sweep.model.run(params, seed);
+        seconds += runModel(sweep.model, params, seed).elapsedMs / 1000;
       } catch (error) {
         failures.push(error instanceof Error ? `${error.name}: ${error.message}` : String(error));
         continue;
       }
-      seconds += (performance.now() - started) / 1000;
       ops += Number(sweep.model.cost(params));
       jobs++;
     }

@@ -1,12 +1,10 @@
-import type { Redis } from 'ioredis';
-import { jobIdPrefix, keyOfJobId, type QueueTarget, stateRedisKey } from '../shared/queue-names.js';
+import type { SweepQueueCounts, WorkQueue } from '../shared/queue/work-queue.js';
 import type { FailureKind } from '../shared/schemas/records.js';
 import type { ResultStore, StoreWarning } from '../shared/store/result-store.js';
 import { countJobs } from '../shared/sweep/expand.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
-import { type QueueCounts, SCAN_PAGE, sweepQueueCounts } from './queue-scan.js';
 
-export interface QueueSide extends QueueCounts {
+export interface QueueSide extends SweepQueueCounts {
   /** Finished jobs whose record is only in Redis so far (no shared disk; `gather` copies them). */
   readonly finishedNotGathered: number;
 }
@@ -56,13 +54,13 @@ export function ratePerMinute(finishTimes: readonly number[]): number | null {
 }
 
 /**
- * Everything `progress` shows, from the files and (when a client is given)
- * from the queue, for this sweep's job ids only.
+ * Everything `progress` shows, from the files and (when a queue is given)
+ * from the queue, for this sweep's jobs only.
  */
 export async function sweepProgress(
   store: ResultStore,
   sweep: LoadedSweep,
-  redis?: { client: Redis; target: QueueTarget },
+  queue?: WorkQueue,
 ): Promise<ProgressSnapshot> {
   const planned = countJobs(sweep);
   let warnings = 0;
@@ -86,27 +84,19 @@ export async function sweepProgress(
     if (!doneKeys.has(failure.key)) failingKeys.add(failure.key);
   }
 
-  let queue: QueueSide | null = null;
-  if (redis !== undefined) {
-    const { client, target } = redis;
-    // Completed jobs carry their finish time as the sorted-set score: rate and totals without reading records.
+  let queueSide: QueueSide | null = null;
+  if (queue !== undefined) {
+    // Finished jobs carry their finish times: rate and totals without reading records.
     let finishedNotGathered = 0;
-    const prefix = jobIdPrefix(sweep.hash);
-    const completedKey = stateRedisKey(target, 'completed');
-    for (let start = 0; ; start += SCAN_PAGE) {
-      const page = await client.zrange(completedKey, start, String(start + SCAN_PAGE - 1), 'WITHSCORES');
-      for (let i = 0; i + 1 < page.length; i += 2) {
-        const id = page[i] as string;
-        if (!id.startsWith(prefix)) continue;
-        const key = keyOfJobId(id);
-        if (key === undefined || doneKeys.has(key)) continue;
-        doneKeys.add(key);
+    for await (const page of queue.finishedJobs(sweep.hash)) {
+      for (const job of page) {
+        if (doneKeys.has(job.key)) continue;
+        doneKeys.add(job.key);
         finishedNotGathered++;
-        finishTimes.push(Number(page[i + 1]));
+        finishTimes.push(job.finishedAt);
       }
-      if (page.length < 2 * SCAN_PAGE) break;
     }
-    queue = { ...(await sweepQueueCounts(client, target, sweep.hash)), finishedNotGathered };
+    queueSide = { ...(await queue.counts(sweep.hash)), finishedNotGathered };
   }
   for (const key of doneKeys) failingKeys.delete(key);
   const finished = doneKeys.size;
@@ -120,7 +110,7 @@ export async function sweepProgress(
     planned,
     onDisk,
     finished,
-    queue,
+    queue: queueSide,
     perMinute,
     etaSeconds,
     failuresByKind,

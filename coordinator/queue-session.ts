@@ -1,11 +1,13 @@
-import type { Queue } from 'bullmq';
 import { type Command, Option } from 'commander';
-import type { Redis } from 'ioredis';
 import type { Logger } from '../shared/logger.js';
-import { DEFAULT_QUEUE_NAME, DEFAULT_QUEUE_PREFIX, type QueueTarget, queueTarget } from '../shared/queue-names.js';
-import { parseRedisUrl, REDIS_URL_ENV, type RedisTarget, resolveRedisUrl } from '../shared/redis-url.js';
+import { openWorkQueue } from '../shared/queue/backends.js';
+import type { QueueSettings } from '../shared/queue/queue-settings.js';
+import { DEFAULT_QUEUE_NAME, DEFAULT_QUEUE_PREFIX, queueTarget } from '../shared/queue/queue-target.js';
+import type { WorkQueue } from '../shared/queue/work-queue.js';
+import { parseRedisUrl, REDIS_URL_ENV, resolveRedisUrl } from '../shared/redis-url.js';
 import { parseWholeNumber } from './cli-support.js';
-import { asServiceError, closeRedis, connectRedis } from './redis-connect.js';
+
+export type { QueueSettings } from '../shared/queue/queue-settings.js';
 
 /** What every Redis-using command accepts on its command line. */
 export interface QueueCliOptions {
@@ -35,13 +37,6 @@ export function addQueueOptions(command: Command, redisRequired = true): Command
     );
 }
 
-export interface QueueSettings {
-  readonly url: string;
-  readonly redis: RedisTarget;
-  readonly queue: QueueTarget;
-  readonly connectTimeoutMs: number;
-}
-
 /** Check every queue option without touching the network (bad input -> exit 2 before anything happens). */
 export function queueSettings(options: QueueCliOptions): QueueSettings {
   const url = resolveRedisUrl(options.redis);
@@ -60,65 +55,16 @@ export function optionalQueueSettings(options: QueueCliOptions): QueueSettings |
   return queueSettings(options);
 }
 
-/** A connected queue for one command; `close()` releases everything. */
-export interface QueueSession {
-  readonly settings: QueueSettings;
-  readonly client: Redis;
-  readonly queue: Queue;
-  close(): Promise<void>;
-}
-
-/** Connect (bounded, one clear ServiceError line on failure) and open the queue. */
-export async function openQueueSession(settings: QueueSettings, logger?: Logger): Promise<QueueSession> {
-  const { client } = await connectRedis({
-    url: settings.url,
-    connectTimeoutMs: settings.connectTimeoutMs,
-    longLived: false,
-    connectionName: 'recallscape-coordinator',
-    ...(logger !== undefined ? { logger } : {}),
-  });
-  // BullMQ is loaded once Redis answers: help, bad input and an unreachable Redis are reported without it.
-  const { Queue } = await import('bullmq');
-  const queue = new Queue(settings.queue.name, {
-    connection: client,
-    prefix: settings.queue.prefix,
-    // The event stream is for live dashboards only; keep it short (memory).
-    streams: { events: { maxLen: 1_000 } },
-  });
-  queue.on('error', (error) => logger?.warn({ reason: error.message }, 'queue trouble'));
-  try {
-    await queue.waitUntilReady();
-  } catch (error) {
-    await closeRedis(client);
-    throw asServiceError(error, settings.redis);
-  }
-  return {
-    settings,
-    client,
-    queue,
-    async close() {
-      try {
-        await queue.close();
-      } catch {
-        // The connection is already gone: nothing to flush.
-      }
-      await closeRedis(client);
-    },
-  };
-}
-
-/** Run `body` with an open queue session; Redis failures become one ServiceError line. */
+/** Run `body` with the queue open (connection failures are one ServiceError line); always closes it. */
 export async function withQueue<T>(
   settings: QueueSettings,
   logger: Logger | undefined,
-  body: (session: QueueSession) => Promise<T>,
+  body: (queue: WorkQueue) => Promise<T>,
 ): Promise<T> {
-  const session = await openQueueSession(settings, logger);
+  const queue = await openWorkQueue(settings, logger);
   try {
-    return await body(session);
-  } catch (error) {
-    throw asServiceError(error, settings.redis);
+    return await body(queue);
   } finally {
-    await session.close();
+    await queue.close();
   }
 }

@@ -1,5 +1,7 @@
 import type { Logger } from '../shared/logger.js';
+import type { WorkQueue } from '../shared/queue/work-queue.js';
 import { ResultStore } from '../shared/store/result-store.js';
+import type { LoadedSweep } from '../shared/sweep/load.js';
 import { type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
 import { type QueueSettings, withQueue } from './queue-session.js';
 
@@ -9,11 +11,7 @@ export interface RequeueResult extends EnqueueReport {
   readonly dir: string;
 }
 
-/**
- * The resume command: the result files say what is done, everything else
- * that Redis does not hold goes back in the queue. Works the same after a
- * crash, after `cancel`, or after Redis lost all its data.
- */
+/** `requeue DIR`: the sweep of the folder, requeued in the queue the settings name. */
 export async function requeueSweep(
   dir: string,
   settings: QueueSettings,
@@ -22,10 +20,23 @@ export async function requeueSweep(
 ): Promise<RequeueResult> {
   const store = ResultStore.open(dir);
   const sweep = await store.readSweep();
-  return withQueue(settings, logger, async ({ client, queue }) => {
-    const done = await store.completedKeys();
-    const report = await enqueueMissing(client, queue, settings.queue, sweep, done, { retryFailed });
-    logger?.info({ sweep: sweep.spec.name, enqueued: report.enqueued, retried: report.retried }, 'sweep requeued');
-    return { ...report, name: sweep.spec.name, hash: sweep.hash, dir: store.dir };
-  });
+  return withQueue(settings, logger, (queue) => requeueIn(queue, store, sweep, retryFailed, logger));
+}
+
+/**
+ * The resume command: the result files say what is done, everything else
+ * that the queue does not hold goes back in. Works the same after a crash,
+ * after `cancel`, or after Redis lost all its data.
+ */
+export async function requeueIn(
+  queue: WorkQueue,
+  store: ResultStore,
+  sweep: LoadedSweep,
+  retryFailed: boolean,
+  logger: Logger | undefined,
+): Promise<RequeueResult> {
+  const done = await store.completedKeys();
+  const report = await enqueueMissing(queue, sweep, done, { retryFailed });
+  logger?.info({ sweep: sweep.spec.name, enqueued: report.enqueued, retried: report.retried }, 'sweep requeued');
+  return { ...report, name: sweep.spec.name, hash: sweep.hash, dir: store.dir };
 }

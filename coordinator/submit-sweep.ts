@@ -1,4 +1,5 @@
 import type { Logger } from '../shared/logger.js';
+import type { WorkQueue } from '../shared/queue/work-queue.js';
 import { ResultStore } from '../shared/store/result-store.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
@@ -11,10 +12,9 @@ export interface SubmitResult extends EnqueueReport {
 }
 
 /**
- * Validate the sweep file unless given a loaded sweep (bad input -> InputError before Redis or the disk
- * is touched), reach Redis (ServiceError before the disk is touched), write
- * or check sweep.json, then enqueue every job without a result. Running it
- * again, or after it was killed half-way, only adds what is missing.
+ * Validate the sweep file unless given a loaded sweep (bad input -> InputError
+ * before Redis or the disk is touched), reach the queue (ServiceError before
+ * the disk is touched), then submit.
  */
 export async function submitSweep(
   source: string | LoadedSweep,
@@ -23,15 +23,24 @@ export async function submitSweep(
   logger: Logger | undefined,
 ): Promise<SubmitResult> {
   const sweep = typeof source === 'string' ? await loadSweepFile(source) : source;
-  return withQueue(settings, logger, async ({ client, queue }) => {
-    const store = ResultStore.at(resultsRoot, sweep.spec.name);
-    await store.prepare(sweep);
-    const done = await store.completedKeys();
-    const report = await enqueueMissing(client, queue, settings.queue, sweep, done);
+  return withQueue(settings, logger, async (queue) => {
+    const result = await submitTo(queue, sweep, resultsRoot);
     logger?.info(
-      { sweep: sweep.spec.name, enqueued: report.enqueued, redis: settings.redis.masked, queue: settings.queue.name },
+      { sweep: sweep.spec.name, enqueued: result.enqueued, redis: settings.redis.masked, queue: settings.queue.name },
       'sweep submitted',
     );
-    return { ...report, name: sweep.spec.name, hash: sweep.hash, dir: store.dir };
+    return result;
   });
+}
+
+/**
+ * Write or check sweep.json, then enqueue every job without a result.
+ * Running it again, or after it was killed half-way, only adds what is missing.
+ */
+export async function submitTo(queue: WorkQueue, sweep: LoadedSweep, resultsRoot: string): Promise<SubmitResult> {
+  const store = ResultStore.at(resultsRoot, sweep.spec.name);
+  await store.prepare(sweep);
+  const done = await store.completedKeys();
+  const report = await enqueueMissing(queue, sweep, done);
+  return { ...report, name: sweep.spec.name, hash: sweep.hash, dir: store.dir };
 }

@@ -1,7 +1,7 @@
 import { issuesFromZod } from '../shared/errors.js';
-import { MetricsSchema } from '../shared/model.js';
 import { findModel } from '../shared/models/registry.js';
 import { type FailureKind, type JobPayload, JobPayloadSchema, type ResultRecord } from '../shared/schemas/records.js';
+import { MalformedMetricsError, runModel } from './run-model.js';
 
 /** Who is running the job: written into every record. */
 export interface JobContext {
@@ -66,23 +66,15 @@ export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
       .join('; ');
     return { ok: false, kind: 'invalid', message: `invalid parameters: ${detail}`, retryable: false, payload };
   }
-  const started = performance.now();
-  let metrics: unknown;
+  let run: ReturnType<typeof runModel>;
   try {
-    metrics = model.run(params.data, payload.seed).metrics;
+    run = runModel(model, params.data, payload.seed);
   } catch (error) {
+    // A model that breaks the record format will do so again: no retry.
+    if (error instanceof MalformedMetricsError)
+      return { ok: false, kind: 'exception', message: error.message, retryable: false, payload };
     const message = error instanceof Error ? `${error.name}: ${error.message}` : String(error);
     return { ok: false, kind: 'exception', message, retryable: true, payload };
-  }
-  const checked = MetricsSchema.safeParse(metrics);
-  if (!checked.success) {
-    return {
-      ok: false,
-      kind: 'exception',
-      message: `model returned malformed metrics: ${checked.error.message}`,
-      retryable: false,
-      payload,
-    };
   }
   const record: ResultRecord = {
     v: 1,
@@ -93,11 +85,11 @@ export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
     replicate: payload.replicate,
     seed: payload.seed,
     point: payload.point,
-    metrics: checked.data,
+    metrics: run.metrics,
     writer: context.writer,
     run: context.run,
     finishedAt: new Date().toISOString(),
-    elapsedMs: Math.round((performance.now() - started) * 1000) / 1000,
+    elapsedMs: Math.round(run.elapsedMs * 1000) / 1000,
   };
   return { ok: true, record };
 }

@@ -1,6 +1,7 @@
 import { availableParallelism } from 'node:os';
 import { type ResourceLimits, Worker } from 'node:worker_threads';
 import { JobPayloadSchema } from '../shared/schemas/records.js';
+import { PoolBroken, PoolClosed, PoolTerminated } from './pool-errors.js';
 import type { JobContext, JobOutcome } from './run-job.js';
 
 /** Main thread -> pool thread: run this payload. */
@@ -26,6 +27,9 @@ export interface ThreadPoolOptions {
   readonly resourceLimits?: ResourceLimits;
 }
 
+/** Most threads one process may start; more is a typo, not a machine. */
+export const MAX_THREADS = 1024;
+
 /** One thread per core, the default everywhere a thread count is optional. */
 export function defaultThreadCount(): number {
   return Math.max(1, availableParallelism());
@@ -48,12 +52,6 @@ interface Slot {
   dead: boolean;
 }
 
-function namedError(name: string, message: string): Error {
-  const error = new Error(message);
-  error.name = name;
-  return error;
-}
-
 /**
  * A fixed set of worker threads that run jobs with runJob(). Jobs wait in a
  * FIFO queue while every thread is busy; callers keep that queue short (the
@@ -74,8 +72,8 @@ export class ThreadPool {
   private drainWaiters: Array<() => void> = [];
 
   constructor(options: ThreadPoolOptions) {
-    if (!Number.isInteger(options.threads) || options.threads < 1) {
-      throw new RangeError(`threads must be a whole number of at least 1, got ${String(options.threads)}`);
+    if (!Number.isInteger(options.threads) || options.threads < 1 || options.threads > MAX_THREADS) {
+      throw new RangeError(`threads must be a whole number from 1 to ${MAX_THREADS}, got ${String(options.threads)}`);
     }
     this.threads = options.threads;
     this.context = options.context;
@@ -85,10 +83,9 @@ export class ThreadPool {
   }
 
   run(payload: unknown): Promise<JobOutcome> {
-    if (this.state === 'broken') return Promise.reject(namedError('PoolBroken', this.brokenReason));
-    if (this.state === 'terminated')
-      return Promise.reject(namedError('PoolTerminated', 'the thread pool was terminated'));
-    if (this.state !== 'open') return Promise.reject(namedError('PoolClosed', 'the thread pool is closed'));
+    if (this.state === 'broken') return Promise.reject(new PoolBroken(this.brokenReason));
+    if (this.state === 'terminated') return Promise.reject(new PoolTerminated('the thread pool was terminated'));
+    if (this.state !== 'open') return Promise.reject(new PoolClosed('the thread pool is closed'));
     return new Promise<JobOutcome>((resolve, reject) => {
       this.queue.push({ id: this.nextId++, payload, resolve, reject });
       this.dispatch();
@@ -112,7 +109,7 @@ export class ThreadPool {
   /** Stop now: running jobs are abandoned, pending run() promises reject with PoolTerminated. */
   async terminate(): Promise<void> {
     if (this.state !== 'closed' && this.state !== 'broken') this.state = 'terminated';
-    const error = namedError('PoolTerminated', 'the thread pool was terminated');
+    const error = new PoolTerminated('the thread pool was terminated');
     const abandoned = this.queue;
     this.queue = [];
     for (const slot of this.slots) {
@@ -196,7 +193,7 @@ export class ThreadPool {
   private breakDown(reason: string): void {
     this.state = 'broken';
     this.brokenReason = reason;
-    const error = namedError('PoolBroken', reason);
+    const error = new PoolBroken(reason);
     const waiting = this.queue;
     this.queue = [];
     for (const task of waiting) task.reject(error);

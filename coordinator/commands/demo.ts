@@ -1,9 +1,9 @@
 import type { Command } from 'commander';
-import { defaultThreadCount } from '../../worker/thread-pool.js';
+import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { demoSweep } from '../demo-sweep.js';
 import { buildReport } from '../summarize/build-report.js';
-import { displayPath, executeSweep, MAX_THREADS, shellWord } from './run.js';
+import { displayPath, executeSweep, shellWord } from './run.js';
 
 interface DemoFlags {
   readonly out: string;

@@ -2,19 +2,14 @@ import { setTimeout as sleep } from 'node:timers/promises';
 import cliProgress from 'cli-progress';
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
+import { openWorkQueue } from '../../shared/queue/backends.js';
+import type { WorkQueue } from '../../shared/queue/work-queue.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action } from '../cli-support.js';
 import { completedPercent } from '../completed-percent.js';
 import { formatDuration } from '../progress-display.js';
 import { type ProgressSnapshot, sweepProgress } from '../queue-progress.js';
-import {
-  addQueueOptions,
-  openQueueSession,
-  optionalQueueSettings,
-  type QueueCliOptions,
-  type QueueSession,
-} from '../queue-session.js';
-import { asServiceError } from '../redis-connect.js';
+import { addQueueOptions, optionalQueueSettings, type QueueCliOptions } from '../queue-session.js';
 
 interface ProgressOptions extends QueueCliOptions {
   readonly follow?: boolean;
@@ -40,19 +35,8 @@ export function registerProgress(program: Command): void {
       const store = ResultStore.open(dir);
       const sweep = await store.readSweep();
       const logger = createLogger({ name: 'progress' });
-      const session: QueueSession | undefined =
-        settings === undefined ? undefined : await openQueueSession(settings, logger);
-      const snapshot = async (): Promise<ProgressSnapshot> => {
-        try {
-          return await sweepProgress(
-            store,
-            sweep,
-            session === undefined ? undefined : { client: session.client, target: session.settings.queue },
-          );
-        } catch (error) {
-          throw settings === undefined ? error : asServiceError(error, settings.redis);
-        }
-      };
+      const queue: WorkQueue | undefined = settings === undefined ? undefined : await openWorkQueue(settings, logger);
+      const snapshot = (): Promise<ProgressSnapshot> => sweepProgress(store, sweep, queue);
       try {
         if (options.follow === true) {
           await follow(snapshot);
@@ -61,7 +45,7 @@ export function registerProgress(program: Command): void {
           process.stdout.write(options.json === true ? `${JSON.stringify(s)}\n` : describe(s));
         }
       } finally {
-        await session?.close();
+        await queue?.close();
       }
     }),
   );

@@ -1,18 +1,16 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
-import { defaultThreadCount } from '../../worker/thread-pool.js';
+import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
-import { type RunSweepResult, runSweep, stopOnSignals } from '../run-sweep.js';
+import { type RunSweepResult, runSweep } from '../run-sweep.js';
 import { displayPath, shellWord } from '../shell-text.js';
+import { stopOnSignals } from '../stop-signals.js';
 
 /** Exit code of a run stopped by SIGINT/SIGTERM (128 + SIGINT, as shells do). */
 export const EXIT_INTERRUPTED = 130;
-
-/** Most threads one process may start; more is a typo, not a machine. */
-export const MAX_THREADS = 1024;
 
 export { displayPath, shellWord } from '../shell-text.js';
 

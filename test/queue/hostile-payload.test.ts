@@ -3,7 +3,7 @@ import { join, relative } from 'node:path';
 import { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { findModel } from '../../shared/models/registry.js';
-import { jobIdFor } from '../../shared/queue-names.js';
+import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';

@@ -1,11 +1,15 @@
 import { Queue } from 'bullmq';
-import { Redis } from 'ioredis';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createLogger } from '../../shared/logger.js';
-import { jobIdFor } from '../../shared/queue-names.js';
+import { openWorkConsumer } from '../../shared/queue/backends.js';
+import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
+import { parseRedisUrl } from '../../shared/redis-url.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
-import { QueueConsumer } from '../../worker/queue-consumer.js';
+import { JobRunner } from '../../worker/job-runner.js';
+import { PoolBroken } from '../../worker/pool-errors.js';
+import { QueueWorker } from '../../worker/queue-worker.js';
+import { ShardSinks } from '../../worker/shard-sinks.js';
 import type { ThreadPool } from '../../worker/thread-pool.js';
 import { deleteKeys, removeDir, SHARED_REDIS, tempDir, uniqueQueue, waitFor } from './helpers.js';
 
@@ -36,20 +40,33 @@ describe('a worker whose thread pool is broken', () => {
     const faults: string[] = [];
     const brokenPool = {
       threads: 1,
-      run: () =>
-        Promise.reject(Object.assign(new Error('3 threads in a row died before loading'), { name: 'PoolBroken' })),
+      run: () => Promise.reject(new PoolBroken('3 threads in a row died before loading')),
     } as unknown as ThreadPool;
-    const connection = new Redis(SHARED_REDIS, { maxRetriesPerRequest: null });
-    const consumer = new QueueConsumer({
-      connection,
-      queue: { name: queue.name, prefix: queue.prefix },
-      pool: brokenPool,
+    const handler = new QueueWorker({
+      runner: new JobRunner({
+        pool: brokenPool,
+        sinks: new ShardSinks({ root, writer: 'broken-test', durability: 'each-job' }),
+        run: 'r1',
+      }),
       resultsRoot: root,
-      writer: 'broken-test',
-      run: 'r1',
-      logger: createLogger({ name: 'test', level: 'silent' }),
       onFatal: (reason) => faults.push(reason),
     });
+    const consumer = await openWorkConsumer(
+      {
+        url: SHARED_REDIS,
+        redis: parseRedisUrl(SHARED_REDIS),
+        queue: { name: queue.name, prefix: queue.prefix },
+        connectTimeoutMs: 5_000,
+      },
+      handler.handle,
+      {
+        concurrency: 1,
+        lockMs: 10_000,
+        stallCheckMs: 5_000,
+        maxStalledCount: 2,
+        logger: createLogger({ name: 'test', level: 'silent' }),
+      },
+    );
     await consumer.start();
     try {
       await waitFor('the fault to be reported', async () => (faults.length > 0 ? true : undefined), 30_000, 50);
@@ -62,7 +79,6 @@ describe('a worker whose thread pool is broken', () => {
       expect(faults[0]).toContain('died before loading');
     } finally {
       await producer.close();
-      connection.disconnect();
     }
   });
 });

@@ -1,11 +1,14 @@
 import { Queue } from 'bullmq';
-import { Redis } from 'ioredis';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createLogger } from '../../shared/logger.js';
-import { jobIdFor } from '../../shared/queue-names.js';
+import { openWorkConsumer } from '../../shared/queue/backends.js';
+import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
+import { parseRedisUrl } from '../../shared/redis-url.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
-import { AUTO_PREFETCH_PER_THREAD, QueueConsumer } from '../../worker/queue-consumer.js';
+import { JobRunner } from '../../worker/job-runner.js';
+import { AUTO_PREFETCH_PER_THREAD, QueueWorker } from '../../worker/queue-worker.js';
+import { ShardSinks } from '../../worker/shard-sinks.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
 import { deleteKeys, removeDir, SHARED_REDIS, tempDir, uniqueQueue, waitFor } from './helpers.js';
 
@@ -32,34 +35,45 @@ async function serve(yaml: string): Promise<{ concurrency: number; completed: nu
   await producer.addBulk(
     jobs.map((job) => ({ name: 'job', data: toPayload(sweep, job), opts: { jobId: jobIdFor(sweep.hash, job.key) } })),
   );
-  const connection = new Redis(SHARED_REDIS, { maxRetriesPerRequest: null });
   // The threads load the built entry (vitest runs this file from sources).
   const pool = new ThreadPool({ threads: 1, context: { writer: 'prefetch-test', run: 'r1' }, entry: ENTRY });
-  const consumer = new QueueConsumer({
-    connection,
-    queue: { name: queue.name, prefix: queue.prefix },
-    pool,
+  const sinks = new ShardSinks({ root, writer: 'prefetch-test', durability: 'each-job' });
+  const handler = new QueueWorker({
+    runner: new JobRunner({ pool, sinks, run: 'r1' }),
     resultsRoot: root,
-    writer: 'prefetch-test',
-    run: 'r1',
     prefetch: 'auto',
-    logger: createLogger({ name: 'test', level: 'silent' }),
   });
-  const before = consumer.counts.completed;
+  const consumer = await openWorkConsumer(
+    {
+      url: SHARED_REDIS,
+      redis: parseRedisUrl(SHARED_REDIS),
+      queue: { name: queue.name, prefix: queue.prefix },
+      connectTimeoutMs: 5_000,
+    },
+    handler.handle,
+    {
+      concurrency: handler.initialConcurrency,
+      lockMs: 10_000,
+      stallCheckMs: 5_000,
+      maxStalledCount: 2,
+      logger: createLogger({ name: 'test', level: 'silent' }),
+    },
+  );
+  handler.attach(consumer);
   await consumer.start();
   try {
     await waitFor(
       'every job done',
-      async () => (consumer.counts.completed - before >= jobs.length ? true : undefined),
+      async () => (consumer.counts.completed >= jobs.length ? true : undefined),
       60_000,
       50,
     );
-    return { concurrency: consumer.concurrency, completed: consumer.counts.completed - before, jobs: jobs.length };
+    return { concurrency: consumer.concurrency, completed: consumer.counts.completed, jobs: jobs.length };
   } finally {
     await consumer.close();
+    sinks.close();
     await pool.close();
     await producer.close();
-    connection.disconnect();
   }
 }
 

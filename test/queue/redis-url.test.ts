@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { jobIdFor, jobIdPrefix, keyOfJobId, queueTarget } from '../../shared/queue-names.js';
+import { jobIdFor, jobIdPrefix, keyOfJobId } from '../../shared/queue/bullmq/job-ids.js';
+import { queueTarget } from '../../shared/queue/queue-target.js';
 import { maskRedisUrl, parseRedisUrl, redisOptionsFor, resolveRedisUrl } from '../../shared/redis-url.js';
 
 describe('Redis URLs', () => {

@@ -1,7 +1,7 @@
 import { readdir, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { jobIdFor } from '../../shared/queue-names.js';
+import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { loadSweepFile } from '../../shared/sweep/load.js';
 import {

@@ -5,6 +5,7 @@ import { pathToFileURL } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { jobKey, jobSeed } from '../../shared/job-identity.js';
 import type { JobPayload } from '../../shared/schemas/records.js';
+import { PoolBroken, PoolClosed, PoolTerminated } from '../../worker/pool-errors.js';
 import type { JobOutcome } from '../../worker/run-job.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
 
@@ -131,23 +132,24 @@ describe('ThreadPool', () => {
     await pool.close();
     const settled = await Promise.allSettled(pending);
     expect(settled.map((s) => s.status === 'fulfilled' && s.value.ok)).toEqual([true, true, true, true, true, true]);
-    await expect(pool.run(burnPayload(0, 9))).rejects.toMatchObject({ name: 'PoolClosed' });
+    await expect(pool.run(burnPayload(0, 9))).rejects.toBeInstanceOf(PoolClosed);
   });
 
   it('rejects running and queued jobs with PoolTerminated when terminated', async () => {
     const pool = new ThreadPool({ threads: 1, context: CONTEXT, entry: ENTRY });
+    // The first job goes to the thread at once (run() dispatches synchronously), the second waits.
     const running = pool.run(burnPayload(5_000, 0)).catch((e: unknown) => e);
     const queued = pool.run(burnPayload(10, 1)).catch((e: unknown) => e);
-    await new Promise((r) => setTimeout(r, 100));
     await pool.terminate();
-    expect(await running).toMatchObject({ name: 'PoolTerminated' });
-    expect(await queued).toMatchObject({ name: 'PoolTerminated' });
+    expect(await running).toBeInstanceOf(PoolTerminated);
+    expect(await queued).toBeInstanceOf(PoolTerminated);
+    expect((await running) as Error).toMatchObject({ name: 'PoolTerminated' });
   });
 
   it('gives up with PoolBroken when its threads cannot start', async () => {
     const missing = pathToFileURL(join(dir, 'no-such-entry.mjs'));
     const pool = new ThreadPool({ threads: 1, context: CONTEXT, entry: missing });
-    await expect(pool.run(burnPayload(0, 0))).rejects.toMatchObject({ name: 'PoolBroken' });
+    await expect(pool.run(burnPayload(0, 0))).rejects.toBeInstanceOf(PoolBroken);
     await pool.terminate();
   });
 });

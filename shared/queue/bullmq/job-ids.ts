@@ -1,37 +1,4 @@
-import { z } from 'zod';
-import { InputError } from './errors.js';
-
-/** One queue serves every sweep, so any worker serves any sweep. */
-export const DEFAULT_QUEUE_NAME = 'recallscape';
-/** BullMQ's key prefix: every Redis key of the queue starts with `<prefix>:<queue>:`. */
-export const DEFAULT_QUEUE_PREFIX = 'rs';
-
-/** BullMQ builds Redis keys by joining with ':', so neither part may contain one. */
-const NamePartSchema = z
-  .string()
-  .min(1, 'must not be empty')
-  .max(64, 'at most 64 characters')
-  .regex(/^[A-Za-z0-9._-]+$/, 'letters, digits, ".", "_" and "-" only');
-
-export interface QueueTarget {
-  readonly name: string;
-  readonly prefix: string;
-}
-
-/** Check `--queue` and `--prefix`; InputError (exit 2) naming the option. */
-export function queueTarget(name: string, prefix: string): QueueTarget {
-  for (const [option, value] of [
-    ['--queue', name],
-    ['--prefix', prefix],
-  ] as const) {
-    const checked = NamePartSchema.safeParse(value);
-    if (!checked.success) {
-      const message = checked.error.issues.map((i) => i.message).join('; ');
-      throw new InputError(`${option}: ${message} (got "${value}")`, [{ path: option, message }]);
-    }
-  }
-  return { name, prefix };
-}
+import type { QueueTarget } from '../queue-target.js';
 
 /** Number of sweep-hash hex digits in a job id: 64 bits keep sweeps apart in one queue. */
 export const JOB_ID_HASH_DIGITS = 16;
@@ -63,7 +30,7 @@ export function jobRedisKey(target: QueueTarget, id: string): string {
   return `${target.prefix}:${target.name}:${id}`;
 }
 
-/** Redis key of one of BullMQ's state sets/lists (`wait`, `active`, `failed`, ...). */
+/** Redis key of one of BullMQ's state sets (`completed`, `failed`, ...). */
 export function stateRedisKey(target: QueueTarget, state: string): string {
   return `${target.prefix}:${target.name}:${state}`;
 }

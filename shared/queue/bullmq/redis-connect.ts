@@ -1,8 +1,8 @@
 import { setTimeout as sleep } from 'node:timers/promises';
 import { Redis, type RedisOptions } from 'ioredis';
-import { ServiceError } from '../shared/errors.js';
-import type { Logger } from '../shared/logger.js';
-import { parseRedisUrl, type RedisTarget, redisOptionsFor } from '../shared/redis-url.js';
+import { InputError, ServiceError, SweepMismatchError } from '../../errors.js';
+import type { Logger } from '../../logger.js';
+import { parseRedisUrl, type RedisTarget, redisOptionsFor } from '../../redis-url.js';
 
 export interface ConnectOptions {
   /** Raw URL (`--redis` or the environment); parsed and checked here. */
@@ -154,7 +154,7 @@ function adoptLongLivedSettings(client: Redis, target: RedisTarget, options: Con
  */
 export function asServiceError(error: unknown, target: RedisTarget): unknown {
   if (!(error instanceof Error)) return error;
-  if (error.name === 'InputError' || error.name === 'SweepMismatchError' || error.name === 'ServiceError') return error;
+  if (error instanceof InputError || error instanceof SweepMismatchError || error instanceof ServiceError) return error;
   const code = (error as { code?: unknown }).code;
   const looksLikeRedis =
     /Connection is closed|max retries per request|ECONNREFUSED|ECONNRESET|ETIMEDOUT|WRONGPASS|NOAUTH|NOPERM|READONLY|OOM|LOADING/i.test(

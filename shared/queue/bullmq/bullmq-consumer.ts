@@ -1,0 +1,95 @@
+import { type Job, UnrecoverableError, WaitingError, Worker } from 'bullmq';
+import type { Redis } from 'ioredis';
+import type { QueueTarget } from '../queue-target.js';
+import type { ConsumerCounts, ConsumerOptions, JobHandler, WorkConsumer } from '../work-consumer.js';
+import { closeRedis } from './redis-connect.js';
+
+/** Same reason of trouble logged at most once per this many ms (a Redis outage reports every reconnect). */
+const TROUBLE_EVERY_MS = 30_000;
+
+/**
+ * A worker's side of a BullMQ queue: takes jobs, keeps their locks alive
+ * from this (main) thread while the handler runs them elsewhere, and turns
+ * each verdict into BullMQ's terms (return value, failure with or without
+ * retries, or back to waiting untouched).
+ */
+export class BullmqConsumer implements WorkConsumer {
+  readonly counts: ConsumerCounts = { completed: 0, failed: 0 };
+  private readonly worker: Worker;
+
+  /** Over a connected client (`maxRetriesPerRequest: null`), which the consumer then owns. */
+  constructor(
+    private readonly connection: Redis,
+    target: QueueTarget,
+    private readonly handler: JobHandler,
+    private readonly options: ConsumerOptions,
+  ) {
+    this.worker = new Worker(target.name, (job, token) => this.process(job, token), {
+      connection,
+      prefix: target.prefix,
+      concurrency: options.concurrency,
+      lockDuration: options.lockMs,
+      stalledInterval: options.stallCheckMs,
+      maxStalledCount: options.maxStalledCount,
+      autorun: false,
+    });
+    const log = options.logger;
+    this.worker.on('completed', (job) => {
+      this.counts.completed++;
+      log.debug({ job: job.id }, 'job done');
+    });
+    this.worker.on('failed', (job, error) => {
+      this.counts.failed++;
+      log.warn({ job: job?.id, attempt: job?.attemptsMade, reason: error.message.slice(0, 500) }, 'job failed');
+    });
+    this.worker.on('stalled', (jobId) => log.warn({ job: jobId }, 'a job lost its worker and goes back to the queue'));
+    const lastSaid = new Map<string, number>();
+    this.worker.on('error', (error) => {
+      const reason = error.message.slice(0, 500);
+      const now = Date.now();
+      if (now - (lastSaid.get(reason) ?? 0) < TROUBLE_EVERY_MS) return;
+      lastSaid.set(reason, now);
+      log.warn({ reason }, 'queue worker trouble');
+    });
+  }
+
+  get concurrency(): number {
+    return this.worker.concurrency;
+  }
+
+  set concurrency(value: number) {
+    if (this.worker.concurrency !== value) this.worker.concurrency = value;
+  }
+
+  async start(): Promise<void> {
+    void this.worker.run().catch((error: unknown) => {
+      this.options.logger.error(
+        { reason: error instanceof Error ? error.message : String(error) },
+        'queue worker stopped',
+      );
+    });
+    await this.worker.waitUntilReady();
+  }
+
+  async close(): Promise<void> {
+    await this.worker.close();
+    await closeRedis(this.connection);
+  }
+
+  private async process(job: Job, token: string | undefined): Promise<unknown> {
+    const attempt = job.attemptsMade + 1;
+    this.options.logger.debug({ job: job.id, attempt }, 'job started');
+    const verdict = await this.handler({ id: job.id ?? '', data: job.data, unreadable: undefined, attempt });
+    switch (verdict.kind) {
+      case 'done':
+        return verdict.value;
+      case 'failed':
+        throw verdict.retry ? new Error(verdict.reason) : new UnrecoverableError(verdict.reason);
+      case 'handed-back':
+        // Back to waiting without using one of its attempts, so a worker that
+        // cannot run anything does not exhaust other jobs' retries.
+        await job.moveToWait(token);
+        throw new WaitingError(`not run here (${verdict.reason}); back in the queue`);
+    }
+  }
+}

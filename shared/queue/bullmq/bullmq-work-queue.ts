@@ -1,0 +1,240 @@
+import { type JobType, Queue } from 'bullmq';
+import type { ChainableCommander, Redis } from 'ioredis';
+import type { Logger } from '../../logger.js';
+import type { RedisTarget } from '../../redis-url.js';
+import type { QueueSettings } from '../queue-settings.js';
+import type { QueueTarget } from '../queue-target.js';
+import type {
+  AddOptions,
+  AddResult,
+  FinishedJob,
+  FinishedValue,
+  QueueEntry,
+  SweepQueueCounts,
+  WorkQueue,
+} from '../work-queue.js';
+import { jobIdFor, jobIdPrefix, jobRedisKey, keyOfJobId, stateRedisKey } from './job-ids.js';
+import { jobOptions } from './job-options.js';
+import { asServiceError, closeRedis } from './redis-connect.js';
+
+/** BullMQ's states in which a job has not started, grouped the way people ask about them. */
+const WAITING_STATES: readonly JobType[] = ['wait', 'prioritized', 'waiting-children'];
+
+/** Ids per page when reading a state set: a queue of millions never comes back in one reply. */
+export const SCAN_PAGE = 1_000;
+/** Removals in flight at a time. */
+const REMOVE_BATCH = 500;
+
+/** Results of a pipeline, with the first command error thrown. */
+async function replies(pipeline: ChainableCommander): Promise<unknown[]> {
+  const results = (await pipeline.exec()) ?? [];
+  return results.map(([error, value]) => {
+    if (error !== null) throw error;
+    return value;
+  });
+}
+
+/**
+ * The coordinator's side of a BullMQ queue on Redis. Uses BullMQ's public
+ * API where its cost is acceptable and reads Redis directly where it is not;
+ * each such place says what it measured (`npm run bench -- queue` and the
+ * figures in docs/operations.md, 20,000 jobs on the shared 2-core machine).
+ */
+export class BullmqWorkQueue implements WorkQueue {
+  private constructor(
+    private readonly client: Redis,
+    private readonly queue: Queue,
+    private readonly target: QueueTarget,
+    private readonly redis: RedisTarget,
+  ) {}
+
+  /** Open the queue over a connected client (which it then owns); one ServiceError line on failure. */
+  static async over(client: Redis, settings: QueueSettings, logger?: Logger): Promise<BullmqWorkQueue> {
+    const queue = new Queue(settings.queue.name, {
+      connection: client,
+      prefix: settings.queue.prefix,
+      // The event stream is for live dashboards only; keep it short (memory).
+      streams: { events: { maxLen: 1_000 } },
+    });
+    queue.on('error', (error) => logger?.warn({ reason: error.message }, 'queue trouble'));
+    try {
+      await queue.waitUntilReady();
+    } catch (error) {
+      await closeRedis(client);
+      throw asServiceError(error, settings.redis);
+    }
+    return new BullmqWorkQueue(client, queue, settings.queue, settings.redis);
+  }
+
+  /** Run a Redis operation; its failures become one ServiceError line. */
+  private async guard<T>(operation: () => Promise<T>): Promise<T> {
+    try {
+      return await operation();
+    } catch (error) {
+      throw asServiceError(error, this.redis);
+    }
+  }
+
+  add(
+    sweep: { readonly hash: string; readonly name: string },
+    entries: readonly QueueEntry[],
+    options: AddOptions,
+  ): Promise<AddResult> {
+    return this.guard(async () => {
+      const { client, target } = this;
+      const ids = entries.map((entry) => jobIdFor(sweep.hash, entry.key));
+      // Existence per job id: a pipelined EXISTS. BullMQ's getJobState would answer
+      // too, but it searches the wait list (LPOS) for every id: 1.0 ms per id against
+      // 0.05 ms with 20,000 jobs waiting, and it grows with the queue.
+      const exists = await replies(client.pipeline(ids.map((id) => ['exists', jobRedisKey(target, id)])));
+      // Only jobs already in Redis can be in the failed set: ask about those alone.
+      const present = ids.filter((_, i) => exists[i] !== 0);
+      const failedKey = stateRedisKey(target, 'failed');
+      const scores =
+        present.length === 0 ? [] : await replies(client.pipeline(present.map((id) => ['zscore', failedKey, id])));
+      const failed = new Set(present.filter((_, i) => scores[i] !== null));
+      const toAdd: QueueEntry[] = [];
+      const toRetry: QueueEntry[] = [];
+      let presentCount = 0;
+      let failedKept = 0;
+      let retried = 0;
+      for (const [i, entry] of entries.entries()) {
+        const id = ids[i] as string;
+        if (exists[i] === 0) toAdd.push(entry);
+        else if (failed.has(id) && options.retryFailed) toRetry.push(entry);
+        else if (failed.has(id)) failedKept++;
+        else presentCount++;
+      }
+      const added = toAdd.length;
+      // A failed job keeps its id: it has to go before a fresh copy can be added (0 = someone else moved it).
+      const removed = await Promise.all(toRetry.map((entry) => this.queue.remove(jobIdFor(sweep.hash, entry.key))));
+      toRetry.forEach((entry, i) => {
+        if (removed[i] === 1) {
+          toAdd.push(entry);
+          retried++;
+        } else {
+          presentCount++;
+        }
+      });
+      if (toAdd.length > 0) {
+        await this.queue.addBulk(
+          toAdd.map((entry) => ({
+            name: sweep.name,
+            data: entry.payload,
+            opts: jobOptions(jobIdFor(sweep.hash, entry.key)),
+          })),
+        );
+      }
+      return { added, present: presentCount, failedKept, retried };
+    });
+  }
+
+  /**
+   * Every job id of one sweep in one state, page by page, through BullMQ's
+   * getRanges. A set that changes while it is read may show an id twice or
+   * miss one that moved: callers de-duplicate, and counts are a snapshot.
+   */
+  private async *sweepIds(sweepHash: string, state: JobType): AsyncGenerator<string[]> {
+    const prefix = jobIdPrefix(sweepHash);
+    for (let start = 0; ; start += SCAN_PAGE) {
+      const page = await this.queue.getRanges([state], start, start + SCAN_PAGE - 1);
+      const ours = page.filter((id) => id.startsWith(prefix));
+      if (ours.length > 0) yield ours;
+      if (page.length < SCAN_PAGE) return;
+    }
+  }
+
+  /** Distinct ids of the sweep over several states. */
+  private async collectIds(sweepHash: string, states: readonly JobType[]): Promise<Set<string>> {
+    const ids = new Set<string>();
+    for (const state of states) {
+      for await (const page of this.sweepIds(sweepHash, state)) for (const id of page) ids.add(id);
+    }
+    return ids;
+  }
+
+  counts(sweepHash: string): Promise<SweepQueueCounts> {
+    return this.guard(async () => ({
+      waiting: (await this.collectIds(sweepHash, WAITING_STATES)).size,
+      active: (await this.collectIds(sweepHash, ['active'])).size,
+      delayed: (await this.collectIds(sweepHash, ['delayed'])).size,
+      failed: (await this.collectIds(sweepHash, ['failed'])).size,
+    }));
+  }
+
+  async *finishedJobs(sweepHash: string): AsyncGenerator<FinishedJob[]> {
+    const prefix = jobIdPrefix(sweepHash);
+    const completedKey = stateRedisKey(this.target, 'completed');
+    // The completed set's scores are the finish times. Read directly: BullMQ's getJobs
+    // returns whole jobs (payload and record) and took 6.0 s for 20,000 where ZRANGE
+    // WITHSCORES took 0.2 s.
+    for (let start = 0; ; start += SCAN_PAGE) {
+      const page = await this.guard(() =>
+        this.client.zrange(completedKey, start, String(start + SCAN_PAGE - 1), 'WITHSCORES'),
+      );
+      const finished: FinishedJob[] = [];
+      for (let i = 0; i + 1 < page.length; i += 2) {
+        const id = page[i] as string;
+        if (!id.startsWith(prefix)) continue;
+        const key = keyOfJobId(id);
+        if (key !== undefined) finished.push({ key, finishedAt: Number(page[i + 1]) });
+      }
+      if (finished.length > 0) yield finished;
+      if (page.length < 2 * SCAN_PAGE) return;
+    }
+  }
+
+  finishedValues(sweepHash: string, keys: readonly string[]): Promise<FinishedValue[]> {
+    return this.guard(async () => {
+      // Only the return value: BullMQ's getJob reads the whole job hash and parses the
+      // payload too, 3.3 s for 20,000 jobs against 1.1 s for a pipelined HGET.
+      const pipeline = this.client.pipeline();
+      for (const key of keys) pipeline.hget(jobRedisKey(this.target, jobIdFor(sweepHash, key)), 'returnvalue');
+      const raw = await replies(pipeline);
+      const values: FinishedValue[] = [];
+      keys.forEach((key, i) => {
+        const text = raw[i];
+        // Removed since it was listed (another gather): nothing to do.
+        if (text === null || text === undefined) return;
+        let value: unknown;
+        try {
+          value = JSON.parse(String(text));
+        } catch {
+          value = undefined;
+        }
+        values.push({ key, value });
+      });
+      return values;
+    });
+  }
+
+  removeFinished(sweepHash: string, keys: readonly string[]): Promise<number> {
+    return this.guard(() => this.removeIds(keys.map((key) => jobIdFor(sweepHash, key))));
+  }
+
+  cancel(sweepHash: string): Promise<number> {
+    return this.guard(async () => {
+      const ids = await this.collectIds(sweepHash, [...WAITING_STATES, 'delayed']);
+      return this.removeIds([...ids]);
+    });
+  }
+
+  /** Remove jobs by id, a few hundred requests in flight at a time; returns how many were removed. */
+  private async removeIds(ids: readonly string[]): Promise<number> {
+    let removed = 0;
+    for (let i = 0; i < ids.length; i += REMOVE_BATCH) {
+      const results = await Promise.all(ids.slice(i, i + REMOVE_BATCH).map((id) => this.queue.remove(id)));
+      removed += results.filter((r) => r === 1).length;
+    }
+    return removed;
+  }
+
+  async close(): Promise<void> {
+    try {
+      await this.queue.close();
+    } catch {
+      // The connection is already gone: nothing to flush.
+    }
+    await closeRedis(this.client);
+  }
+}

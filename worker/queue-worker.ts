@@ -1,0 +1,113 @@
+import { resolve, sep } from 'node:path';
+import type { ConsumedJob, JobHandler, JobVerdict, WorkConsumer } from '../shared/queue/work-consumer.js';
+import { JobPayloadSchema } from '../shared/schemas/records.js';
+import type { JobRunner } from './job-runner.js';
+import { PoolBroken, PoolUnavailable } from './pool-errors.js';
+
+/** With prefetch 'auto': hold extra jobs while the mean job takes less than this. */
+export const AUTO_PREFETCH_BELOW_MS = 100;
+/** With prefetch 'auto': extra jobs held per thread while jobs are short. */
+export const AUTO_PREFETCH_PER_THREAD = 4;
+
+export interface QueueWorkerOptions {
+  readonly runner: JobRunner;
+  /** Results root: a job of sweep S writes to `<root>/<S>/results/<writer>.ndjson`. */
+  readonly resultsRoot: string;
+  /**
+   * Jobs taken beyond one per thread, waiting in this process for a free
+   * thread. Hides the queue's round trip behind the previous job (worth it for
+   * jobs of milliseconds); with long jobs it lets idle workers wait at the end.
+   * 'auto' (the default) prefetches only while recent jobs are short.
+   */
+  readonly prefetch?: number | 'auto';
+  /** The pool can run nothing (e.g. threads fail to load): the worker should stop rather than fail every job. */
+  readonly onFatal?: (reason: string) => void;
+}
+
+/**
+ * A worker's job handler for jobs of every sweep: checks the one payload
+ * field used for a path, runs the job through the job runner (the record is
+ * on disk before the verdict), and answers with a verdict. The record is also
+ * the job's return value, for coordinators that share no disk with this machine.
+ */
+export class QueueWorker {
+  private readonly root: string;
+  private consumer: WorkConsumer | undefined;
+  /** Moving mean of recent jobs' simulation time (ms), for prefetch 'auto'. */
+  private meanJobMs: number | undefined;
+
+  constructor(private readonly options: QueueWorkerOptions) {
+    this.root = resolve(options.resultsRoot);
+  }
+
+  /** Jobs to hold at the start: one per thread, plus a fixed prefetch ('auto' starts without extra jobs). */
+  get initialConcurrency(): number {
+    const prefetch = this.options.prefetch;
+    return this.options.runner.threads + (typeof prefetch === 'number' ? prefetch : 0);
+  }
+
+  /** The consumer whose concurrency prefetch 'auto' adjusts. */
+  attach(consumer: WorkConsumer): void {
+    this.consumer = consumer;
+  }
+
+  readonly handle: JobHandler = async (job: ConsumedJob): Promise<JobVerdict> => {
+    if (job.unreadable !== undefined) {
+      return { kind: 'failed', reason: `invalid: invalid job payload: ${job.unreadable}`, retry: false };
+    }
+    // The payload is untrusted: check the one field used for a path before anything else.
+    const folder = this.sweepFolderOf(job.data);
+    if (folder === undefined) {
+      const parsed = JobPayloadSchema.safeParse(job.data);
+      const detail = parsed.success
+        ? 'payload.sweep.name: must name a folder inside the results root'
+        : parsed.error.issues
+            .slice(0, 5)
+            .map((i) => `payload.${i.path.map(String).join('.')}: ${i.message}`)
+            .join('; ');
+      return { kind: 'failed', reason: `invalid: invalid job payload: ${detail}`, retry: false };
+    }
+    let result: Awaited<ReturnType<JobRunner['execute']>>;
+    try {
+      result = await this.options.runner.execute({ payload: job.data, folder, attempt: job.attempt });
+    } catch (error) {
+      // The pool is shutting down or broken: the job never ran here.
+      if (!(error instanceof PoolUnavailable)) throw error;
+      if (error instanceof PoolBroken) this.options.onFatal?.(error.message);
+      return { kind: 'handed-back', reason: error.message };
+    }
+    if (result.ok) {
+      this.adaptPrefetch(result.record.elapsedMs);
+      return { kind: 'done', value: result.record };
+    }
+    return { kind: 'failed', reason: `${result.kind}: ${result.message}`, retry: result.retryable };
+  };
+
+  /**
+   * Prefetch 'auto': hold extra jobs while jobs are short (the queue's round
+   * trip is then a large share of each job), none once they are long (a held
+   * job would wait behind a running one while other workers may be idle).
+   * Uses the time inside the thread, not the wait for a thread, so holding
+   * jobs does not itself switch holding off.
+   */
+  private adaptPrefetch(jobMs: number): void {
+    if (this.options.prefetch !== undefined && this.options.prefetch !== 'auto') return;
+    if (this.consumer === undefined) return;
+    this.meanJobMs = this.meanJobMs === undefined ? jobMs : 0.8 * this.meanJobMs + 0.2 * jobMs;
+    const threads = this.options.runner.threads;
+    this.consumer.concurrency =
+      threads + (this.meanJobMs < AUTO_PREFETCH_BELOW_MS ? AUTO_PREFETCH_PER_THREAD * threads : 0);
+  }
+
+  /** The payload's sweep name when it is a plain folder name, else undefined. */
+  private sweepFolderOf(data: unknown): string | undefined {
+    const sweep = JobPayloadSchema.shape.sweep.safeParse((data as { sweep?: unknown } | null)?.sweep);
+    if (!sweep.success) return undefined;
+    const name = sweep.data.name;
+    const folder = resolve(this.root, name);
+    // Belt and braces over the schema's pattern: exactly one level below the root.
+    if (name === '.' || !folder.startsWith(this.root + sep) || folder.slice(this.root.length + 1).includes(sep))
+      return undefined;
+    return name;
+  }
+}
