@@ -1,5 +1,6 @@
 import { randomBytes } from 'node:crypto';
 import { setImmediate as yieldToEventLoop } from 'node:timers/promises';
+import { isErrorOf } from '../shared/errors.js';
 import { newWriterId, type ResultStore } from '../shared/store/result-store.js';
 import { countJobs, type PlannedJob, toPayload } from '../shared/sweep/expand.js';
 import { type JobResult, JobRunner } from '../worker/job-runner.js';
@@ -184,7 +185,7 @@ export class EmbeddedRun {
       })
       .catch((error: unknown) => {
         // An abandoned job writes nothing; anything else ends the run.
-        if (error instanceof PoolTerminated && (this.abandoned || this.fatal !== null)) return;
+        if (isErrorOf(error, PoolTerminated) && (this.abandoned || this.fatal !== null)) return;
         this.failRun(error);
       })
       .finally(() => {

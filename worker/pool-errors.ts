@@ -1,22 +1,26 @@
 /**
- * Why a thread pool did not run a job. Thrown on the main thread only (never
- * through a structured clone), so callers match them with `instanceof`.
+ * Why a thread pool did not run a job. Raised on the main thread only, so
+ * `isErrorOf` (shared/errors.ts) matches them by class, subclasses included.
  */
 export class PoolUnavailable extends Error {
-  override readonly name: string = 'PoolUnavailable';
+  static readonly errorName: string = 'PoolUnavailable';
+  override readonly name: string = PoolUnavailable.errorName;
 }
 
 /** The pool's threads cannot start (a broken or missing build): nothing will run here. */
 export class PoolBroken extends PoolUnavailable {
-  override readonly name = 'PoolBroken';
+  static override readonly errorName = 'PoolBroken';
+  override readonly name: string = PoolBroken.errorName;
 }
 
 /** The pool was closed: it finishes what it has and takes nothing new. */
 export class PoolClosed extends PoolUnavailable {
-  override readonly name = 'PoolClosed';
+  static override readonly errorName = 'PoolClosed';
+  override readonly name: string = PoolClosed.errorName;
 }
 
 /** The pool was terminated: running and queued jobs were abandoned. */
 export class PoolTerminated extends PoolUnavailable {
-  override readonly name = 'PoolTerminated';
+  static override readonly errorName = 'PoolTerminated';
+  override readonly name: string = PoolTerminated.errorName;
 }

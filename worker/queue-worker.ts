@@ -1,4 +1,5 @@
 import { resolve, sep } from 'node:path';
+import { isErrorOf } from '../shared/errors.js';
 import type { ConsumedJob, JobHandler, JobVerdict, WorkConsumer } from '../shared/queue/work-consumer.js';
 import { JobPayloadSchema } from '../shared/schemas/records.js';
 import type { JobRunner } from './job-runner.js';
@@ -72,8 +73,8 @@ export class QueueWorker {
       result = await this.options.runner.execute({ payload: job.data, folder, attempt: job.attempt });
     } catch (error) {
       // The pool is shutting down or broken: the job never ran here.
-      if (!(error instanceof PoolUnavailable)) throw error;
-      if (error instanceof PoolBroken) this.options.onFatal?.(error.message);
+      if (!isErrorOf(error, PoolUnavailable)) throw error;
+      if (isErrorOf(error, PoolBroken)) this.options.onFatal?.(error.message);
       return { kind: 'handed-back', reason: error.message };
     }
     if (result.ok) {

@@ -1,4 +1,4 @@
-import { issuesFromZod } from '../shared/errors.js';
+import { isErrorOf, issuesFromZod, ModelFailure } from '../shared/errors.js';
 import { findModel } from '../shared/models/registry.js';
 import { type FailureKind, type JobPayload, JobPayloadSchema, type ResultRecord } from '../shared/schemas/records.js';
 import { MalformedMetricsError, runModel } from './run-model.js';
@@ -71,8 +71,11 @@ export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
     run = runModel(model, params.data, payload.seed);
   } catch (error) {
     // A model that breaks the record format will do so again: no retry.
-    if (error instanceof MalformedMetricsError)
+    if (isErrorOf(error, MalformedMetricsError))
       return { ok: false, kind: 'exception', message: error.message, retryable: false, payload };
+    // A model that knows how it failed says so (kind, and whether another try could help).
+    if (isErrorOf(error, ModelFailure))
+      return { ok: false, kind: error.kind, message: error.message, retryable: error.retryable, payload };
     const message = error instanceof Error ? `${error.name}: ${error.message}` : String(error);
     return { ok: false, kind: 'exception', message, retryable: true, payload };
   }

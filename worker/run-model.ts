@@ -2,7 +2,8 @@ import { type AnyModel, type Metrics, MetricsSchema, type RunOptions, type RunOu
 
 /** A model returned metrics that do not fit MetricsSchema: a bug in the model, not in the job. */
 export class MalformedMetricsError extends Error {
-  override readonly name = 'MalformedMetricsError';
+  static readonly errorName = 'MalformedMetricsError';
+  override readonly name: string = MalformedMetricsError.errorName;
 }
 
 export interface ModelRun {

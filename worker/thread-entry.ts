@@ -15,9 +15,11 @@ const port = parentPort;
 const context = (workerData as { context: JobContext }).context;
 
 port.on('message', (request: ThreadRequest) => {
-  const outcome = runJob(request.payload, context);
-  const reply: ThreadReply = { type: 'outcome', id: request.id, outcome };
-  port.postMessage(reply);
+  // Resolved either way: a job may one day complete asynchronously (a model in another process).
+  void Promise.resolve(runJob(request.payload, context)).then((outcome) => {
+    const reply: ThreadReply = { type: 'outcome', id: request.id, outcome };
+    port.postMessage(reply);
+  });
 });
 
 // Tells the pool this thread loaded; a thread that dies before this is a

@@ -1,6 +1,6 @@
 import { setTimeout as sleep } from 'node:timers/promises';
 import { Redis, type RedisOptions } from 'ioredis';
-import { InputError, ServiceError, SweepMismatchError } from '../../errors.js';
+import { isErrorOf, isInputError, ServiceError } from '../../errors.js';
 import type { Logger } from '../../logger.js';
 import { parseRedisUrl, type RedisTarget, redisOptionsFor } from '../../redis-url.js';
 
@@ -154,7 +154,9 @@ function adoptLongLivedSettings(client: Redis, target: RedisTarget, options: Con
  */
 export function asServiceError(error: unknown, target: RedisTarget): unknown {
   if (!(error instanceof Error)) return error;
-  if (error instanceof InputError || error instanceof SweepMismatchError || error instanceof ServiceError) return error;
+  // Ours already (a plain boolean: a type guard here would narrow the Error away).
+  const ours: boolean = isInputError(error) || isErrorOf(error, ServiceError);
+  if (ours) return error;
   const code = (error as { code?: unknown }).code;
   const looksLikeRedis =
     /Connection is closed|max retries per request|ECONNREFUSED|ECONNRESET|ETIMEDOUT|WRONGPASS|NOAUTH|NOPERM|READONLY|OOM|LOADING/i.test(
