@@ -11,11 +11,8 @@ export type DiagramKind = 'cells' | 'scatter';
  */
 export function diagramKindOf(spec: SweepSpec, settings: Pick<ResolvedSettings, 'x' | 'y'>): DiagramKind {
   if (spec.sampler.kind === 'grid' || settings.x === null || settings.y === null) return 'cells';
-  return SCATTER_ENABLED && numericAxis(spec, settings.x) && numericAxis(spec, settings.y) ? 'scatter' : 'cells';
+  return numericAxis(spec, settings.x) && numericAxis(spec, settings.y) ? 'scatter' : 'cells';
 }
-
-/** Until the scatter chart is registered, sampled sweeps keep binned cells. */
-const SCATTER_ENABLED = false;
 
 /** A range of numbers with more than one value: something a smooth estimate can run along. */
 function numericAxis(spec: SweepSpec, param: string): boolean {

@@ -1,5 +1,6 @@
 import { phaseDiagrams } from './phase-diagrams.js';
 import type { ReportChart } from './report-chart.js';
+import { scatterDiagrams } from './scatter-diagrams.js';
 import { summaryTable } from './summary-table.js';
 import { trialTable } from './trial-table.js';
 
@@ -8,4 +9,4 @@ import { trialTable } from './trial-table.js';
  * written and listed. Add a chart here and nowhere else; `pageRank` places
  * its section on the page.
  */
-export const REPORT_CHARTS: readonly ReportChart[] = [summaryTable, trialTable, phaseDiagrams];
+export const REPORT_CHARTS: readonly ReportChart[] = [summaryTable, trialTable, phaseDiagrams, scatterDiagrams];
