@@ -1,6 +1,5 @@
 import { shellWord } from '../../shell-text.js';
 import { formatNumber, formatValue } from '../axis.js';
-import type { CollectedReport } from '../collect.js';
 import { type BinomialPoint, unitCoordinate } from '../local-likelihood-data.js';
 import { smoothSuccessField } from '../local-likelihood-field.js';
 import { withUnit } from '../param-label.js';
