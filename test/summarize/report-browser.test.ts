@@ -79,4 +79,60 @@ describe('the report page in headless Chromium', () => {
     expect(requests).toEqual([]);
     await page.close();
   });
+
+  for (const width of [1400, 390]) {
+    it(`fits a ${width} px wide screen without sideways scrolling, diagrams scaled to fit and tables scrolling in their box`, async () => {
+      const context = await browser.newContext({
+        viewport: { width, height: 900 },
+        ...(width < 600 ? { hasTouch: true, isMobile: true, deviceScaleFactor: 2 } : {}),
+      });
+      const page = await context.newPage();
+      await page.goto(pathToFileURL(join(folder.dir, 'report', 'index.html')).href);
+      const sizes = await page.evaluate(() => ({
+        scroll: document.documentElement.scrollWidth,
+        inner: window.innerWidth,
+        svg: Math.max(...[...document.querySelectorAll('figure svg')].map((s) => s.getBoundingClientRect().right)),
+        tables: [...document.querySelectorAll('.table-wrap')].map((w) => ({
+          right: w.getBoundingClientRect().right,
+          overflow: getComputedStyle(w).overflowX,
+        })),
+      }));
+      expect(sizes.scroll).toBeLessThanOrEqual(sizes.inner);
+      expect(sizes.svg).toBeLessThanOrEqual(sizes.inner);
+      for (const t of sizes.tables) {
+        expect(t.right).toBeLessThanOrEqual(sizes.inner);
+        expect(t.overflow).toBe('auto');
+      }
+      await mkdir(ARTIFACTS, { recursive: true });
+      await page.screenshot({ path: join(ARTIFACTS, `report-${width}.png`), fullPage: false });
+      await context.close();
+    });
+  }
+
+  it('shows on a tap what hovering shows, with a command that re-runs a trial of that cell', async () => {
+    const context = await browser.newContext({
+      viewport: { width: 390, height: 844 },
+      hasTouch: true,
+      isMobile: true,
+    });
+    const page = await context.newPage();
+    await page.goto(pathToFileURL(join(folder.dir, 'report', 'index.html')).href);
+    const tip = page.locator('#cell-tip');
+    const cell = page.locator('svg rect.cell[data-x="3"][data-y="0"]');
+    await cell.scrollIntoViewIfNeeded();
+    await cell.tap();
+    await expect.poll(() => tip.isVisible()).toBe(true);
+    const text = (await tip.textContent()) ?? '';
+    expect(text).toContain('successRate = 0.3');
+    expect(text).toContain('n = 4');
+    const key = (await cell.getAttribute('data-failure-job')) || (await cell.getAttribute('data-success-job'));
+    expect(key).toMatch(/^[0-9a-f]{32}$/);
+    expect(text).toContain(`--job ${key}`);
+    // The tip stays inside the screen, and a second tap on the cell closes it.
+    const box = await tip.boundingBox();
+    expect((box?.x ?? -1) >= 0 && (box?.x ?? 0) + (box?.width ?? 0) <= 390).toBe(true);
+    await cell.tap();
+    await expect.poll(() => tip.isVisible()).toBe(false);
+    await context.close();
+  });
 });
