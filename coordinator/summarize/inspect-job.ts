@@ -109,7 +109,7 @@ export async function inspectJob(options: InspectOptions): Promise<InspectResult
       title: `${sweep.spec.name}: job ${job.key.slice(0, 12)} (replicate ${job.replicate}, seed ${job.seed})`,
       subtitle: [
         pointText === '' ? `model ${sweep.model.id} ${sweep.model.version}` : pointText,
-        `success: ${String(output.metrics.success)}; shaded: cue window`,
+        `success: ${String(output.metrics.success)}; shaded: cue window; sequences and positions counted from 0 (position 0 is the cue)`,
       ],
       panels,
       valueLabel: 'match',

@@ -188,6 +188,9 @@ vary:
     expect((svg.match(/<path class="series"/g) ?? []).length).toBe(2 * 8);
     // The cue window ends at the default cue duration, 50 ms (model-spec.md defaults).
     expect(svg).toContain('data-end-ms="50"');
+    // Lines named by sequence and position; no overlap at this point, so no shared pattern.
+    expect(svg).toContain('data-label="seq 1 · pos 3"');
+    expect(svg).not.toContain('(shared)');
   });
 
   it('draws a job without a stored result and says so, writing where --out says', async () => {

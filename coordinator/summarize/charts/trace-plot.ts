@@ -1,7 +1,7 @@
 import { scaleLinear } from 'd3-scale';
-import { schemeTableau10 } from 'd3-scale-chromatic';
 import type { TracePanel } from '../../../shared/model.js';
 import { escapeXml, FONT_FAMILY, px, textWidth } from '../svg-util.js';
+import { type TraceStyle, traceStyle } from './trace-palette.js';
 
 export interface TracePlotInput {
   readonly title: string;
@@ -11,29 +11,58 @@ export interface TracePlotInput {
   readonly valueLabel: string;
 }
 
-const DASHES = ['', '6 3', '2 2', '8 3 2 3'];
 const PLOT_W = 560;
 const PLOT_H = 150;
 
+interface SeriesLook {
+  readonly label: string;
+  readonly style: TraceStyle;
+  /** Legend order: by sequence, then position. */
+  readonly order: number;
+}
+
+/**
+ * How each series of a panel is named and drawn. With the model's
+ * `seriesMembers`: "seq 1 · pos 3" in the sequence's hue and the position's
+ * shade, "seq 0 · pos 2 = seq 1 · pos 2 (shared)" dashed for a pattern
+ * several sequences share. Without: the model's labels in the hues in turn.
+ */
+export function seriesLooks(panel: TracePanel): SeriesLook[] {
+  const members = panel.seriesMembers;
+  if (members === undefined || members.length !== panel.seriesLabels.length) {
+    return panel.seriesLabels.map((label, i) => ({ label, style: traceStyle(i, 0, 1, false), order: i }));
+  }
+  const length = 1 + Math.max(0, ...members.flatMap((m) => m.map((x) => x.position)));
+  return members.map((m, i) => {
+    const first = m[0];
+    if (first === undefined)
+      return { label: panel.seriesLabels[i] ?? `p${i}`, style: traceStyle(i, 0, 1, false), order: 1e9 + i };
+    const shared = m.length > 1;
+    const label = `${m.map((x) => `seq ${x.sequence} · pos ${x.position}`).join(' = ')}${shared ? ' (shared)' : ''}`;
+    return {
+      label,
+      style: traceStyle(first.sequence, first.position, length, shared),
+      order: first.sequence * 10_000 + first.position,
+    };
+  });
+}
+
 /**
  * The time course of one trial: one panel per recall, one line per stored
- * pattern (colour, then dash pattern, tell them apart), the cue window
- * shaded, a shared time axis in ms and a legend per panel.
+ * pattern (a hue per sequence, shades along its positions, shared patterns
+ * dashed), the cue window shaded, a shared time axis in ms and a legend per
+ * panel ordered by sequence and position.
  */
 export function renderTracePlot(input: TracePlotInput): { svg: string; width: number; height: number } {
-  const labels = [...new Set(input.panels.flatMap((p) => p.seriesLabels))];
-  const style = new Map(
-    labels.map((l, i) => [
-      l,
-      { colour: schemeTableau10[i % 10] ?? '#333333', dash: DASHES[Math.floor(i / 10) % DASHES.length] ?? '' },
-    ]),
-  );
+  const looks = input.panels.map(seriesLooks);
+  const labels = looks.flatMap((l) => l.map((x) => x.label));
   const legendW = Math.max(90, ...labels.map((l) => textWidth(l, 11) + 40));
+  const seriesCount = Math.max(0, ...input.panels.map((p) => p.seriesLabels.length));
   const left = 64;
   const top = 44 + 18 * (1 + input.subtitle.length);
   const gap = 64;
   const width = Math.round(left + PLOT_W + 24 + legendW);
-  const panelH = Math.max(PLOT_H, labels.length * 15 + 10);
+  const panelH = Math.max(PLOT_H, seriesCount * 15 + 10);
   const height = top + input.panels.length * (panelH + gap) - gap + 48;
   const out: string[] = [];
   out.push(
@@ -47,6 +76,7 @@ export function renderTracePlot(input: TracePlotInput): { svg: string; width: nu
   });
 
   input.panels.forEach((panel, k) => {
+    const look = looks[k] ?? [];
     const y0 = top + k * (panelH + gap);
     const duration = Math.max(panel.stepMs, panel.steps * panel.stepMs);
     const xs = scaleLinear()
@@ -100,9 +130,9 @@ export function renderTracePlot(input: TracePlotInput): { svg: string; width: nu
         parts.push(`${pen ? 'L' : 'M'}${px(xs((r + 1) * panel.stepMs))},${px(ys(v))}`);
         pen = true;
       }
-      const st = style.get(label) ?? { colour: '#333333', dash: '' };
+      const st = look[s]?.style ?? { colour: '#333333', dash: '' };
       out.push(
-        `<path class="series" data-label="${escapeXml(label)}" d="${parts.join('')}" fill="none" stroke="${st.colour}" stroke-width="1.6"${st.dash === '' ? '' : ` stroke-dasharray="${st.dash}"`} clip-path="url(#${clipId})"/>`,
+        `<path class="series" data-label="${escapeXml(look[s]?.label ?? label)}" d="${parts.join('')}" fill="none" stroke="${st.colour}" stroke-width="1.6"${st.dash === '' ? '' : ` stroke-dasharray="${st.dash}"`} clip-path="url(#${clipId})"/>`,
       );
     });
     out.push(`<rect x="${left}" y="${y0}" width="${PLOT_W}" height="${panelH}" fill="none" stroke="#222222"/>`);
@@ -118,16 +148,17 @@ export function renderTracePlot(input: TracePlotInput): { svg: string; width: nu
     out.push(
       `<text x="16" y="${px(cy)}" text-anchor="middle" transform="rotate(-90 16 ${px(cy)})">${escapeXml(input.valueLabel)}</text>`,
     );
-    // Legend for this panel.
+    // Legend for this panel, by sequence and position.
     const lx = left + PLOT_W + 16;
-    panel.seriesLabels.forEach((label, s) => {
-      const st = style.get(label) ?? { colour: '#333333', dash: '' };
-      const ly = y0 + 8 + s * 15;
-      out.push(
-        `<line x1="${lx}" y1="${ly}" x2="${lx + 22}" y2="${ly}" stroke="${st.colour}" stroke-width="2"${st.dash === '' ? '' : ` stroke-dasharray="${st.dash}"`}/>`,
-      );
-      out.push(`<text x="${lx + 28}" y="${ly + 4}" font-size="11">${escapeXml(label)}</text>`);
-    });
+    [...look]
+      .sort((a, b) => a.order - b.order)
+      .forEach(({ label, style: st }, s) => {
+        const ly = y0 + 8 + s * 15;
+        out.push(
+          `<line x1="${lx}" y1="${ly}" x2="${lx + 22}" y2="${ly}" stroke="${st.colour}" stroke-width="2"${st.dash === '' ? '' : ` stroke-dasharray="${st.dash}"`}/>`,
+        );
+        out.push(`<text x="${lx + 28}" y="${ly + 4}" font-size="11">${escapeXml(label)}</text>`);
+      });
     out.push('</g>');
   });
   out.push('</svg>');
