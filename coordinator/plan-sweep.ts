@@ -1,6 +1,6 @@
 import { jobSeed } from '../shared/job-identity.js';
 import type { Point } from '../shared/schemas/records.js';
-import { countJobs, fullParams } from '../shared/sweep/expand.js';
+import { computedParams, countJobs, fullParams } from '../shared/sweep/expand.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { iteratePoints } from '../shared/sweep/points.js';
 import { runModel } from '../worker/run-model.js';
@@ -47,6 +47,10 @@ export interface SweepPlan {
   /** Sum of model.cost over every job. */
   readonly totalOps: number;
   readonly sample: readonly Point[];
+  /** Computed parameters: name -> normalised formula (file order). */
+  readonly formulas: Readonly<Record<string, string>>;
+  /** Values of the computed parameters at each sample point. */
+  readonly sampleComputed: ReadonlyArray<Readonly<Record<string, number>>>;
   readonly calibration: CalibrationFigures | null;
   readonly coreHours: number | null;
 }
@@ -124,14 +128,18 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     jobs: countJobs(sweep),
     totalOps,
     sample,
+    formulas: sweep.derived?.compiled.normalised ?? {},
+    sampleComputed: sample.map((point) => computedParams(sweep, point)),
     calibration,
     coreHours: secondsPerOp === null ? null : (totalOps * secondsPerOp) / 3600,
   };
 }
 
-function formatPoint(point: Point, names: readonly string[]): string {
-  if (names.length === 0) return '(no varied parameters)';
-  return names.map((n) => `${n}=${String(point[n])}`).join('  ');
+function formatPoint(point: Point, names: readonly string[], computed: Readonly<Record<string, number>>): string {
+  const varied =
+    names.length === 0 ? '(no varied parameters)' : names.map((n) => `${n}=${String(point[n])}`).join('  ');
+  const derived = Object.entries(computed).map(([n, v]) => `${n}=${String(Number(v.toPrecision(6)))}`);
+  return derived.length === 0 ? varied : `${varied}  ->  ${derived.join('  ')}`;
 }
 
 const count = (n: number): string => n.toLocaleString('en-US');
@@ -146,6 +154,7 @@ export function formatPlan(plan: SweepPlan, threads: number): string {
   row('model', `${plan.model} version ${plan.modelVersion}`);
   row('sampler', plan.sampler);
   row('varied', plan.variedNames.length === 0 ? '(none)' : plan.variedNames.join(', '));
+  for (const [name, formula] of Object.entries(plan.formulas)) row('computed', `${name} = ${formula}`);
   row('points', count(plan.points));
   row('replicates', count(plan.replicates));
   row('jobs', count(plan.jobs));
@@ -173,6 +182,8 @@ export function formatPlan(plan: SweepPlan, threads: number): string {
   lines.push(
     plan.sample.length < plan.points ? `first ${plan.sample.length} of ${count(plan.points)} points:` : 'points:',
   );
-  for (const point of plan.sample) lines.push(`  ${formatPoint(point, plan.variedNames)}`);
+  for (const [i, point] of plan.sample.entries()) {
+    lines.push(`  ${formatPoint(point, plan.variedNames, plan.sampleComputed[i] ?? {})}`);
+  }
   return `${lines.join('\n')}\n`;
 }

@@ -1,5 +1,6 @@
 import { canonicalJson, sha256Hex } from '../canonical-json.js';
 import { invalidInput, issuesFromZod } from '../errors.js';
+import { derivePoint } from '../formula/derive-point.js';
 import { jobSeed } from '../job-identity.js';
 import type { JobPayload, Point } from '../schemas/records.js';
 import { checkJobLimit } from './job-limit.js';
@@ -19,9 +20,26 @@ export function countJobs(sweep: LoadedSweep): number {
   return sweep.pointCount * sweep.spec.replicates;
 }
 
-/** Full parameters of one point, through the model's schema (defaults filled in). */
+/** Values of the computed parameters at one point (empty without a `derived` section). */
+export function computedParams(sweep: LoadedSweep, point: Point): Readonly<Record<string, number>> {
+  if (sweep.derived === undefined) return {};
+  const d = derivePoint(sweep.derived, sweep.spec.fixed, point);
+  if (!d.success) {
+    // Load evaluated every point; reaching this means the model changed under us.
+    throw invalidInput(`point ${JSON.stringify(point)} is not valid for model ${sweep.model.id}`, [
+      { path: `derived.${d.name}`, message: d.message },
+    ]);
+  }
+  return d.computed;
+}
+
+/**
+ * Full parameters of one point, through the model's schema (defaults filled
+ * in): model defaults + fixed + the point + computed parameters. Computed
+ * values are plain numbers here, so jobs and workers need nothing new.
+ */
 export function fullParams(sweep: LoadedSweep, point: Point): Record<string, unknown> {
-  const parsed = sweep.model.params.safeParse({ ...sweep.spec.fixed, ...point });
+  const parsed = sweep.model.params.safeParse({ ...sweep.spec.fixed, ...point, ...computedParams(sweep, point) });
   if (!parsed.success) {
     // Load validated every point; reaching this means the model changed under us.
     throw invalidInput(

@@ -12,8 +12,16 @@ export const SWEEP_FORMAT = 'recallscape-sweep/1';
  * `report`, which only changes how results are drawn. Sampled sweeps also
  * hash the order of the varied parameters, because it assigns the sampler's
  * dimensions; a grid's job set does not depend on that order.
+ * Computed parameters enter as their normalised formulas (printFormula), so
+ * spacing and redundant parentheses do not change the hash; a sweep without
+ * any keeps the hash it had before the section existed.
  */
-export function sweepHash(spec: SweepSpec, model: AnyModel, baseParams: Readonly<Record<string, unknown>>): string {
+export function sweepHash(
+  spec: SweepSpec,
+  model: AnyModel,
+  baseParams: Readonly<Record<string, unknown>>,
+  derived: Readonly<Record<string, string>> = {},
+): string {
   const order = spec.sampler.kind === 'grid' ? undefined : Object.keys(spec.vary);
   return sha256Hex(
     canonicalJson({
@@ -25,6 +33,7 @@ export function sweepHash(spec: SweepSpec, model: AnyModel, baseParams: Readonly
       replicates: spec.replicates,
       base: baseParams,
       vary: spec.vary,
+      derived: Object.keys(derived).length > 0 ? derived : undefined,
       sampler: spec.sampler,
       order,
     }),

@@ -2,6 +2,8 @@ import { readFile } from 'node:fs/promises';
 import { parse as parseYaml } from 'yaml';
 import { z } from 'zod';
 import { type FieldIssue, InputError, invalidInput, issuesFromZod } from '../errors.js';
+import { type DerivedSetup, derivedSetup } from '../formula/derive-point.js';
+import { compileDerived } from '../formula/derived-params.js';
 import type { AnyModel } from '../model.js';
 import { findModel, listModels } from '../models/registry.js';
 import { paramNames, unknownParamIssue } from '../param-names.js';
@@ -27,6 +29,8 @@ export interface LoadedSweep {
   readonly source: string | null;
   /** Distinct parameter points (jobs = pointCount x replicates). */
   readonly pointCount: number;
+  /** Computed parameters (the `derived` section), compiled; undefined when there are none. */
+  readonly derived: DerivedSetup | undefined;
 }
 
 export interface ParseOptions {
@@ -209,6 +213,36 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
       used.set(name, axis);
     }
   }
+  // Computed parameters: names, formulas and their order, before any point.
+  let derived: DerivedSetup | undefined;
+  const rawDerived = rawObject['derived'];
+  let derivedNamesKnown = true;
+  if (rawDerived !== null && typeof rawDerived === 'object') {
+    // Keys of the raw object: __proto__ does not survive parsing into a record; refuse it rather than drop it.
+    for (const key of Object.keys(rawDerived)) {
+      if (Object.hasOwn(spec.derived, key) && known.has(key)) continue;
+      issues.push(unknownParamIssue(`derived.${key}`, key, model));
+      derivedNamesKnown = false;
+    }
+  }
+  if (derivedNamesKnown && Object.keys(spec.derived).length > 0) {
+    const compiled = compileDerived(spec.derived, {
+      known: [...known],
+      fixed: Object.keys(spec.fixed),
+      varied: variedNames,
+    });
+    if (compiled.success) {
+      const defaults = model.params.safeParse({});
+      derived = derivedSetup(
+        compiled.derived,
+        defaults.success ? (defaults.data as Record<string, unknown>) : {},
+        Object.keys(spec.fixed),
+        variedNames,
+      );
+    } else {
+      issues.push(...compiled.issues);
+    }
+  }
   if (spec.sampler.kind === 'sobol' && variedNames.length > 40) {
     issues.push({
       path: 'vary',
@@ -231,7 +265,7 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
   }
 
   // Every point merged with the model defaults and `fixed`, through the model's schema.
-  const checked = validatePoints(spec, model, iteratePoints({ spec }));
+  const checked = validatePoints(spec, model, iteratePoints({ spec }), derived);
   if (checked.issues.length > 0) fail(source, checked.issues);
   if (options.jobLimit !== undefined) checkJobLimit(checked.pointCount * spec.replicates, options.jobLimit);
 
@@ -243,12 +277,13 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
 
   return {
     spec,
-    hash: sweepHash(spec, model, baseParams),
+    hash: sweepHash(spec, model, baseParams, derived?.compiled.normalised),
     model,
     baseParams,
     variedNames,
     source,
     pointCount: checked.pointCount,
+    derived,
   };
 }
 

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { FORMULA_LIMITS } from '../formula/formula-limits.js';
 import { DEFAULT_MODEL_ID } from '../models/registry.js';
 import { BinsSchema } from './bins.js';
 import { SweepNameSchema } from './name.js';
@@ -60,6 +61,14 @@ export const ReportSchema = z
   .strict();
 export type ReportSpec = z.output<typeof ReportSchema>;
 
+/** A formula's text; its grammar is checked by shared/formula/parse-formula.ts. */
+export const FormulaTextSchema = z
+  .string({ error: 'a formula is a text, e.g. "10 / hypercolumns"' })
+  .max(FORMULA_LIMITS.maxLength, `a formula has at most ${FORMULA_LIMITS.maxLength} characters`)
+  .describe(
+    'Formula over parameter names: numbers, + - * / % ^ (power), unary -, parentheses, < <= > >= == !=, a ? b : c, and min, max, abs, sqrt, exp, log, log2, log10, floor, ceil, round, pow',
+  );
+
 /** The sweep file. Unknown keys are rejected at every level. */
 export const SweepFileSchema = z
   .object({
@@ -84,6 +93,12 @@ export const SweepFileSchema = z
       .record(z.string(), RangeSchema)
       .default({})
       .describe('Parameters that change, in order (first changes slowest on a grid)'),
+    derived: z
+      .record(z.string(), FormulaTextSchema, { error: 'derived maps parameter names to formula texts' })
+      .default({})
+      .describe(
+        'Parameters computed at every point from the others: name -> formula, e.g. weightGain: "10 / hypercolumns"',
+      ),
     sampler: SamplerSchema,
     report: ReportSchema.default({}),
   })
@@ -95,4 +110,14 @@ export type SweepSpec = z.output<typeof SweepFileSchema>;
 export type SweepFileInput = z.input<typeof SweepFileSchema>;
 
 /** Top-level field order of a normalised spec (sweep.json is written in it). */
-export const SPEC_FIELD_ORDER = ['name', 'model', 'seed', 'replicates', 'fixed', 'vary', 'sampler', 'report'] as const;
+export const SPEC_FIELD_ORDER = [
+  'name',
+  'model',
+  'seed',
+  'replicates',
+  'fixed',
+  'vary',
+  'derived',
+  'sampler',
+  'report',
+] as const;

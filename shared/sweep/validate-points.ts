@@ -1,4 +1,5 @@
 import type { FieldIssue } from '../errors.js';
+import { checkDefaultsRead, type DerivedSetup, derivePoint, WHOLE_NUMBER_HINT } from '../formula/derive-point.js';
 import type { AnyModel } from '../model.js';
 import type { Point } from '../schemas/records.js';
 import type { SweepSpec } from './schema.js';
@@ -18,21 +19,50 @@ function describePoint(point: Point): string {
 /**
  * Run every point (defaults + fixed + the point's values) through the
  * model's own schema, so cross-field rules fail before any job exists.
+ * Computed parameters (`derived`) are evaluated first and checked like the
+ * rest, each problem at `derived.<name>`.
  * Reports the first few failing points, each issue at the field it concerns.
  */
-export function validatePoints(spec: SweepSpec, model: AnyModel, points: Iterable<Point>): PointCheck {
+export function validatePoints(
+  spec: SweepSpec,
+  model: AnyModel,
+  points: Iterable<Point>,
+  derived?: DerivedSetup,
+): PointCheck {
   const issues: FieldIssue[] = [];
   let pointCount = 0;
   let failing = 0;
   for (const point of points) {
     pointCount++;
-    const result = model.params.safeParse({ ...spec.fixed, ...point });
-    if (result.success) continue;
+    const at = (): string => `at point ${pointCount} (${describePoint(point)})`;
+    let input: Record<string, unknown> = { ...spec.fixed, ...point };
+    let computed: Readonly<Record<string, number>> = {};
+    if (derived !== undefined) {
+      const d = derivePoint(derived, spec.fixed, point);
+      if (!d.success) {
+        failing++;
+        if (failing <= SHOWN_POINTS) issues.push({ path: `derived.${d.name}`, message: `${at()}: ${d.message}` });
+        continue;
+      }
+      input = d.input;
+      computed = d.computed;
+    }
+    const result = model.params.safeParse(input);
+    if (result.success) {
+      const wrongDefault = derived === undefined ? undefined : checkDefaultsRead(derived, result.data);
+      if (wrongDefault === undefined) continue;
+      failing++;
+      if (failing <= SHOWN_POINTS) {
+        issues.push({ path: `derived.${wrongDefault.name}`, message: `${at()}: ${wrongDefault.message}` });
+      }
+      continue;
+    }
     failing++;
     if (failing > SHOWN_POINTS) continue;
     for (const issue of result.error.issues) {
       const head = issue.path[0] === undefined ? undefined : String(issue.path[0]);
       const rest = issue.path.slice(1).map(String);
+      const isComputed = head !== undefined && Object.hasOwn(computed, head);
       const where =
         head === undefined
           ? 'params'
@@ -40,17 +70,22 @@ export function validatePoints(spec: SweepSpec, model: AnyModel, points: Iterabl
             ? `vary.${head}`
             : Object.hasOwn(spec.fixed, head)
               ? `fixed.${head}`
-              : `params.${head}`;
+              : isComputed
+                ? `derived.${head}`
+                : `params.${head}`;
       const path = [where, ...rest].join('.');
       let message = issue.message;
       const range = head === undefined ? undefined : spec.vary[head];
-      if (issue.code === 'invalid_type' && (issue as { expected?: string }).expected === 'int') {
+      const wholeNumber = issue.code === 'invalid_type' && (issue as { expected?: string }).expected === 'int';
+      if (isComputed) {
+        message = `the formula gives ${computed[head]}; ${message}${wholeNumber ? ` (${WHOLE_NUMBER_HINT})` : ''}`;
+      } else if (wholeNumber) {
         message +=
           range !== undefined && 'between' in range
             ? ' (this parameter takes whole numbers: add integer: true)'
             : ' (this parameter takes whole numbers)';
       }
-      issues.push({ path, message: `at point ${pointCount} (${describePoint(point)}): ${message}` });
+      issues.push({ path, message: `${at()}: ${message}` });
     }
   }
   if (failing > SHOWN_POINTS) {

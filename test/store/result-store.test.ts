@@ -45,6 +45,7 @@ describe('result store', () => {
       'replicates',
       'fixed',
       'vary',
+      'derived',
       'sampler',
       'report',
     ]);

@@ -31,6 +31,7 @@ describe('recallscape schema', () => {
       'replicates',
       'fixed',
       'vary',
+      'derived',
       'sampler',
       'report',
     ]);
