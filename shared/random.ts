@@ -1,6 +1,4 @@
 import { createHash } from 'node:crypto';
-import { uniformFloat64 } from 'pure-rand/distribution/uniformFloat64';
-import { xoroshiro128plusFromState } from 'pure-rand/generator/xoroshiro128plus';
 
 /** Largest seed accepted anywhere: seeds are non-negative safe integers. */
 export const MAX_SEED = Number.MAX_SAFE_INTEGER;
@@ -17,6 +15,57 @@ export interface RandomSource {
   int(n: number): number;
   /** Standard normal draw (polar Box-Muller, both values used). */
   normal(): number;
+  /**
+   * The generator behind uniform(), for hot loops that keep its state in
+   * local variables for a whole block of draws (see Xoroshiro128Plus).
+   */
+  readonly generator: Xoroshiro128Plus;
+}
+
+/** uniform() joins 26 and 27 bits of two outputs into 53: masks and weights 2^-26, 2^-53. */
+const UNIFORM_MASK_HI = 0x3ffffff;
+const UNIFORM_MASK_LO = 0x7ffffff;
+const UNIFORM_SCALE_HI = 2 ** -26;
+const UNIFORM_SCALE_LO = 2 ** -53;
+
+/**
+ * xoroshiro128+ (Blackman & Vigna 2018) on four signed 32-bit words, giving
+ * the low 32 bits of each 64-bit output: the same stream, word for word, as
+ * the xoroshiro128plus generator of the pure-rand library (the tests compare
+ * the two), and the same uniform() as its uniformFloat64. The words are public so that a loop can copy
+ * them into locals, run `step` inline, and write them back: V8 keeps locals
+ * in registers but must load and store object fields on every call.
+ */
+export class Xoroshiro128Plus {
+  constructor(
+    public s01: number,
+    public s00: number,
+    public s11: number,
+    public s10: number,
+  ) {}
+
+  /** Next 32-bit output (signed). */
+  next(): number {
+    const s00 = this.s00;
+    const s01 = this.s01;
+    const s10 = this.s10;
+    const s11 = this.s11;
+    const out = (s00 + s10) | 0;
+    const a0 = s10 ^ s00;
+    const a1 = s11 ^ s01;
+    this.s00 = (s00 << 24) ^ (s01 >>> 8) ^ a0 ^ (a0 << 16);
+    this.s01 = (s01 << 24) ^ (s00 >>> 8) ^ a1 ^ ((a1 << 16) | (a0 >>> 16));
+    this.s10 = (a1 << 5) ^ (a0 >>> 27);
+    this.s11 = (a0 << 5) ^ (a1 >>> 27);
+    return out;
+  }
+
+  /** Uniform in [0, 1): 26 bits of one output and 27 of the next, 53 in all. */
+  uniform(): number {
+    const hi = this.next() & UNIFORM_MASK_HI;
+    const lo = this.next() & UNIFORM_MASK_LO;
+    return hi * UNIFORM_SCALE_HI + lo * UNIFORM_SCALE_LO;
+  }
 }
 
 /**
@@ -29,14 +78,19 @@ export function createRandom(seed: number, stream = 'main'): RandomSource {
     throw new RangeError(`seed must be an integer in [0, 2^53 - 1], got ${String(seed)}`);
   }
   const digest = createHash('sha256').update(`recallscape-rng:${stream}:${seed}`).digest();
-  const state: number[] = [digest.readInt32LE(0), digest.readInt32LE(4), digest.readInt32LE(8), digest.readInt32LE(12)];
+  const rng = new Xoroshiro128Plus(
+    digest.readInt32LE(0),
+    digest.readInt32LE(4),
+    digest.readInt32LE(8),
+    digest.readInt32LE(12),
+  );
   // xoroshiro must not start from the all-zero state.
-  if (state.reduce((acc, s) => acc | s, 0) === 0) state[0] = 1;
-  const rng = xoroshiro128plusFromState(state);
+  if ((rng.s01 | rng.s00 | rng.s11 | rng.s10) === 0) rng.s01 = 1;
   let spare = 0;
   let hasSpare = false;
-  const uniform = (): number => uniformFloat64(rng);
+  const uniform = (): number => rng.uniform();
   return {
+    generator: rng,
     uniform,
     int(n: number): number {
       if (!Number.isInteger(n) || n <= 0) throw new RangeError(`int(n) needs a positive integer, got ${n}`);

@@ -1,3 +1,4 @@
+import { expNonPositive } from '../../fast-exp.js';
 import type { RandomSource } from '../../random.js';
 import { fillNormal } from './normal-noise.js';
 import type { BcpnnParams, ResolvedShape } from './params.js';
@@ -123,7 +124,7 @@ export class Recaller {
         }
         let sum = 0;
         for (let i = off; i < end; i++) {
-          const e = Math.exp((scaled[i] as number) - mx);
+          const e = expNonPositive((scaled[i] as number) - mx);
           o[i] = e;
           sum += e;
         }
