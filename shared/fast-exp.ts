@@ -19,10 +19,10 @@ const INV_STEP = 64 / Math.LN2;
 /**
  * ln2/64 in two parts (Cody & Waite 1980): STEP_HI has 32 significant bits,
  * so k·STEP_HI is exact for every |k| < 2^21, and STEP_LO is the rest.
- * ln2 split as in fdlibm's exp: 6.93147180369123816490e-01 + 1.90821492927058770002e-10.
+ * ln2 split as in fdlibm's exp: the doubles 0x3fe62e42fee00000 + 0x3dea39ef35793c76.
  */
-const STEP_HI = 6.9314718036912381649e-1 / 64;
-const STEP_LO = 1.90821492927058770002e-10 / 64;
+const STEP_HI = 0.6931471803691238 / 64;
+const STEP_LO = 1.9082149292705877e-10 / 64;
 
 /** Below this, exp(x) rounds to 0 in double precision (exp(-745.14) < 2^-1075). */
 const UNDERFLOW = -746;
