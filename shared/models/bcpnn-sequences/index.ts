@@ -1,10 +1,11 @@
 import type { Model, RunOptions, RunOutput, TracePanel } from '../../model.js';
 import { createRandom } from '../../random.js';
 import { estimateCost } from './cost.js';
+import { DecisionWatch } from './decision-watch.js';
 import { metricInfo } from './metric-info.js';
 import { type BcpnnParams, bcpnnParamsSchema, paramInfo, resolveShape } from './params.js';
 import { achievedOverlap, generateSequences, indexPatterns, type PatternSet } from './patterns.js';
-import { Recaller } from './recall.js';
+import { DIVERGED, Recaller } from './recall.js';
 import { scoreRecall } from './scoring.js';
 import { type TrainedNetwork, train } from './training.js';
 
@@ -37,6 +38,7 @@ export function recallTrial(p: BcpnnParams, seed: number, parts: TrialParts, opt
   const recaller = new Recaller(net, set, p, shape);
   const noise = p.noise > 0 ? createRandom(seed, 'noise') : null;
   const active = new Int32Array(recaller.steps);
+  const watch = p.stopWhenDecided ? new DecisionWatch(p.dt, p.minDwell) : null;
   const trace: TracePanel[] = [];
   const members = set.patterns.map((): { sequence: number; position: number }[] => []);
   set.ids.forEach((seq, sequence) => {
@@ -51,10 +53,13 @@ export function recallTrial(p: BcpnnParams, seed: number, parts: TrialParts, opt
   let recalled = 0;
   for (let s = 0; s < shape.K; s++) {
     const values = options.trace === true ? new Float64Array(recaller.steps * recaller.nPatterns) : null;
-    const ok = recaller.run(s, noise, active, values);
-    if (!ok) diverged = true;
     const expected = set.ids[s] ?? [];
-    const score = scoreRecall(active, expected, p.dt, p.minDwell);
+    watch?.reset(expected);
+    // Only a later recall needs the noise stream where a full recall would have left it.
+    const written = recaller.run(s, noise, active, values, watch, s < shape.K - 1);
+    if (written === DIVERGED) diverged = true;
+    const steps = written === DIVERGED ? recaller.steps : written;
+    const score = scoreRecall(active.subarray(0, steps), expected, p.dt, p.minDwell);
     correctPrefix.push(score.correctPrefix);
     firstError.push(score.firstError);
     dwell.push(...score.dwellMs);
@@ -63,11 +68,11 @@ export function recallTrial(p: BcpnnParams, seed: number, parts: TrialParts, opt
       trace.push({
         title: `recall ${s} (sequence ${s})`,
         stepMs: p.dt,
-        steps: recaller.steps,
+        steps,
         seriesLabels: set.patterns.map((_, k) => `p${k}`),
         seriesMembers: members,
         markEndMs: shape.nCue * p.dt,
-        values,
+        values: steps === recaller.steps ? values : values.slice(0, steps * recaller.nPatterns),
       });
     }
   }
@@ -87,7 +92,8 @@ export function recallTrial(p: BcpnnParams, seed: number, parts: TrialParts, opt
 
 export const bcpnnSequences: Model<typeof bcpnnParamsSchema> = {
   id: 'bcpnn-sequences',
-  version: '1.0.0',
+  // 1.1.0 added stopWhenDecided, which enters every job key; with it off the metrics are those of 1.0.0.
+  version: '1.1.0',
   summary:
     'Modular attractor network (hypercolumns of minicolumns) trained with the BCPNN rule on K sequences with controlled overlap, then cued recall of each sequence; success when every sequence is replayed in order.',
   params: bcpnnParamsSchema,

@@ -21,7 +21,7 @@ export const metricInfo: Readonly<Record<string, MetricInfo>> = {
     type: 'number',
     unit: 'ms',
     description:
-      'mean time a pattern stayed active within the correctly recalled part of each sequence; empty when none was',
+      'mean time a pattern stayed active within the correctly recalled part of each sequence; empty when none was (with stopWhenDecided, the last pattern of a recalled sequence counts only until it had lasted minDwell)',
   },
   achievedOverlap: {
     type: 'number',

@@ -125,6 +125,10 @@ const shape = {
     .default(0.5)
     .describe('Least match for a pattern to count as active'),
   minDwell: time('minDwell').default(5).describe('Runs shorter than this are dropped in scoring'),
+  stopWhenDecided: z
+    .boolean({ error: 'stopWhenDecided must be true or false' })
+    .default(false)
+    .describe('End each recall as soon as its outcome is decided (shortens the last dwell, not the outcome)'),
 };
 
 const TIME_CONSTANTS = ['tauZPre', 'tauZPost', 'tauP', 'tauSupport', 'tauAdapt'] as const;
@@ -396,4 +400,8 @@ export const paramInfo: Readonly<Record<keyof typeof shape, ParamInfo>> = {
     description: 'Least pattern match that counts as an active pattern',
   },
   minDwell: { unit: 'ms', description: 'Decoded runs shorter than this are dropped before scoring' },
+  stopWhenDecided: {
+    unit: '1',
+    description: 'End each recall at its first wrong pattern or once its last pattern lasted minDwell',
+  },
 };

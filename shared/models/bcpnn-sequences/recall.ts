@@ -1,10 +1,14 @@
 import { expNonPositive } from '../../fast-exp.js';
 import type { RandomSource } from '../../random.js';
+import type { DecisionWatch } from './decision-watch.js';
 import { fillNormal } from './normal-noise.js';
 import type { BcpnnParams, ResolvedShape } from './params.js';
 import type { PatternSet } from './patterns.js';
 import { activeAt } from './scoring.js';
 import type { TrainedNetwork } from './training.js';
+
+/** What Recaller.run returns when the state stopped being finite. */
+export const DIVERGED = -1;
 
 /**
  * Cued recall (plasticity off), one step at a time as in docs/model.md.
@@ -22,7 +26,6 @@ export class Recaller {
   private readonly classSum: Float64Array;
   private readonly classInput: Float64Array;
   private readonly external: Float64Array;
-  private readonly scaled: Float64Array;
   /** patternUnits[k * H + h]: the active unit of pattern k in hypercolumn h. */
   readonly patternUnits: Int32Array;
   readonly nPatterns: number;
@@ -42,7 +45,6 @@ export class Recaller {
     this.classSum = new Float64Array(net.G);
     this.classInput = new Float64Array(net.G);
     this.external = new Float64Array(N);
-    this.scaled = new Float64Array(N);
     this.nPatterns = set.patterns.length;
     this.patternUnits = new Int32Array(this.nPatterns * H);
     set.patterns.forEach((pattern, k) => {
@@ -56,11 +58,26 @@ export class Recaller {
    * Recall cued by the first pattern of `sequence`. Writes the active pattern
    * id (or -1) of every step into `active` and, when given, the match of
    * every pattern at every step into `trace` (row-major, steps x nPatterns).
-   * Returns false when the state stopped being finite (the rest of `active`
-   * is -1 and of `trace` NaN).
+   *
+   * With a `watch`, the recall ends after the step on which the watch says
+   * the outcome is decided; `active` and `trace` are then written up to that
+   * step only. If `alignNoise` is set, the noise of the steps not run is
+   * still drawn (and discarded), so that the next recall sees the same noise
+   * as it would after a full recall.
+   *
+   * Returns the number of steps written, or DIVERGED when the state stopped
+   * being finite (the rest of `active` is then -1 and of `trace` NaN). A
+   * number rather than an object: nothing is allocated per recall.
    */
-  run(sequence: number, noise: RandomSource | null, active: Int32Array, trace: Float64Array | null): boolean {
-    const { s, o, a, classSum, classInput, external, scaled, patternUnits, matches, nPatterns, steps } = this;
+  run(
+    sequence: number,
+    noise: RandomSource | null,
+    active: Int32Array,
+    trace: Float64Array | null,
+    watch: DecisionWatch | null = null,
+    alignNoise = false,
+  ): number {
+    const { s, o, a, classSum, classInput, external, patternUnits, matches, nPatterns, steps } = this;
     const { N, H, M, nCue } = this.shape;
     const { G, classOf, classWeights, classBias } = this.net;
     const p = this.p;
@@ -110,7 +127,8 @@ export class Recaller {
       for (let h = 0; h < H; h++) {
         const off = h * M;
         const end = off + M;
-        // Support update, then softmax of gain*s in this hypercolumn (max subtracted).
+        // Support update, then softmax of gain*s in this hypercolumn (max subtracted);
+        // o holds gain*s until the exponentials replace it.
         let mx = -Infinity;
         for (let i = off; i < end; i++) {
           const u =
@@ -119,12 +137,12 @@ export class Recaller {
           const next = si + kS * (u - si);
           s[i] = next;
           const v = gain * next;
-          scaled[i] = v;
-          if (v > mx) mx = v;
+          o[i] = v;
+          mx = Math.max(mx, v);
         }
         let sum = 0;
         for (let i = off; i < end; i++) {
-          const e = expNonPositive((scaled[i] as number) - mx);
+          const e = expNonPositive((o[i] as number) - mx);
           o[i] = e;
           sum += e;
         }
@@ -143,7 +161,7 @@ export class Recaller {
       if (!finite) {
         active.fill(-1, t);
         if (trace !== null) trace.fill(Number.NaN, t * nPatterns);
-        return false;
+        return DIVERGED;
       }
       for (let k = 0; k < nPatterns; k++) {
         let sum = 0;
@@ -151,9 +169,16 @@ export class Recaller {
         for (let h = 0; h < H; h++) sum += o[patternUnits[base + h] as number] as number;
         matches[k] = sum * invH;
       }
-      active[t] = activeAt(matches, 0, nPatterns, threshold);
+      const id = activeAt(matches, 0, nPatterns, threshold);
+      active[t] = id;
       if (trace !== null) trace.set(matches, t * nPatterns);
+      if (watch?.push(id) === true) {
+        if (noise !== null && alignNoise) {
+          for (let rest = t + 1; rest < steps; rest++) fillNormal(noise, external, sigma);
+        }
+        return t + 1;
+      }
     }
-    return true;
+    return steps;
   }
 }
