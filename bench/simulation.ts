@@ -1,27 +1,26 @@
 /**
- * Section "simulation": cost of one bcpnn-sequences trial at three network
- * sizes (L=6, K=2, defaults, noise 0.5), split into training and recall.
- * Wall-clock and CPU medians after warm-up; the machine line comes from
- * bench/index.ts. Goals (issue 6): (10,20) under 15 ms, (25,100) under 2 s.
+ * Section "simulation": what one bcpnn-sequences trial costs.
+ *
+ * 1. The two primitives of the recall loop, before and after: exp (Math.exp
+ *    against the table-driven exp) and the normal draw (one uniform() call per
+ *    draw through the library generator, against the fill that keeps the
+ *    generator state in locals), in ns per call, rounds interleaved.
+ * 2. Whole trials at (10,20), old recall (bench/simulation-baseline.ts) and
+ *    current recall alternating on the same seeds in this process: CPU ratio,
+ *    and a check that every metric is identical.
+ * 3. CPU time per trial at four sizes (the two larger with weightGain = 10/H
+ *    so that they recall), with the success rate.
+ * 4. stopWhenDecided off and on.
+ *
+ * CPU time is this process's (process.cpuUsage: user + system), so waiting
+ * for a core on a shared machine is not counted; wall time is shown beside it.
  */
+import { expNonPositive } from '../shared/fast-exp.js';
 import { bcpnnSequences, recallTrial, trainTrial } from '../shared/models/bcpnn-sequences/index.js';
-import { resolveShape } from '../shared/models/bcpnn-sequences/params.js';
-
-interface Size {
-  readonly H: number;
-  readonly M: number;
-  readonly warmup: number;
-  readonly trials: number;
-  /** Stop measuring after this much wall time (ms), keeping the section under a minute. */
-  readonly budgetMs: number;
-  readonly goalMs?: number;
-}
-
-const SIZES: readonly Size[] = [
-  { H: 10, M: 20, warmup: 20, trials: 60, budgetMs: 8_000, goalMs: 15 },
-  { H: 16, M: 50, warmup: 3, trials: 20, budgetMs: 10_000 },
-  { H: 25, M: 100, warmup: 2, trials: 9, budgetMs: 20_000, goalMs: 2_000 },
-];
+import { fillNormal } from '../shared/models/bcpnn-sequences/normal-noise.js';
+import { type BcpnnParams, resolveShape } from '../shared/models/bcpnn-sequences/params.js';
+import { createRandom } from '../shared/random.js';
+import { baselineFillNormal, baselineRecallTrial, libraryUniform } from './simulation-baseline.js';
 
 const median = (xs: readonly number[]): number => {
   const sorted = [...xs].sort((a, b) => a - b);
@@ -30,56 +29,225 @@ const median = (xs: readonly number[]): number => {
     ? (sorted[mid] as number)
     : ((sorted[mid - 1] as number) + (sorted[mid] as number)) / 2;
 };
+const sum = (xs: readonly number[]): number => xs.reduce((a, b) => a + b, 0);
 
-const cpuMs = (since: NodeJS.CpuUsage): number => {
-  const d = process.cpuUsage(since);
+/** CPU milliseconds of this process spent in f. */
+function cpuMs(f: () => void): number {
+  const start = process.cpuUsage();
+  f();
+  const d = process.cpuUsage(start);
   return (d.user + d.system) / 1000;
-};
+}
 
-export async function run(): Promise<void> {
-  console.log('bcpnn-sequences, L=6, K=2, defaults, noise 0.5, one thread; medians over trials with different seeds');
-  console.log('size (H,M)   N      trials  train ms  recall ms  total ms  total cpu ms  us/recall step  goal');
+const params = (input: Record<string, unknown>): BcpnnParams => bcpnnSequences.params.parse(input);
+
+// ---- 1. primitives -------------------------------------------------------
+
+/** Arguments as the softmax sees them: gain*s - max, mostly a few units below 0. */
+const EXP_ARGS = (() => {
+  const rng = createRandom(1, 'bench-exp');
+  const xs = new Float64Array(4096);
+  for (let i = 0; i < xs.length; i++) xs[i] = -40 * rng.uniform();
+  return xs;
+})();
+const EXP_REPS = 400;
+
+// Two loops, each with one callee, so that each is compiled for its own function.
+function loopMathExp(): number {
+  let acc = 0;
+  for (let r = 0; r < EXP_REPS; r++) for (let i = 0; i < EXP_ARGS.length; i++) acc += Math.exp(EXP_ARGS[i] as number);
+  return acc;
+}
+function loopTableExp(): number {
+  let acc = 0;
+  for (let r = 0; r < EXP_REPS; r++)
+    for (let i = 0; i < EXP_ARGS.length; i++) acc += expNonPositive(EXP_ARGS[i] as number);
+  return acc;
+}
+
+const DRAW_BLOCK = 200;
+const DRAW_BLOCKS = 5000;
+
+function primitives(): void {
+  const rounds = 9;
+  const calls = EXP_REPS * EXP_ARGS.length;
+  let sink = loopMathExp() + loopTableExp();
+  const oldExp: number[] = [];
+  const newExp: number[] = [];
+  for (let r = 0; r < rounds; r++) {
+    oldExp.push((cpuMs(() => (sink += loopMathExp())) * 1e6) / calls);
+    newExp.push((cpuMs(() => (sink += loopTableExp())) * 1e6) / calls);
+  }
+
+  // Normal draws in blocks of 200 (one recall step at (10,20)).
+  const block = new Float64Array(DRAW_BLOCK);
+  const oldUniform = libraryUniform(11, 'bench-normal');
+  const newSource = createRandom(11, 'bench-normal');
+  for (let i = 0; i < 500; i++) {
+    baselineFillNormal(oldUniform, block, 1);
+    fillNormal(newSource, block, 1);
+  }
+  const oldDraw: number[] = [];
+  const newDraw: number[] = [];
+  const draws = DRAW_BLOCK * DRAW_BLOCKS;
+  for (let r = 0; r < rounds; r++) {
+    oldDraw.push(
+      (cpuMs(() => {
+        for (let i = 0; i < DRAW_BLOCKS; i++) baselineFillNormal(oldUniform, block, 1);
+      }) *
+        1e6) /
+        draws,
+    );
+    newDraw.push(
+      (cpuMs(() => {
+        for (let i = 0; i < DRAW_BLOCKS; i++) fillNormal(newSource, block, 1);
+      }) *
+        1e6) /
+        draws,
+    );
+  }
+  // Same stream, same numbers: both sources were fed the same seed and drew the same count.
+  const checkOld = new Float64Array(100_000);
+  const checkNew = new Float64Array(100_000);
+  let differing = 0;
+  for (let i = 0; i < 10; i++) {
+    baselineFillNormal(oldUniform, checkOld, 1);
+    fillNormal(newSource, checkNew, 1);
+    for (let n = 0; n < checkOld.length; n++) if (checkOld[n] !== checkNew[n]) differing++;
+  }
+  if (sink === 0) console.log('');
+  const line = (name: string, oldNs: number[], newNs: number[], oldName: string, newName: string, extra = '') =>
+    console.log(
+      `  ${name.padEnd(28)} ${oldName} ${median(oldNs).toFixed(2)} ns   ${newName} ${median(newNs).toFixed(2)} ns   new/old ${(median(newNs) / median(oldNs)).toFixed(2)}${extra}`,
+    );
+  console.log(`primitives, ns per call, median of ${rounds} interleaved rounds:`);
+  line('exp, x uniform in [-40, 0]', oldExp, newExp, 'Math.exp', 'table-driven');
+  line(
+    'normal draw (ziggurat)',
+    oldDraw,
+    newDraw,
+    'uniform() per draw',
+    'state in locals',
+    `   same numbers: ${differing === 0 ? 'yes' : `NO (${differing} differ)`} on 1,000,000 draws`,
+  );
+}
+
+// ---- 2. old and new trial side by side ------------------------------------
+
+function sideBySide(): void {
+  const p = params({ noise: 0.5 });
+  const pairs = 60;
+  for (let i = 0; i < 10; i++) {
+    const parts = trainTrial(p, 5000 + i);
+    baselineRecallTrial(p, 5000 + i, parts);
+    recallTrial(p, 5000 + i, parts);
+  }
+  const oldCpu: number[] = [];
+  const newCpu: number[] = [];
+  let identical = 0;
+  for (let seed = 0; seed < pairs; seed++) {
+    let oldMetrics: Record<string, unknown> = {};
+    let newMetrics: Record<string, unknown> = {};
+    const runOld = () =>
+      oldCpu.push(
+        cpuMs(() => {
+          oldMetrics = baselineRecallTrial(p, seed, trainTrial(p, seed));
+        }),
+      );
+    const runNew = () =>
+      newCpu.push(
+        cpuMs(() => {
+          newMetrics = recallTrial(p, seed, trainTrial(p, seed)).metrics;
+        }),
+      );
+    // Alternate which goes first, so that drift in the machine's load favours neither.
+    if (seed % 2 === 0) {
+      runOld();
+      runNew();
+    } else {
+      runNew();
+      runOld();
+    }
+    if (JSON.stringify(oldMetrics) === JSON.stringify(newMetrics)) identical++;
+  }
+  const ratios = oldCpu.map((o, i) => (newCpu[i] as number) / o);
+  console.log(
+    `\nwhole trial at (10,20), noise 0.5, old and new recall alternating on ${pairs} seeds (training included in both):`,
+  );
+  console.log(
+    `  cpu ms per trial: old ${median(oldCpu).toFixed(2)}, new ${median(newCpu).toFixed(2)}; new/old ${(sum(newCpu) / sum(oldCpu)).toFixed(3)} (totals), ${median(ratios).toFixed(3)} (median of pairs)`,
+  );
+  console.log(`  metrics identical on ${identical} of ${pairs} trials`);
+}
+
+// ---- 3. sizes ---------------------------------------------------------------
+
+interface Size {
+  readonly H: number;
+  readonly M: number;
+  readonly warmup: number;
+  readonly trials: number;
+  /** Stop measuring after this much wall time (ms), keeping the section short. */
+  readonly budgetMs: number;
+  readonly goalCpuMs?: number;
+}
+
+const SIZES: readonly Size[] = [
+  { H: 10, M: 20, warmup: 20, trials: 60, budgetMs: 8_000, goalCpuMs: 10 },
+  { H: 16, M: 50, warmup: 3, trials: 20, budgetMs: 10_000 },
+  { H: 25, M: 100, warmup: 2, trials: 9, budgetMs: 15_000 },
+  { H: 50, M: 100, warmup: 1, trials: 6, budgetMs: 15_000 },
+];
+
+function sizes(): void {
+  console.log(
+    '\nL=6, K=2, defaults, noise 0.5; weightGain 10/H above H = 10 so that the larger networks recall; medians over seeds',
+  );
+  console.log(
+    'size (H,M)   N      weightGain  trials  success  train ms  recall ms  wall ms  cpu ms  us/recall step  goal',
+  );
   let peakHeap = 0;
   for (const size of SIZES) {
-    const p = bcpnnSequences.params.parse({
-      hypercolumns: size.H,
-      minicolumns: size.M,
-      sequenceLength: 6,
-      sequenceCount: 2,
-      noise: 0.5,
-    });
+    const weightGain = size.H > 10 ? 10 / size.H : 1;
+    const p = params({ hypercolumns: size.H, minicolumns: size.M, noise: 0.5, weightGain });
     const shape = resolveShape(p);
     const recallSteps = shape.K * (shape.nCue + shape.nFree);
     for (let i = 0; i < size.warmup; i++) bcpnnSequences.run(p, 1000 + i);
     const train: number[] = [];
     const recall: number[] = [];
-    const total: number[] = [];
+    const wall: number[] = [];
     const cpu: number[] = [];
+    let successes = 0;
     const started = performance.now();
     for (let i = 0; i < size.trials && (i < 3 || performance.now() - started < size.budgetMs); i++) {
       const cpu0 = process.cpuUsage();
       const t0 = performance.now();
       const parts = trainTrial(p, i);
       const t1 = performance.now();
-      recallTrial(p, i, parts);
+      const out = recallTrial(p, i, parts);
       const t2 = performance.now();
-      cpu.push(cpuMs(cpu0));
+      const d = process.cpuUsage(cpu0);
+      cpu.push((d.user + d.system) / 1000);
       train.push(t1 - t0);
       recall.push(t2 - t1);
-      total.push(t2 - t0);
+      wall.push(t2 - t0);
+      if (out.metrics.success) successes++;
       peakHeap = Math.max(peakHeap, process.memoryUsage().heapUsed);
     }
-    const med = median(total);
-    const goal = size.goalMs === undefined ? '' : `< ${size.goalMs} ms: ${med < size.goalMs ? 'met' : 'NOT met'}`;
+    const medCpu = median(cpu);
+    const goal =
+      size.goalCpuMs === undefined ? '' : `< ${size.goalCpuMs} ms cpu: ${medCpu < size.goalCpuMs ? 'met' : 'NOT met'}`;
     console.log(
       [
         `(${size.H},${size.M})`.padEnd(12),
         String(shape.N).padEnd(6),
-        String(total.length).padEnd(7),
+        weightGain.toFixed(3).padEnd(11),
+        String(cpu.length).padEnd(7),
+        `${successes}/${cpu.length}`.padEnd(8),
         median(train).toFixed(2).padStart(8),
         median(recall).toFixed(2).padStart(10),
-        med.toFixed(2).padStart(9),
-        median(cpu).toFixed(2).padStart(13),
+        median(wall).toFixed(2).padStart(8),
+        medCpu.toFixed(2).padStart(7),
         ((median(recall) * 1000) / recallSteps).toFixed(2).padStart(15),
         ` ${goal}`,
       ].join(' '),
@@ -89,7 +257,54 @@ export async function run(): Promise<void> {
   console.log(
     `peak memory: RSS ${(usage.maxRSS / 1024).toFixed(1)} MiB (whole process), heap used ${(peakHeap / 2 ** 20).toFixed(1)} MiB`,
   );
-  console.log(
-    '(wall-clock figures include waiting for the CPU on a shared machine; the cpu column is this process only)',
-  );
+}
+
+// ---- 4. stopWhenDecided ---------------------------------------------------
+
+function earlyStop(): void {
+  console.log('\nstopWhenDecided at (10,20), noise 0.5: cpu ms per trial, off and on alternating on the same 40 seeds');
+  for (const [label, input] of [
+    ['patternOverlap 0 (recalled)', {}],
+    ['patternOverlap 0.8, overlapLength 2 (fails)', { patternOverlap: 0.8, overlapLength: 2 }],
+  ] as const) {
+    const off = params({ noise: 0.5, ...input });
+    const on = params({ noise: 0.5, ...input, stopWhenDecided: true });
+    for (let i = 0; i < 5; i++) {
+      bcpnnSequences.run(off, 900 + i);
+      bcpnnSequences.run(on, 900 + i);
+    }
+    const offCpu: number[] = [];
+    const onCpu: number[] = [];
+    let successes = 0;
+    let sameOutcome = 0;
+    for (let seed = 0; seed < 40; seed++) {
+      let a: Record<string, unknown> = {};
+      let b: Record<string, unknown> = {};
+      offCpu.push(
+        cpuMs(() => {
+          a = bcpnnSequences.run(off, seed).metrics;
+        }),
+      );
+      onCpu.push(
+        cpuMs(() => {
+          b = bcpnnSequences.run(on, seed).metrics;
+        }),
+      );
+      if (a['success'] === true) successes++;
+      if (a['success'] === b['success'] && JSON.stringify(a['correctPrefix']) === JSON.stringify(b['correctPrefix']))
+        sameOutcome++;
+    }
+    console.log(
+      `  ${label.padEnd(44)} off ${median(offCpu).toFixed(2)}  on ${median(onCpu).toFixed(2)}  on/off ${(sum(onCpu) / sum(offCpu)).toFixed(2)}   success ${successes}/40, same outcome ${sameOutcome}/40`,
+    );
+  }
+}
+
+export async function run(): Promise<void> {
+  console.log('bcpnn-sequences, one thread; cpu = user + system time of this process');
+  primitives();
+  sideBySide();
+  sizes();
+  earlyStop();
+  console.log('(wall-clock figures include waiting for a core on a shared machine; the cpu figures do not)');
 }
