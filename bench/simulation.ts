@@ -14,7 +14,13 @@
  *
  * CPU time is this process's (process.cpuUsage: user + system), so waiting
  * for a core on a shared machine is not counted; wall time is shown beside it.
+ * The kernel charges CPU time by clock ticks (a few ms), so one 10 ms trial
+ * can read anywhere from 5 to 15 ms: CPU time is read over blocks of at
+ * least about 50 ms (several trials, or many calls), and the figure shown is
+ * the median over blocks, which a busy neighbour's occasional burst (one
+ * block several times slower, seen on the shared machine) does not move.
  */
+import { cpus, loadavg } from 'node:os';
 import { expNonPositive } from '../shared/fast-exp.js';
 import { bcpnnSequences, recallTrial, trainTrial } from '../shared/models/bcpnn-sequences/index.js';
 import { fillNormal } from '../shared/models/bcpnn-sequences/normal-noise.js';
@@ -50,7 +56,7 @@ const EXP_ARGS = (() => {
   for (let i = 0; i < xs.length; i++) xs[i] = -40 * rng.uniform();
   return xs;
 })();
-const EXP_REPS = 400;
+const EXP_REPS = 3000;
 
 // Two loops, each with one callee, so that each is compiled for its own function.
 function loopMathExp(): number {
@@ -66,10 +72,10 @@ function loopTableExp(): number {
 }
 
 const DRAW_BLOCK = 200;
-const DRAW_BLOCKS = 5000;
+const DRAW_BLOCKS = 40_000;
 
 function primitives(): void {
-  const rounds = 9;
+  const rounds = 7;
   const calls = EXP_REPS * EXP_ARGS.length;
   let sink = loopMathExp() + loopTableExp();
   const oldExp: number[] = [];
@@ -116,11 +122,14 @@ function primitives(): void {
     for (let n = 0; n < checkOld.length; n++) if (checkOld[n] !== checkNew[n]) differing++;
   }
   if (sink === 0) console.log('');
-  const line = (name: string, oldNs: number[], newNs: number[], oldName: string, newName: string, extra = '') =>
+  const line = (name: string, oldNs: number[], newNs: number[], oldName: string, newName: string, extra = '') => {
+    const o = median(oldNs);
+    const n = median(newNs);
     console.log(
-      `  ${name.padEnd(28)} ${oldName} ${median(oldNs).toFixed(2)} ns   ${newName} ${median(newNs).toFixed(2)} ns   new/old ${(median(newNs) / median(oldNs)).toFixed(2)}${extra}`,
+      `  ${name.padEnd(28)} ${oldName} ${o.toFixed(2)} ns   ${newName} ${n.toFixed(2)} ns   new/old ${(n / o).toFixed(2)}${extra}`,
     );
-  console.log(`primitives, ns per call, median of ${rounds} interleaved rounds:`);
+  };
+  console.log(`primitives, ns per call, median of ${rounds} interleaved rounds of about 0.1 s each:`);
   line('exp, x uniform in [-40, 0]', oldExp, newExp, 'Math.exp', 'table-driven');
   line(
     'normal draw (ziggurat)',
@@ -136,7 +145,8 @@ function primitives(): void {
 
 function sideBySide(): void {
   const p = params({ noise: 0.5 });
-  const pairs = 60;
+  const blocks = 16;
+  const perBlock = 5;
   for (let i = 0; i < 10; i++) {
     const parts = trainTrial(p, 5000 + i);
     baselineRecallTrial(p, 5000 + i, parts);
@@ -145,39 +155,72 @@ function sideBySide(): void {
   const oldCpu: number[] = [];
   const newCpu: number[] = [];
   let identical = 0;
-  for (let seed = 0; seed < pairs; seed++) {
-    let oldMetrics: Record<string, unknown> = {};
-    let newMetrics: Record<string, unknown> = {};
+  const oldMetrics: string[] = [];
+  const newMetrics: string[] = [];
+  for (let b = 0; b < blocks; b++) {
+    const seeds = Array.from({ length: perBlock }, (_, i) => b * perBlock + i);
     const runOld = () =>
       oldCpu.push(
         cpuMs(() => {
-          oldMetrics = baselineRecallTrial(p, seed, trainTrial(p, seed));
+          for (const seed of seeds)
+            oldMetrics[seed] = JSON.stringify(baselineRecallTrial(p, seed, trainTrial(p, seed)));
         }),
       );
     const runNew = () =>
       newCpu.push(
         cpuMs(() => {
-          newMetrics = recallTrial(p, seed, trainTrial(p, seed)).metrics;
+          for (const seed of seeds)
+            newMetrics[seed] = JSON.stringify(recallTrial(p, seed, trainTrial(p, seed)).metrics);
         }),
       );
     // Alternate which goes first, so that drift in the machine's load favours neither.
-    if (seed % 2 === 0) {
+    if (b % 2 === 0) {
       runOld();
       runNew();
     } else {
       runNew();
       runOld();
     }
-    if (JSON.stringify(oldMetrics) === JSON.stringify(newMetrics)) identical++;
   }
+  const trials = blocks * perBlock;
+  for (let seed = 0; seed < trials; seed++) if (oldMetrics[seed] === newMetrics[seed]) identical++;
   const ratios = oldCpu.map((o, i) => (newCpu[i] as number) / o);
   console.log(
-    `\nwhole trial at (10,20), noise 0.5, old and new recall alternating on ${pairs} seeds (training included in both):`,
+    `\nwhole trial at (10,20), noise 0.5, old and new recall alternating in blocks of ${perBlock} on the same ${trials} seeds (training included in both):`,
   );
   console.log(
-    `  cpu ms per trial: old ${median(oldCpu).toFixed(2)}, new ${median(newCpu).toFixed(2)}; new/old ${(sum(newCpu) / sum(oldCpu)).toFixed(3)} (totals), ${median(ratios).toFixed(3)} (median of pairs)`,
+    `  cpu ms per trial (median of blocks): old ${(median(oldCpu) / perBlock).toFixed(2)}, new ${(median(newCpu) / perBlock).toFixed(2)}; new/old ${median(ratios).toFixed(3)} (median of block pairs; ${(sum(newCpu) / sum(oldCpu)).toFixed(3)} from totals)`,
   );
-  console.log(`  metrics identical on ${identical} of ${pairs} trials`);
+  console.log(`  metrics identical on ${identical} of ${trials} trials`);
+
+  // Metrics only, over more configurations: noise levels, overlaps, a larger network.
+  let checked = 0;
+  let same = 0;
+  const configs: Record<string, unknown>[] = [];
+  for (const noise of [0, 0.3, 1])
+    for (const patternOverlap of [0, 0.6, 0.8, 1]) configs.push({ noise, patternOverlap, overlapLength: 2 });
+  configs.push({
+    hypercolumns: 6,
+    minicolumns: 8,
+    sequenceCount: 3,
+    sequenceLength: 5,
+    patternOverlap: 0.5,
+    noise: 0.5,
+  });
+  configs.push({ hypercolumns: 16, minicolumns: 50, weightGain: 10 / 16, noise: 0.5 });
+  for (const input of configs) {
+    const q = params(input);
+    for (let seed = 1; seed <= ((q.hypercolumns ?? 10) > 10 ? 2 : 6); seed++) {
+      const parts = trainTrial(q, seed);
+      const a = JSON.stringify(baselineRecallTrial(q, seed, parts));
+      const b = JSON.stringify(recallTrial(q, seed, parts).metrics);
+      checked++;
+      if (a === b) same++;
+    }
+  }
+  console.log(
+    `  metrics identical on ${same} of ${checked} more trials over ${configs.length} configurations (noise 0 to 1, overlap 0 to 1, three sizes)`,
+  );
 }
 
 // ---- 3. sizes ---------------------------------------------------------------
@@ -189,22 +232,24 @@ interface Size {
   readonly trials: number;
   /** Stop measuring after this much wall time (ms), keeping the section short. */
   readonly budgetMs: number;
+  /** Trials per CPU reading (a block should take at least about 50 ms). */
+  readonly block: number;
   readonly goalCpuMs?: number;
 }
 
 const SIZES: readonly Size[] = [
-  { H: 10, M: 20, warmup: 20, trials: 60, budgetMs: 8_000, goalCpuMs: 10 },
-  { H: 16, M: 50, warmup: 3, trials: 20, budgetMs: 10_000 },
-  { H: 25, M: 100, warmup: 2, trials: 9, budgetMs: 15_000 },
-  { H: 50, M: 100, warmup: 1, trials: 6, budgetMs: 15_000 },
+  { H: 10, M: 20, warmup: 20, trials: 60, block: 5, budgetMs: 8_000, goalCpuMs: 10 },
+  { H: 16, M: 50, warmup: 3, trials: 20, block: 2, budgetMs: 10_000 },
+  { H: 25, M: 100, warmup: 2, trials: 9, block: 1, budgetMs: 15_000 },
+  { H: 50, M: 100, warmup: 1, trials: 6, block: 1, budgetMs: 15_000 },
 ];
 
 function sizes(): void {
   console.log(
-    '\nL=6, K=2, defaults, noise 0.5; weightGain 10/H above H = 10 so that the larger networks recall; medians over seeds',
+    '\nL=6, K=2, defaults, noise 0.5; weightGain 10/H above H = 10 so that the larger networks recall; medians (cpu over blocks of trials)',
   );
   console.log(
-    'size (H,M)   N      weightGain  trials  success  train ms  recall ms  wall ms  cpu ms  us/recall step  goal',
+    'size (H,M)   N      weightGain  trials  success  train ms  recall ms  wall ms  cpu ms  cpu us/step     goal',
   );
   let peakHeap = 0;
   for (const size of SIZES) {
@@ -216,39 +261,43 @@ function sizes(): void {
     const train: number[] = [];
     const recall: number[] = [];
     const wall: number[] = [];
-    const cpu: number[] = [];
     let successes = 0;
+    const blockCpu: number[] = [];
     const started = performance.now();
-    for (let i = 0; i < size.trials && (i < 3 || performance.now() - started < size.budgetMs); i++) {
+    for (let i = 0; i < size.trials && (i < 3 || performance.now() - started < size.budgetMs); i += size.block) {
       const cpu0 = process.cpuUsage();
-      const t0 = performance.now();
-      const parts = trainTrial(p, i);
-      const t1 = performance.now();
-      const out = recallTrial(p, i, parts);
-      const t2 = performance.now();
+      for (let j = i; j < i + size.block; j++) {
+        const t0 = performance.now();
+        const parts = trainTrial(p, j);
+        const t1 = performance.now();
+        const out = recallTrial(p, j, parts);
+        const t2 = performance.now();
+        train.push(t1 - t0);
+        recall.push(t2 - t1);
+        wall.push(t2 - t0);
+        if (out.metrics.success) successes++;
+      }
       const d = process.cpuUsage(cpu0);
-      cpu.push((d.user + d.system) / 1000);
-      train.push(t1 - t0);
-      recall.push(t2 - t1);
-      wall.push(t2 - t0);
-      if (out.metrics.success) successes++;
+      blockCpu.push((d.user + d.system) / 1000 / size.block);
       peakHeap = Math.max(peakHeap, process.memoryUsage().heapUsed);
     }
-    const medCpu = median(cpu);
+    const cpuPerTrial = median(blockCpu);
     const goal =
-      size.goalCpuMs === undefined ? '' : `< ${size.goalCpuMs} ms cpu: ${medCpu < size.goalCpuMs ? 'met' : 'NOT met'}`;
+      size.goalCpuMs === undefined
+        ? ''
+        : `< ${size.goalCpuMs} ms cpu: ${cpuPerTrial < size.goalCpuMs ? 'met' : 'NOT met'}`;
     console.log(
       [
         `(${size.H},${size.M})`.padEnd(12),
         String(shape.N).padEnd(6),
         weightGain.toFixed(3).padEnd(11),
-        String(cpu.length).padEnd(7),
-        `${successes}/${cpu.length}`.padEnd(8),
+        String(wall.length).padEnd(7),
+        `${successes}/${wall.length}`.padEnd(8),
         median(train).toFixed(2).padStart(8),
         median(recall).toFixed(2).padStart(10),
         median(wall).toFixed(2).padStart(8),
-        medCpu.toFixed(2).padStart(7),
-        ((median(recall) * 1000) / recallSteps).toFixed(2).padStart(15),
+        cpuPerTrial.toFixed(2).padStart(7),
+        (((cpuPerTrial - median(train)) * 1000) / recallSteps).toFixed(2).padStart(15),
         ` ${goal}`,
       ].join(' '),
     );
@@ -262,7 +311,12 @@ function sizes(): void {
 // ---- 4. stopWhenDecided ---------------------------------------------------
 
 function earlyStop(): void {
-  console.log('\nstopWhenDecided at (10,20), noise 0.5: cpu ms per trial, off and on alternating on the same 40 seeds');
+  const blocks = 8;
+  const perBlock = 5;
+  const trials = blocks * perBlock;
+  console.log(
+    `\nstopWhenDecided at (10,20), noise 0.5: cpu ms per trial (median of blocks), off and on alternating in blocks of ${perBlock} on the same ${trials} seeds`,
+  );
   for (const [label, input] of [
     ['patternOverlap 0 (recalled)', {}],
     ['patternOverlap 0.8, overlapLength 2 (fails)', { patternOverlap: 0.8, overlapLength: 2 }],
@@ -275,36 +329,46 @@ function earlyStop(): void {
     }
     const offCpu: number[] = [];
     const onCpu: number[] = [];
-    let successes = 0;
-    let sameOutcome = 0;
-    for (let seed = 0; seed < 40; seed++) {
-      let a: Record<string, unknown> = {};
-      let b: Record<string, unknown> = {};
+    const offMetrics: Record<string, unknown>[] = [];
+    const onMetrics: Record<string, unknown>[] = [];
+    for (let b = 0; b < blocks; b++) {
+      const seeds = Array.from({ length: perBlock }, (_, i) => b * perBlock + i);
       offCpu.push(
         cpuMs(() => {
-          a = bcpnnSequences.run(off, seed).metrics;
+          for (const seed of seeds) offMetrics[seed] = bcpnnSequences.run(off, seed).metrics;
         }),
       );
       onCpu.push(
         cpuMs(() => {
-          b = bcpnnSequences.run(on, seed).metrics;
+          for (const seed of seeds) onMetrics[seed] = bcpnnSequences.run(on, seed).metrics;
         }),
       );
+    }
+    let successes = 0;
+    let sameOutcome = 0;
+    for (let seed = 0; seed < trials; seed++) {
+      const a = offMetrics[seed] ?? {};
+      const b = onMetrics[seed] ?? {};
       if (a['success'] === true) successes++;
       if (a['success'] === b['success'] && JSON.stringify(a['correctPrefix']) === JSON.stringify(b['correctPrefix']))
         sameOutcome++;
     }
     console.log(
-      `  ${label.padEnd(44)} off ${median(offCpu).toFixed(2)}  on ${median(onCpu).toFixed(2)}  on/off ${(sum(onCpu) / sum(offCpu)).toFixed(2)}   success ${successes}/40, same outcome ${sameOutcome}/40`,
+      `  ${label.padEnd(44)} off ${(median(offCpu) / perBlock).toFixed(2)}  on ${(median(onCpu) / perBlock).toFixed(2)}  on/off ${median(onCpu.map((x, i) => x / (offCpu[i] as number))).toFixed(2)}   success ${successes}/${trials}, same outcome ${sameOutcome}/${trials}`,
     );
   }
 }
 
 export async function run(): Promise<void> {
-  console.log('bcpnn-sequences, one thread; cpu = user + system time of this process');
+  const load = () => loadavg()[0]?.toFixed(1) ?? '?';
+  console.log(
+    `bcpnn-sequences, one thread; cpu = user + system time of this process; load average ${load()} on ${cpus().length} cores at the start`,
+  );
   primitives();
   sideBySide();
   sizes();
   earlyStop();
-  console.log('(wall-clock figures include waiting for a core on a shared machine; the cpu figures do not)');
+  console.log(
+    `(load average ${load()} at the end; wall-clock figures include waiting for a core, cpu figures do not, but a busy machine slows every operation: shared caches and cores)`,
+  );
 }
