@@ -72,7 +72,7 @@ describe('what a report says about its sweep', () => {
 
   it('states the model, sampler, replicates, root seed, hash, varied ranges and the model’s metric definitions', () => {
     for (const text of [
-      'bcpnn-sequences 1.0.0',
+      `bcpnn-sequences ${bcpnnSequences.version}`,
       'grid (every combination of the ranges)',
       folder.sweep.hash,
       'list: 0, 0.5, 1',
