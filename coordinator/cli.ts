@@ -23,6 +23,7 @@ const COMMANDS: Readonly<Record<string, () => Promise<Register>>> = {
   cancel: async () => (await import('./commands/cancel.js')).registerCancel,
   report: async () => (await import('./commands/report.js')).registerReport,
   inspect: async () => (await import('./commands/inspect.js')).registerInspect,
+  sweeps: async () => (await import('./commands/sweeps.js')).registerSweeps,
 };
 
 /**
@@ -68,6 +69,10 @@ const SUMMARIES: Readonly<Record<keyof typeof COMMANDS, readonly [args: string, 
   inspect: [
     '<dir>',
     'Re-run one job of a sweep deterministically, check it against its stored result (exit 1 if they differ), and draw its recall trace as SVG',
+  ],
+  sweeps: [
+    '[root]',
+    'List the sweeps under a results root: jobs done of planned, failing jobs, last activity, and whether the report is up to date',
   ],
 };
 
