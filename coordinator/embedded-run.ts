@@ -48,7 +48,7 @@ export class EmbeddedRun {
   ) {
     const writer = newWriterId();
     const run = randomBytes(6).toString('hex');
-    this.planned = countJobs(options.sweep);
+    this.planned = options.jobs?.count ?? countJobs(options.sweep);
     // Results already on disk all belong to this sweep (same hash), so this is
     // exact unless shards hold keys the plan no longer makes.
     this.toRun = Math.max(0, this.planned - past.done.size);

@@ -1,4 +1,6 @@
 import { jobSeed } from '../shared/job-identity.js';
+import type { TrialRange } from '../shared/refine/estimate.js';
+import { sweepTrialRange } from '../shared/refine/sweep-design.js';
 import type { Point } from '../shared/schemas/records.js';
 import { computedParams, countJobs, fullParams } from '../shared/sweep/expand.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
@@ -53,6 +55,8 @@ export interface SweepPlan {
   readonly sampleComputed: ReadonlyArray<Readonly<Record<string, number>>>;
   readonly calibration: CalibrationFigures | null;
   readonly coreHours: number | null;
+  /** An adaptive sweep (refine): its trials as a range; jobs and work are then the worst case. */
+  readonly adaptive?: TrialRange & { readonly start: number; readonly max: number };
 }
 
 export interface PlanOptions {
@@ -85,7 +89,11 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     if (timingIndices.has(index)) timingPoints.push(point);
     index++;
   }
-  const totalOps = opsPerReplicate * replicates;
+  const refine = sweep.spec.refine;
+  const range = refine === undefined ? undefined : sweepTrialRange(sweep);
+  // Adaptive: the worst case, at the starting grid's average cost per trial.
+  const totalOps =
+    range === undefined ? opsPerReplicate * replicates : (opsPerReplicate / Math.max(1, pointCount)) * range.worst;
 
   let calibration: CalibrationFigures | null = null;
   if (timingPoints.length > 0) {
@@ -125,13 +133,16 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     variedNames: sweep.variedNames,
     points: pointCount,
     replicates,
-    jobs: countJobs(sweep),
+    jobs: range === undefined ? countJobs(sweep) : range.worst,
     totalOps,
     sample,
     formulas: sweep.derived?.compiled.normalised ?? {},
     sampleComputed: sample.map((point) => computedParams(sweep, point)),
     calibration,
     coreHours: secondsPerOp === null ? null : (totalOps * secondsPerOp) / 3600,
+    ...(range === undefined || refine === undefined
+      ? {}
+      : { adaptive: { ...range, start: refine.replicates.start, max: refine.replicates.max } }),
   };
 }
 
@@ -156,8 +167,22 @@ export function formatPlan(plan: SweepPlan, threads: number): string {
   row('varied', plan.variedNames.length === 0 ? '(none)' : plan.variedNames.join(', '));
   for (const [name, formula] of Object.entries(plan.formulas)) row('computed', `${name} = ${formula}`);
   row('points', count(plan.points));
-  row('replicates', count(plan.replicates));
-  row('jobs', count(plan.jobs));
+  const a = plan.adaptive;
+  if (a === undefined) {
+    row('replicates', count(plan.replicates));
+    row('jobs', count(plan.jobs));
+  } else {
+    row('replicates', `${count(a.start)} to ${count(a.max)} per point (adaptive: refine)`);
+    row('jobs', `${count(a.best)} to ${count(a.worst)} (adaptive; the work and estimate below are the worst case)`);
+    row(
+      'best case',
+      `every starting point decided after its first ${count(a.start)}, no midpoint: ${count(a.bestPoints)} points`,
+    );
+    row(
+      'worst case',
+      `every point runs to ${count(a.max)} and every round inserts every midpoint: ${count(a.worstPoints)} points`,
+    );
+  }
   row('work', `${plan.totalOps.toPrecision(3)} operations (the model's own estimate)`);
   const c = plan.calibration;
   if (c === null) {

@@ -1,6 +1,6 @@
 import type { Logger } from '../shared/logger.js';
 import { ResultStore, type ShardFs } from '../shared/store/result-store.js';
-import { expandJobs } from '../shared/sweep/expand.js';
+import { expandJobs, type PlannedJob } from '../shared/sweep/expand.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
 import { EmbeddedRun } from './embedded-run.js';
 import { readPastRuns } from './past-runs.js';
@@ -47,6 +47,8 @@ export interface RunSweepOptions {
   readonly threadEntry?: URL;
   /** File calls of the shard writer (tests inject a failing disk); default: node:fs. */
   readonly shardFs?: ShardFs;
+  /** Jobs to consider instead of the sweep's full expansion (one pass of an adaptive sweep). */
+  readonly jobs?: { readonly count: number; readonly list: Iterable<PlannedJob> };
 }
 
 export interface RunSweepResult {
@@ -82,7 +84,7 @@ export async function runSweep(options: RunSweepOptions): Promise<RunSweepResult
   // Debug level: commands print their own lines for people; this is for log files.
   logger.debug(run.start, 'sweep run started');
   options.onStart?.(run.start);
-  await run.execute(expandJobs(sweep));
+  await run.execute(options.jobs?.list ?? expandJobs(sweep));
   const result = run.result();
   logger.debug({ ...result }, 'sweep run ended');
   return result;

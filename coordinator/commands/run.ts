@@ -5,6 +5,7 @@ import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
+import { runAdaptiveSweep } from '../run-adaptive.js';
 import { type RunSweepResult, runSweep } from '../run-sweep.js';
 import { displayPath, shellWord } from '../shell-text.js';
 import { stopOnSignals } from '../stop-signals.js';
@@ -37,7 +38,9 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
   const signals = stopOnSignals((line) => process.stderr.write(`recallscape: ${line}\n`));
   let result: RunSweepResult;
   try {
-    result = await runSweep({
+    // An adaptive sweep (refine) runs pass after pass until its design is complete.
+    const execute = options.sweep.spec.refine === undefined ? runSweep : runAdaptiveSweep;
+    result = await execute({
       sweep: options.sweep,
       root: options.root,
       threads: options.threads,

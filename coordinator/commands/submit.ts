@@ -1,4 +1,5 @@
 import type { Command } from 'commander';
+import { InputError } from '../../shared/errors.js';
 import { createLogger } from '../../shared/logger.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
@@ -28,6 +29,13 @@ export function registerSubmit(program: Command): void {
       // Bad files and oversized sweeps are refused before Redis or the disk is touched.
       const maxJobs = parseWholeNumber('--max-jobs', options.maxJobs, 1);
       const sweep = await loadSweepForCommand(file, { maxJobs, yes: options.yes === true });
+      if (sweep.spec.refine !== undefined) {
+        // Its trials depend on results; submitting the starting grid alone would look finished when it is not.
+        throw new InputError(
+          `${file}: an adaptive sweep (refine) runs with recallscape run; submit does not carry out its rounds`,
+          [{ path: 'refine', message: 'adaptive sweeps run with recallscape run' }],
+        );
+      }
       const logger = createLogger({ name: 'submit' });
       const result = await submitSweep(sweep, options.out, settings, logger);
       process.stdout.write(

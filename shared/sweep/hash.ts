@@ -8,7 +8,7 @@ export const SWEEP_FORMAT = 'recallscape-sweep/1';
  * The sweep hash covers everything that decides which jobs exist and what
  * they compute: name, model id and version, seed, replicates, the base
  * parameters (model defaults + fixed, as validated: writing a default into
- * `fixed` changes no job, so it changes no hash), vary and sampler; not
+ * `fixed` changes no job, so it changes no hash), vary, sampler and refine; not
  * `report`, which only changes how results are drawn. Sampled sweeps also
  * hash the order of the varied parameters, because it assigns the sampler's
  * dimensions; a grid's job set does not depend on that order.
@@ -36,6 +36,8 @@ export function sweepHash(
       derived: Object.keys(derived).length > 0 ? derived : undefined,
       sampler: spec.sampler,
       order,
+      // Absent for plain sweeps, so their hashes are unchanged.
+      refine: spec.refine,
     }),
   );
 }

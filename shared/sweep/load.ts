@@ -7,6 +7,7 @@ import { compileDerived } from '../formula/derived-params.js';
 import type { AnyModel } from '../model.js';
 import { findModel, listModels } from '../models/registry.js';
 import { paramNames, unknownParamIssue } from '../param-names.js';
+import { refineIssues } from '../refine/validate.js';
 import { SWEEP_FORMAT, sweepHash } from './hash.js';
 import { checkJobLimit } from './job-limit.js';
 import { iteratePoints, requestedPointCount, variedNamesOf } from './points.js';
@@ -36,6 +37,8 @@ export interface LoadedSweep {
 export interface ParseOptions {
   /** Refuse (InputError) a sweep with more jobs than this. */
   readonly jobLimit?: number;
+  /** The document is a stored sweep.json (normalised), not a person's file. */
+  readonly stored?: boolean;
 }
 
 /** Contents of `<dir>/sweep.json`. */
@@ -56,6 +59,8 @@ const MAX_FILE_BYTES = 5 * 1024 * 1024;
 const ALLOWED_KEYS: Record<string, readonly string[]> = {
   '': SPEC_FIELD_ORDER,
   report: ['x', 'y', 'facet', 'metric', 'bins'],
+  refine: ['metric', 'level', 'confidence', 'replicates', 'rounds', 'along'],
+  'refine.replicates': ['start', 'max'],
 };
 
 /** Stage one: everything except the ranges, which get a per-kind check. */
@@ -148,7 +153,7 @@ function parseRanges(
 /** Put the spec's fields in canonical order (sweep.json is written like this). */
 function orderSpec(spec: SweepSpec): SweepSpec {
   const ordered: Record<string, unknown> = {};
-  for (const key of SPEC_FIELD_ORDER) ordered[key] = spec[key];
+  for (const key of SPEC_FIELD_ORDER) if (spec[key] !== undefined) ordered[key] = spec[key];
   return ordered as SweepSpec;
 }
 
@@ -243,6 +248,8 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
       issues.push(...compiled.issues);
     }
   }
+  // A stored sweep (sweep.json) holds the normalised replicates; only a person's file is checked for both.
+  issues.push(...refineIssues(spec, options.stored !== true && Object.hasOwn(rawObject, 'replicates')));
   if (spec.sampler.kind === 'sobol' && variedNames.length > 40) {
     issues.push({
       path: 'vary',
@@ -252,6 +259,8 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
   if (issues.length > 0) fail(source, issues);
 
   const requested = requestedPointCount(spec);
+  // An adaptive sweep is limited by its starting grid at the most replicates a point may get.
+  const perPoint = spec.refine?.replicates.max ?? spec.replicates;
   if (spec.sampler.kind === 'grid' && requested > MAX_GRID_POINTS) {
     fail(source, [
       {
@@ -261,13 +270,13 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
     ]);
   }
   if (options.jobLimit !== undefined && spec.sampler.kind === 'grid') {
-    checkJobLimit(requested * spec.replicates, options.jobLimit);
+    checkJobLimit(requested * perPoint, options.jobLimit);
   }
 
   // Every point merged with the model defaults and `fixed`, through the model's schema.
   const checked = validatePoints(spec, model, iteratePoints({ spec }), derived);
   if (checked.issues.length > 0) fail(source, checked.issues);
-  if (options.jobLimit !== undefined) checkJobLimit(checked.pointCount * spec.replicates, options.jobLimit);
+  if (options.jobLimit !== undefined) checkJobLimit(checked.pointCount * perPoint, options.jobLimit);
 
   const base = model.params.safeParse(spec.fixed);
   const defaults = model.params.safeParse({});
@@ -328,7 +337,7 @@ export function sweepFromStored(json: unknown, where = 'sweep.json'): LoadedSwee
       issuesFromZod(stored.error.issues),
     );
   }
-  const loaded = buildSweep(stored.data.sweep, where);
+  const loaded = buildSweep(stored.data.sweep, where, { stored: true });
   if (loaded.hash !== stored.data.hash) {
     throw new InputError(
       `${where}: the stored hash ${stored.data.hash.slice(0, 16)} does not match the sweep it holds under this build (${loaded.hash.slice(0, 16)}): ` +

@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { FORMULA_LIMITS } from '../formula/formula-limits.js';
 import { DEFAULT_MODEL_ID } from '../models/registry.js';
+import { RefineSchema } from '../refine/schema.js';
 import { BinsSchema } from './bins.js';
 import { SweepNameSchema } from './name.js';
 import { RangeSchema } from './ranges.js';
@@ -101,6 +102,7 @@ export const SweepFileSchema = z
       ),
     sampler: SamplerSchema,
     report: ReportSchema.default({}),
+    refine: RefineSchema.optional().describe('Adaptive replicates and midpoints around the border of a rate'),
   })
   .strict();
 
@@ -120,4 +122,5 @@ export const SPEC_FIELD_ORDER = [
   'derived',
   'sampler',
   'report',
+  'refine',
 ] as const;

@@ -34,6 +34,7 @@ describe('recallscape schema', () => {
       'derived',
       'sampler',
       'report',
+      'refine',
     ]);
     expect(schema.properties?.['name']?.['pattern' as keyof JsonSchema]).toBe('^[a-z0-9][a-z0-9._-]*$');
     // Four kinds of range: list, from/to/steps, between, among.
