@@ -2,7 +2,7 @@ import { jobSeed } from '../shared/job-identity.js';
 import type { TrialRange } from '../shared/refine/estimate.js';
 import { sweepTrialRange } from '../shared/refine/sweep-design.js';
 import type { Point } from '../shared/schemas/records.js';
-import { computedParams, countJobs, fullParams } from '../shared/sweep/expand.js';
+import { computedParams, countJobs, expandJobs, fullParams } from '../shared/sweep/expand.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { iteratePoints } from '../shared/sweep/points.js';
 import { runModel } from '../worker/run-model.js';
@@ -57,6 +57,12 @@ export interface SweepPlan {
   readonly coreHours: number | null;
   /** An adaptive sweep (refine): its trials as a range; jobs and work are then the worst case. */
   readonly adaptive?: TrialRange & { readonly start: number; readonly max: number };
+  /** Jobs of this sweep that already have a result (0 when none were given, and for adaptive sweeps). */
+  readonly done: number;
+  readonly remainingJobs: number;
+  /** Sum of model.cost over the jobs without a result. */
+  readonly remainingOps: number;
+  readonly remainingCoreHours: number | null;
 }
 
 export interface PlanOptions {
@@ -64,6 +70,11 @@ export interface PlanOptions {
   readonly calibrate: number;
   /** Points shown as a sample. */
   readonly sampleSize?: number;
+  /**
+   * Keys of jobs that already have a result: the remaining work leaves them
+   * out. Not used for adaptive sweeps, whose later jobs depend on the results.
+   */
+  readonly done?: ReadonlySet<string>;
 }
 
 /**
@@ -123,6 +134,17 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     calibration = { jobs, seconds, ops, secondsPerOp: jobs > 0 && ops > 0 ? seconds / ops : null, failures };
   }
   const secondsPerOp = calibration?.secondsPerOp ?? null;
+  const jobs = range === undefined ? countJobs(sweep) : range.worst;
+  // What is left: only computed when results exist, because it hashes every job's key.
+  let done = 0;
+  let remainingOps = totalOps;
+  if (range === undefined && options.done !== undefined && options.done.size > 0) {
+    remainingOps = 0;
+    for (const job of expandJobs(sweep)) {
+      if (options.done.has(job.key)) done++;
+      else remainingOps += Number(sweep.model.cost(job.params));
+    }
+  }
   return {
     name: sweep.spec.name,
     source: sweep.source,
@@ -133,7 +155,7 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     variedNames: sweep.variedNames,
     points: pointCount,
     replicates,
-    jobs: range === undefined ? countJobs(sweep) : range.worst,
+    jobs,
     totalOps,
     sample,
     formulas: sweep.derived?.compiled.normalised ?? {},
@@ -143,7 +165,29 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     ...(range === undefined || refine === undefined
       ? {}
       : { adaptive: { ...range, start: refine.replicates.start, max: refine.replicates.max } }),
+    done,
+    remainingJobs: jobs - done,
+    remainingOps,
+    remainingCoreHours: secondsPerOp === null ? null : (remainingOps * secondsPerOp) / 3600,
   };
+}
+
+/** Cores the wall-clock estimate is for: this machine's threads, or as many as `--cores` says. */
+export interface PlanCores {
+  readonly count: number;
+  readonly unit: 'thread' | 'core';
+}
+
+/**
+ * Wall-clock seconds for the remaining work on `cores`, with jobs spread
+ * evenly: the core-seconds shared out, but never less than one average job
+ * per core in turn (100 jobs do not finish faster on 1,000 cores than on 100).
+ */
+export function wallSeconds(plan: SweepPlan, cores: number): number | null {
+  if (plan.remainingCoreHours === null) return null;
+  if (plan.remainingJobs === 0) return 0;
+  const perJob = (plan.remainingCoreHours * 3600) / plan.remainingJobs;
+  return Math.ceil(plan.remainingJobs / Math.max(1, cores)) * perJob;
 }
 
 function formatPoint(point: Point, names: readonly string[], computed: Readonly<Record<string, number>>): string {
@@ -155,8 +199,17 @@ function formatPoint(point: Point, names: readonly string[], computed: Readonly<
 
 const count = (n: number): string => n.toLocaleString('en-US');
 
+export interface PlanTextOptions {
+  readonly cores: PlanCores;
+  /** The sweep folder whose results were counted. */
+  readonly resultsDir?: string;
+  /** A folder of the same name that holds another sweep (its results do not count). */
+  readonly otherSweepDir?: string;
+}
+
 /** The plan as text for a person. */
-export function formatPlan(plan: SweepPlan, threads: number): string {
+export function formatPlan(plan: SweepPlan, options: PlanTextOptions): string {
+  const { cores, resultsDir } = options;
   const lines: string[] = [];
   const row = (label: string, value: string): void => {
     lines.push(`${label.padEnd(12)}${value}`);
@@ -183,6 +236,15 @@ export function formatPlan(plan: SweepPlan, threads: number): string {
       `every point runs to ${count(a.max)} and every round inserts every midpoint: ${count(a.worstPoints)} points`,
     );
   }
+  if (plan.done > 0) {
+    row(
+      'results',
+      `${count(plan.done)} of ${count(plan.jobs)} jobs already have a result${resultsDir === undefined ? '' : ` in ${resultsDir}`}; ${count(plan.remainingJobs)} to run`,
+    );
+  }
+  if (options.otherSweepDir !== undefined) {
+    row('results', `none counted: ${options.otherSweepDir} holds another sweep of this name (run would refuse it)`);
+  }
   row('work', `${plan.totalOps.toPrecision(3)} operations (the model's own estimate)`);
   const c = plan.calibration;
   if (c === null) {
@@ -196,11 +258,20 @@ export function formatPlan(plan: SweepPlan, threads: number): string {
         'calibration',
         `${c.jobs} job${c.jobs === 1 ? '' : 's'} timed (after one warm-up run) in ${c.seconds.toFixed(3)} s, ${c.secondsPerOp.toPrecision(3)} s per operation`,
       );
-      const wall = (plan.coreHours * 3600) / Math.max(1, threads);
-      row(
-        'estimate',
-        `${plan.coreHours.toPrecision(3)} core-hours, about ${formatDuration(wall)} on ${threads} thread${threads === 1 ? '' : 's'} (timings on a busy machine run high)`,
-      );
+      const on = `${count(cores.count)} ${cores.unit}${cores.count === 1 ? '' : 's'}`;
+      const wall = wallSeconds(plan, cores.count) ?? 0;
+      const remaining = plan.remainingCoreHours ?? 0;
+      const busy = '(timings on a busy machine run high)';
+      if (plan.done === 0) {
+        row('estimate', `${plan.coreHours.toPrecision(3)} core-hours, about ${formatDuration(wall)} on ${on} ${busy}`);
+      } else if (plan.remainingJobs === 0) {
+        row('estimate', `nothing left to run (the whole sweep: ${plan.coreHours.toPrecision(3)} core-hours)`);
+      } else {
+        row(
+          'estimate',
+          `${remaining.toPrecision(3)} core-hours left of ${plan.coreHours.toPrecision(3)}, about ${formatDuration(wall)} on ${on} ${busy}`,
+        );
+      }
     }
   }
   lines.push('');

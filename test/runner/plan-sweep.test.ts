@@ -52,7 +52,9 @@ describe('planSweep', () => {
   });
 
   it('prints the counts, the estimate and the first points as text', () => {
-    const text = formatPlan(planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 1 }), 2);
+    const text = formatPlan(planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 1 }), {
+      cores: { count: 2, unit: 'thread' },
+    });
     expect(text).toMatch(/^jobs +60$/m);
     expect(text).toMatch(/^points +15$/m);
     expect(text).toMatch(/^estimate +[0-9.e+-]+ core-hours, about .* on 2 threads/m);
