@@ -1,9 +1,10 @@
+import { mkdir, rename, rm } from 'node:fs/promises';
 import { join } from 'node:path';
 import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { REPORT_CHARTS } from './charts/registry.js';
-import type { ReportChart } from './charts/report-chart.js';
-import { collectReport, type ReportOptions } from './collect.js';
+import type { ChartFileData, ReportChart } from './charts/report-chart.js';
+import { type CollectedReport, collectReport, type ReportOptions } from './collect.js';
 import { renderReportPage } from './report-page.js';
 import type { ReportFormat } from './report-settings.js';
 import type { ReportSource, ScanWarning } from './report-source.js';
@@ -50,8 +51,21 @@ export async function buildReportFrom(
   charts: readonly ReportChart[] = REPORT_CHARTS,
 ): Promise<ReportResult> {
   const report = await collectReport(source, options);
+  try {
+    return await renderAndWrite(report, source, charts);
+  } finally {
+    // A trials.csv written during the scan and not moved into place (not asked for, or a failure) goes.
+    if (report.trialsFile !== null) await rm(report.trialsFile, { force: true });
+  }
+}
+
+async function renderAndWrite(
+  report: CollectedReport,
+  source: ReportSource,
+  charts: readonly ReportChart[],
+): Promise<ReportResult> {
   const want = (f: ReportFormat): boolean => report.settings.formats.has(f);
-  const outputs = new Map<string, string | Uint8Array | AsyncIterable<string>>();
+  const outputs = new Map<string, ChartFileData>();
   const sections: Array<{ rank: number; html: string }> = [];
   let incompleteCells = 0;
   let emptyCells = 0;
@@ -79,7 +93,10 @@ export async function buildReportFrom(
   const files: string[] = [];
   for (const [name, data] of outputs) {
     const path = join(reportDir, name);
-    await writeFileAtomic(path, data);
+    if (typeof data === 'object' && 'moveFrom' in data) {
+      await mkdir(reportDir, { recursive: true });
+      await rename(data.moveFrom, path);
+    } else await writeFileAtomic(path, data);
     files.push(path);
   }
   return {

@@ -11,6 +11,7 @@ import { paramLabel } from './param-label.js';
 import type { ParamColumn, ReportGroup } from './report-group.js';
 import { checkMetric, type ReportFormat, type ResolvedSettings, resolveSettings } from './report-settings.js';
 import type { ReportSource, ScanWarning } from './report-source.js';
+import { TrialRecorder } from './trial-recorder.js';
 
 export interface ReportOptions {
   readonly dir: string;
@@ -55,6 +56,10 @@ export interface CollectedReport {
   readonly warnings: readonly ScanWarning[];
   /** How many there were in all; may exceed `warnings.length`. */
   readonly warningCount: number;
+  /** A finished trials.csv written during the scan (a temporary file to move into place), or null. */
+  readonly trialsFile: string | null;
+  /** The metric columns of trials.csv: the model's declared scalar metrics and any others seen. */
+  readonly trialMetrics: readonly string[];
   /** `name (unit)` of a parameter, for axis titles and table headers. */
   label(param: string): string;
   readonly paramInfo: Readonly<Record<string, ParamInfo>>;
@@ -130,47 +135,70 @@ export async function collectReport(source: ReportSource, options: ReportOptions
     failedKeys.set(failure.key, failure.kind);
   }
 
-  // Records of points the sweep does not plan (an edited sweep) still count, with planned = 0.
-  const unplanned = new Map<string, Point>();
-  const aggregation = await aggregateRecords(source.records({ onWarning }), (record) => {
-    if (failedKeys.size > 0) failedKeys.delete(record.key);
-    const key = keyOf(record.point);
-    if (!groups.has(key) && !unplanned.has(key)) unplanned.set(key, valuesOf(record.point));
-    return key;
-  });
-  for (const [key, summary] of aggregation.groups) {
-    const group = groups.get(key);
-    if (group !== undefined) group.summary = summary;
-    else {
-      const values = unplanned.get(key);
-      if (values !== undefined) groups.set(key, { values, planned: 0, summary });
+  // trials.csv is written during this scan when the model declares its metrics (see TrialRecorder).
+  const declared = Object.entries(model.metricInfo ?? {})
+    .filter(([name, info]) => name !== 'success' && info.type !== 'numbers')
+    .map(([name]) => name)
+    .sort();
+  const recorder =
+    settings.formats.has('csv') && model.metricInfo !== undefined
+      ? new TrialRecorder(source.dir, names, declared)
+      : null;
+  try {
+    // Point index of every planned point (table order); unplanned ones are numbered as they appear.
+    const pointIndex = new Map<string, number>();
+    for (const key of groups.keys()) pointIndex.set(key, pointIndex.size);
+    // Records of points the sweep does not plan (an edited sweep) still count, with planned = 0.
+    const unplanned = new Map<string, Point>();
+    const aggregation = await aggregateRecords(source.records({ onWarning }), (record) => {
+      if (failedKeys.size > 0) failedKeys.delete(record.key);
+      const key = keyOf(record.point);
+      if (!groups.has(key) && !unplanned.has(key)) {
+        unplanned.set(key, valuesOf(record.point));
+        pointIndex.set(key, pointIndex.size);
+      }
+      recorder?.add(record, pointIndex.get(key) ?? null);
+      return key;
+    });
+    for (const [key, summary] of aggregation.groups) {
+      const group = groups.get(key);
+      if (group !== undefined) group.summary = summary;
+      else {
+        const values = unplanned.get(key);
+        if (values !== undefined) groups.set(key, { values, planned: 0, summary });
+      }
     }
+    const knownMetrics = ['success', ...[...aggregation.metricKinds.keys()].sort()];
+    checkMetric(settings.metric, knownMetrics, options.metric !== undefined);
+    const metric: ShownMetric = {
+      name: settings.metric,
+      kind: settings.metric === 'success' ? 'boolean' : (aggregation.metricKinds.get(settings.metric) ?? 'number'),
+    };
+    const trialsFile = recorder?.finish() === true ? recorder.path : null;
+    return {
+      trialsFile,
+      trialMetrics: [...new Set([...declared, ...aggregation.metricKinds.keys()])].sort(),
+      sweep,
+      source,
+      dir: options.dir,
+      settings,
+      columns: names.map((n) => ({ name: n, label: label(n) })),
+      groups: [...groups.values()],
+      metricKinds: aggregation.metricKinds,
+      metric,
+      pooled: names.filter((n) => n !== settings.x && n !== settings.y && n !== settings.facet),
+      diagramKind: diagramKindOf(spec, settings),
+      plannedJobs: countJobs(sweep),
+      completedJobs: aggregation.records,
+      failedJobs: failedKeys.size,
+      failuresByKind: [...attemptsByKind.entries()].sort((a, b) => b[1] - a[1]),
+      warnings,
+      warningCount,
+      label,
+      paramInfo: model.paramInfo,
+    };
+  } catch (error) {
+    recorder?.discard();
+    throw error;
   }
-  const knownMetrics = ['success', ...[...aggregation.metricKinds.keys()].sort()];
-  checkMetric(settings.metric, knownMetrics, options.metric !== undefined);
-  const metric: ShownMetric = {
-    name: settings.metric,
-    kind: settings.metric === 'success' ? 'boolean' : (aggregation.metricKinds.get(settings.metric) ?? 'number'),
-  };
-
-  return {
-    sweep,
-    source,
-    dir: options.dir,
-    settings,
-    columns: names.map((n) => ({ name: n, label: label(n) })),
-    groups: [...groups.values()],
-    metricKinds: aggregation.metricKinds,
-    metric,
-    pooled: names.filter((n) => n !== settings.x && n !== settings.y && n !== settings.facet),
-    diagramKind: diagramKindOf(spec, settings),
-    plannedJobs: countJobs(sweep),
-    completedJobs: aggregation.records,
-    failedJobs: failedKeys.size,
-    failuresByKind: [...attemptsByKind.entries()].sort((a, b) => b[1] - a[1]),
-    warnings,
-    warningCount,
-    label,
-    paramInfo: model.paramInfo,
-  };
 }

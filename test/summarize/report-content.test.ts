@@ -1,9 +1,9 @@
-import { readdir, readFile } from 'node:fs/promises';
+import { readdir, readFile, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildReport } from '../../coordinator/summarize/build-report.js';
 import { bcpnnSequences } from '../../shared/models/bcpnn-sequences/index.js';
-import { makeSweepFolder, type SweepFolder } from './sweep-folder.js';
+import { BURN_SWEEP, makeSweepFolder, type SweepFolder } from './sweep-folder.js';
 
 const FIXED = { hypercolumns: 6, minicolumns: 12, sequenceLength: 4, epochs: 2, recallDuration: 400 };
 const SWEEP = `
@@ -146,5 +146,39 @@ describe('what a report says about its sweep', () => {
     expect(jobs.length).toBeGreaterThan(0);
     for (const k of jobs) expect(keys.has(k ?? '')).toBe(true);
     expect(html).toContain(`recallscape inspect ${folder.dir} --job `);
+  });
+});
+
+describe('trials.csv of records with a metric the model does not declare', () => {
+  let folder: SweepFolder;
+  beforeAll(async () => {
+    folder = await makeSweepFolder(BURN_SWEEP, (job) => job.replicate === 0);
+    // Give one stored record an extra scalar metric, as a changed model would.
+    const shard = join(folder.dir, 'results', 'test-writer-1.ndjson');
+    const lines = (await readFile(shard, 'utf8')).trim().split('\n');
+    const first = JSON.parse(lines[0] ?? '{}');
+    first.metrics.extra = 7.5;
+    lines[0] = JSON.stringify(first);
+    await writeFile(shard, `${lines.join('\n')}\n`);
+  });
+  afterAll(async () => folder.cleanup());
+
+  it('still lists every trial, with a column for the extra metric, and leaves no temporary file', async () => {
+    await buildReport({ dir: folder.dir, formats: ['csv'] });
+    const [header = [], ...rows] = splitCsv(await readFile(join(folder.dir, 'report', 'trials.csv'), 'utf8'));
+    expect(header).toContain('extra');
+    // 22 points of BURN_SWEEP, one replicate each (worked by hand).
+    expect(rows.length).toBe(22);
+    const extra = header.indexOf('extra');
+    expect(rows.filter((r) => r[extra] === '7.5').length).toBe(1);
+    expect(rows.filter((r) => r[extra] === '').length).toBe(21);
+    const leftovers = (await readdir(folder.dir)).filter((n) => n.endsWith('.tmp'));
+    expect(leftovers).toEqual([]);
+  });
+
+  it('leaves no temporary file behind when the report is refused', async () => {
+    await expect(buildReport({ dir: folder.dir, metric: 'nothing' })).rejects.toThrow(/--metric/);
+    const leftovers = (await readdir(folder.dir)).filter((n) => n.endsWith('.tmp'));
+    expect(leftovers).toEqual([]);
   });
 });

@@ -1,13 +1,17 @@
 import type { CollectedReport } from '../collect.js';
 import type { ReportFormat } from '../report-settings.js';
 
+/** A file's content: in memory, streamed, or already written to a temporary file. */
+export type ChartFileData = string | Uint8Array | AsyncIterable<string> | { readonly moveFrom: string };
+
 /** What one chart adds to a report. */
 export interface ChartOutput {
   /**
    * Files for the report folder, by name relative to it, in the order they
-   * are listed. An async iterable is streamed to disk (tables of every trial).
+   * are listed. An async iterable is streamed to disk; `moveFrom` names a
+   * finished temporary file on the same disk to rename into place.
    */
-  readonly files: ReadonlyArray<readonly [name: string, data: string | Uint8Array | AsyncIterable<string>]>;
+  readonly files: ReadonlyArray<readonly [name: string, data: ChartFileData]>;
   /** Its part of index.html (headings included), or null for none. */
   readonly section: string | null;
   /** Diagram cells with some but fewer trials than planned (for the command's summary line). */

@@ -1,78 +1,47 @@
-import type { ResultRecord } from '../../../shared/schemas/records.js';
 import type { CollectedReport } from '../collect.js';
 import { escapeXml } from '../svg-util.js';
-import { csvField, type TableCell } from '../tables.js';
+import { csvField } from '../tables.js';
+import { trialHeader, trialRow } from '../trial-recorder.js';
 import type { ChartOutput, ReportChart } from './report-chart.js';
 
 /** Lines per chunk handed to the file writer. */
 const CHUNK_LINES = 2000;
 
 /**
- * `trials.csv`: one row per trial (per result record), streamed from the
- * records a second time so memory does not grow with their number. Columns:
- * job key, point index, replicate, seed, every parameter column, then every
- * scalar metric (success first). Arrays stay in the records.
+ * `trials.csv`: one row per trial (per result record). Columns: job key,
+ * point index, replicate, seed, every parameter column, then every scalar
+ * metric (success first). Arrays stay in the records. Usually written during
+ * the collecting scan (TrialRecorder); otherwise streamed from a second
+ * pass over the records, so memory never grows with their number.
  */
 export const trialTable: ReportChart = {
   id: 'trial-table',
   pageRank: 30,
   render(report, want): ChartOutput {
     if (!want('csv')) return { files: [], section: null };
-    return { files: [['trials.csv', trialLines(report)]], section: section(report) };
+    const data = report.trialsFile === null ? trialLines(report) : { moveFrom: report.trialsFile };
+    return { files: [['trials.csv', data]], section: section(report) };
   },
 };
 
-/** Header of trials.csv for this report. */
-export function trialColumns(report: CollectedReport): string[] {
-  return [
-    'job',
-    'point',
-    'replicate',
-    'seed',
-    ...report.columns.map((c) => c.name),
-    'success',
-    ...[...report.metricKinds.keys()].sort(),
-  ];
-}
-
 async function* trialLines(report: CollectedReport): AsyncGenerator<string> {
   const params = report.columns.map((c) => c.name);
-  const metrics = [...report.metricKinds.keys()].sort();
+  const metrics = report.trialMetrics;
   const pointIndex = new Map<string, number>();
   report.groups.forEach((g, i) => {
     pointIndex.set(JSON.stringify(params.map((p) => g.values[p] ?? null)), i);
   });
-  let chunk: string[] = [`${trialColumns(report).map(csvField).join(',')}\n`];
+  let chunk: string[] = [`${trialHeader(params, metrics).map(csvField).join(',')}\n`];
   // Warnings were reported by the first scan; the second meets the same lines.
   for await (const record of report.source.records()) {
-    chunk.push(`${row(record, params, metrics, pointIndex).map(csvField).join(',')}\n`);
+    const point = pointIndex.get(JSON.stringify(params.map((p) => record.point[p] ?? null))) ?? null;
+    chunk.push(trialRow(record, point, params, metrics));
     if (chunk.length >= CHUNK_LINES) {
       yield chunk.join('');
       chunk = [];
     }
   }
   if (chunk.length > 0) yield chunk.join('');
-}
-
-function row(
-  record: ResultRecord,
-  params: readonly string[],
-  metrics: readonly string[],
-  pointIndex: ReadonlyMap<string, number>,
-): TableCell[] {
-  const cells: TableCell[] = [
-    record.key,
-    pointIndex.get(JSON.stringify(params.map((p) => record.point[p] ?? null))) ?? null,
-    record.replicate,
-    record.seed,
-  ];
-  for (const p of params) cells.push(record.point[p] ?? null);
-  cells.push(record.metrics.success);
-  for (const m of metrics) {
-    const v = record.metrics[m];
-    cells.push(typeof v === 'number' || typeof v === 'boolean' ? v : null);
-  }
-  return cells;
 }
 
 function section(report: CollectedReport): string {
