@@ -1,6 +1,6 @@
 import type { ParamInfo } from '../../shared/model.js';
 import type { FailureKind, Point } from '../../shared/schemas/records.js';
-import { countJobs } from '../../shared/sweep/expand.js';
+import { computedParams, countJobs } from '../../shared/sweep/expand.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { iteratePoints } from '../../shared/sweep/points.js';
 import { aggregateRecords } from './aggregate.js';
@@ -34,8 +34,10 @@ export interface CollectedReport {
   /** The sweep folder as the user named it (for commands shown on the page). */
   readonly dir: string;
   readonly settings: ResolvedSettings;
-  /** Leading table columns: the varied parameters in file order. */
+  /** Leading table columns: the varied parameters in file order, then the computed ones (`derived`). */
   readonly columns: readonly ParamColumn[];
+  /** Names of the computed parameters, in file order. */
+  readonly computed: readonly string[];
   /** One per parameter point, in the sweep's order; points with records but no plan come last. */
   readonly groups: readonly ReportGroup[];
   /** Every scalar metric of the records except `success`, with how it is summarised. */
@@ -98,12 +100,21 @@ export async function collectReport(source: ReportSource, options: ReportOptions
   );
   const label = (p: string): string => paramLabel(p, model.paramInfo);
   const names = sweep.variedNames;
+  const computed = sweep.derived === undefined ? [] : Object.keys(spec.derived ?? {});
   const keyOf = (point: Point): string => JSON.stringify(names.map((n) => point[n] ?? null));
+  // The varied values, then the computed ones (a function of the point, so they never split a group).
   const valuesOf = (point: Point): Point => {
     const values: Point = {};
     for (const n of names) {
       const v = point[n];
       if (v !== undefined) values[n] = v;
+    }
+    if (computed.length > 0) {
+      try {
+        Object.assign(values, computedParams(sweep, values));
+      } catch {
+        // A recorded point the formulas reject (an edited sweep): its computed columns stay empty.
+      }
     }
     return values;
   };
@@ -142,7 +153,7 @@ export async function collectReport(source: ReportSource, options: ReportOptions
     .sort();
   const recorder =
     settings.formats.has('csv') && model.metricInfo !== undefined
-      ? new TrialRecorder(source.dir, names, declared)
+      ? new TrialRecorder(source.dir, [...names, ...computed], declared)
       : null;
   try {
     // Point index of every planned point (table order); unplanned ones are numbered as they appear.
@@ -157,7 +168,7 @@ export async function collectReport(source: ReportSource, options: ReportOptions
         unplanned.set(key, valuesOf(record.point));
         pointIndex.set(key, pointIndex.size);
       }
-      recorder?.add(record, pointIndex.get(key) ?? null);
+      recorder?.add(record, pointIndex.get(key) ?? null, groups.get(key)?.values ?? unplanned.get(key) ?? record.point);
       return key;
     });
     for (const [key, summary] of aggregation.groups) {
@@ -182,7 +193,8 @@ export async function collectReport(source: ReportSource, options: ReportOptions
       source,
       dir: options.dir,
       settings,
-      columns: names.map((n) => ({ name: n, label: label(n) })),
+      columns: [...names, ...computed].map((n) => ({ name: n, label: label(n) })),
+      computed,
       groups: [...groups.values()],
       metricKinds: aggregation.metricKinds,
       metric,

@@ -105,7 +105,16 @@ export function describeSweep(report: CollectedReport, generatedAt: string): Swe
   const defaultValues: Readonly<Record<string, unknown>> = defaults.success
     ? (defaults.data as Record<string, unknown>)
     : {};
-  const variedSet = new Set(sweep.variedNames);
+  const formulas = spec.derived ?? {};
+  for (const name of report.computed) {
+    varied.push({
+      name,
+      value: `computed: ${formulas[name] ?? '(formula)'}`,
+      unit: unitOf(name, info),
+      note: info[name]?.description ?? '',
+    });
+  }
+  const variedSet = new Set([...sweep.variedNames, ...report.computed]);
   const names = [...new Set([...Object.keys(info), ...Object.keys(sweep.baseParams)])].filter((n) => !variedSet.has(n));
   const fixed = names.map((name) => {
     const value = sweep.baseParams[name];

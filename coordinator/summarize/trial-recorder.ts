@@ -18,9 +18,10 @@ export function trialRow(
   point: number | null,
   params: readonly string[],
   metrics: readonly string[],
+  values: Readonly<Record<string, number | string | boolean>> = record.point,
 ): string {
   const cells: TableCell[] = [record.key, point, record.replicate, record.seed];
-  for (const p of params) cells.push(record.point[p] ?? null);
+  for (const p of params) cells.push(values[p] ?? null);
   cells.push(record.metrics.success);
   for (const m of metrics) {
     const v = record.metrics[m];
@@ -53,7 +54,8 @@ export class TrialRecorder {
     this.chunk.push(`${trialHeader(params, metrics).map(csvField).join(',')}\n`);
   }
 
-  add(record: ResultRecord, point: number | null): void {
+  /** `values`: the trial's parameter values, computed ones included. */
+  add(record: ResultRecord, point: number | null, values: Readonly<Record<string, number | string | boolean>>): void {
     if (this.fd === null || this.undeclared) return;
     for (const name in record.metrics) {
       const v = record.metrics[name];
@@ -62,7 +64,7 @@ export class TrialRecorder {
         return;
       }
     }
-    this.chunk.push(trialRow(record, point, this.params, this.metrics));
+    this.chunk.push(trialRow(record, point, this.params, this.metrics, values));
     if (this.chunk.length >= CHUNK_LINES) this.flush();
   }
 

@@ -182,3 +182,46 @@ describe('trials.csv of records with a metric the model does not declare', () =>
     expect(leftovers).toEqual([]);
   });
 });
+
+describe('a report of a sweep with computed parameters', () => {
+  let folder: SweepFolder;
+  beforeAll(async () => {
+    folder = await makeSweepFolder(`
+name: computed-columns
+model: bcpnn-sequences
+seed: 5
+replicates: 1
+fixed: { minicolumns: 12, sequenceLength: 4, epochs: 2 }
+vary:
+  hypercolumns: { list: [4, 8] }
+  patternOverlap: { list: [0, 1] }
+derived:
+  weightGain: "8 / hypercolumns"
+  recallDuration: "sequenceLength * 75"
+`);
+    await buildReport({ dir: folder.dir, formats: ['csv', 'md', 'html'] });
+  });
+  afterAll(async () => folder.cleanup());
+
+  it('gives every computed parameter a column after the varied ones, in points.csv and trials.csv', async () => {
+    const [header = [], ...rows] = splitCsv(await readFile(join(folder.dir, 'report', 'points.csv'), 'utf8'));
+    expect(header.slice(0, 4)).toEqual(['hypercolumns', 'patternOverlap', 'weightGain', 'recallDuration']);
+    for (const row of rows) {
+      // 8 / hypercolumns and 4 * 75 (the formulas above, worked by hand).
+      expect(Number(row[2])).toBe(8 / Number(row[0]));
+      expect(Number(row[3])).toBe(300);
+    }
+    const [trialHeader = [], ...trials] = splitCsv(await readFile(join(folder.dir, 'report', 'trials.csv'), 'utf8'));
+    expect(trialHeader.slice(4, 8)).toEqual(['hypercolumns', 'patternOverlap', 'weightGain', 'recallDuration']);
+    expect(trials.length).toBe(4);
+    for (const t of trials) expect(Number(t[6])).toBe(8 / Number(t[4]));
+  });
+
+  it('lists the formulas with the varied parameters, not their defaults with the fixed ones', async () => {
+    const md = await readFile(join(folder.dir, 'report', 'sweep.md'), 'utf8');
+    expect(md).toContain('| weightGain | computed: 8 / hypercolumns |');
+    const fixed = md.slice(md.indexOf('## Fixed parameters'), md.indexOf('## Metrics'));
+    expect(fixed).not.toContain('| weightGain |');
+    expect(fixed).toContain('| tauZPre | 50 | ms |');
+  });
+});

@@ -26,16 +26,17 @@ export const trialTable: ReportChart = {
 
 async function* trialLines(report: CollectedReport): AsyncGenerator<string> {
   const params = report.columns.map((c) => c.name);
+  const varied = report.sweep.variedNames;
   const metrics = report.trialMetrics;
   const pointIndex = new Map<string, number>();
   report.groups.forEach((g, i) => {
-    pointIndex.set(JSON.stringify(params.map((p) => g.values[p] ?? null)), i);
+    pointIndex.set(JSON.stringify(varied.map((p) => g.values[p] ?? null)), i);
   });
   let chunk: string[] = [`${trialHeader(params, metrics).map(csvField).join(',')}\n`];
   // Warnings were reported by the first scan; the second meets the same lines.
   for await (const record of report.source.records()) {
-    const point = pointIndex.get(JSON.stringify(params.map((p) => record.point[p] ?? null))) ?? null;
-    chunk.push(trialRow(record, point, params, metrics));
+    const point = pointIndex.get(JSON.stringify(varied.map((p) => record.point[p] ?? null))) ?? null;
+    chunk.push(trialRow(record, point, params, metrics, point === null ? record.point : report.groups[point]?.values));
     if (chunk.length >= CHUNK_LINES) {
       yield chunk.join('');
       chunk = [];
