@@ -98,6 +98,18 @@ class Running {
     return lines.slice(-STDERR_LINES).join('\n');
   }
 
+  /** Resolves once the process and its pipes have closed (all of stderr read), or after `capMs`. */
+  drained(capMs: number): Promise<void> {
+    if (this.closed) return Promise.resolve();
+    return new Promise((resolve) => {
+      const timer = setTimeout(resolve, capMs);
+      this.child.once('close', () => {
+        clearTimeout(timer);
+        resolve();
+      });
+    });
+  }
+
   /** Keep the thread or process alive only while a job waits for this program. */
   hold(on: boolean): void {
     const handles = [this.child, this.child.stdout, this.child.stderr, this.child.stdin, this.child.stdio[3]];
@@ -176,6 +188,21 @@ function excerpt(text: string, max = 200): string {
   return shown;
 }
 
+/** A failed exchange, before the program's stderr is added to it; `discard` ends the process. */
+class Problem extends Error {
+  readonly retryable: boolean;
+  readonly discard: boolean;
+  constructor(
+    readonly kind: ModelFailure['kind'],
+    message: string,
+    how: { readonly retryable: boolean; readonly discard: boolean },
+  ) {
+    super(message);
+    this.retryable = how.retryable;
+    this.discard = how.discard;
+  }
+}
+
 /**
  * Runs jobs of one program model over the line protocol. One process (per
  * client, and so per worker thread) serves job after job; it starts on the
@@ -224,12 +251,6 @@ export class ProgramClient {
     return this.running;
   }
 
-  private failure(running: Running, kind: ModelFailure['kind'], reason: string, retryable: boolean): ModelFailure {
-    const stderr = running.stderrText();
-    const tail = stderr === '' ? ' (nothing on stderr)' : `\nlast stderr lines of the model:\n${stderr}`;
-    return new ModelFailure(kind, `model ${this.spec.id}: ${reason}${tail}`, retryable);
-  }
-
   /** Throw away a process whose output can no longer be matched to jobs. */
   private discard(running: Running): void {
     if (this.running === running) this.running = undefined;
@@ -238,71 +259,84 @@ export class ProgramClient {
 
   private async runOne(request: ProtocolRequest, options: ProgramRunOptions): Promise<RunOutput> {
     const running = this.start();
+    try {
+      return await this.exchange(running, request, options);
+    } catch (error) {
+      if (!(error instanceof Problem)) throw error;
+      if (error.discard) this.discard(running);
+      // Let stderr catch up with stdout (a separate pipe): a killed process
+      // until it has closed, a kept one for a turn of the event loop.
+      await (error.discard ? running.drained(2_000) : new Promise<void>((r) => setImmediate(r)));
+      const stderr = running.stderrText();
+      const tail = stderr === '' ? ' (nothing on stderr)' : `\nlast stderr lines of the model:\n${stderr}`;
+      throw new ModelFailure(error.kind, `model ${this.spec.id}: ${error.message}${tail}`, error.retryable);
+    }
+  }
+
+  private async exchange(
+    running: Running,
+    request: ProtocolRequest,
+    options: ProgramRunOptions,
+  ): Promise<RunOutput> {
     const stray = running.stray.shift();
     if (stray !== undefined) {
-      this.discard(running);
-      throw this.failure(
-        running,
+      throw new Problem(
         'exception',
         `the program wrote to stdout outside the protocol: ${excerpt(stray)}; stdout is for replies only, write anything else to stderr`,
-        true,
+        { retryable: true, discard: true },
       );
     }
+    const limitMs = options.timeoutMs;
     running.hold(true);
     let timer: NodeJS.Timeout | undefined;
     try {
       running.send(encodeRequest(options.trace === true ? { ...request, trace: true } : request));
       const timeout = new Promise<'timeout'>((resolve) => {
-        timer = setTimeout(() => resolve('timeout'), options.timeoutMs);
+        timer = setTimeout(() => resolve('timeout'), limitMs);
       });
       const event = await Promise.race([running.next(), timeout]);
       if (event === 'timeout') {
         running.stopWaiting();
-        this.discard(running);
-        throw this.failure(
-          running,
-          'timeout',
-          `no reply within the time limit of ${options.timeoutMs} ms; the program was killed`,
-          true,
-        );
+        const limit = `${options.timeoutMs} ms`;
+        throw new Problem('timeout', `no reply within the time limit of ${limit}; the program was killed`, {
+          retryable: true,
+          discard: true,
+        });
       }
       if (event.type === 'closed') {
-        this.discard(running);
-        throw this.failure(running, 'crashed', `the program ${event.how} before it replied`, true);
+        throw new Problem('crashed', `the program ${event.how} before it replied`, { retryable: true, discard: true });
       }
       if (event.type === 'too-long') {
-        this.discard(running);
-        throw this.failure(running, 'exception', `a reply line longer than ${MAX_REPLY_BYTES} bytes`, false);
+        throw new Problem('exception', `a reply line longer than ${MAX_REPLY_BYTES} bytes`, {
+          retryable: false,
+          discard: true,
+        });
       }
-      return this.readReply(running, request.key, event.line);
+      return this.readReply(request.key, event.line);
     } finally {
       if (timer !== undefined) clearTimeout(timer);
       running.hold(false);
     }
   }
 
-  private readReply(running: Running, key: string, line: string): RunOutput {
+  private readReply(key: string, line: string): RunOutput {
     let json: unknown;
     try {
       json = JSON.parse(line);
     } catch {
-      this.discard(running);
-      throw this.failure(
-        running,
+      throw new Problem(
         'exception',
         `the reply is not JSON: ${excerpt(line)}; stdout is for replies only, write anything else to stderr`,
-        true,
+        { retryable: true, discard: true },
       );
     }
     const parsed = ProtocolReplySchema.safeParse(json);
     const replyKey = (json as { key?: unknown } | null)?.key;
     if (replyKey !== key) {
-      this.discard(running);
-      throw this.failure(
-        running,
+      throw new Problem(
         'exception',
         `the reply is not for this job: expected "key": "${key}", got ${excerpt(JSON.stringify(replyKey) ?? 'no key')}`,
-        true,
+        { retryable: true, discard: true },
       );
     }
     if (!parsed.success) {
@@ -310,19 +344,23 @@ export class ProgramClient {
         .slice(0, 3)
         .map((i) => `${i.path.join('.') || '(reply)'}: ${i.message}`)
         .join('; ');
-      throw this.failure(
-        running,
+      throw new Problem(
         'exception',
         `the reply is not {"key", "metrics"} or {"key", "error"}: ${fields}; reply ${excerpt(line)}`,
-        false,
+        { retryable: false, discard: false },
       );
     }
     const reply = parsed.data;
     if ('error' in reply) {
-      throw this.failure(running, 'exception', `the program reported an error: ${reply.error.slice(0, 1000)}`, true);
+      throw new Problem('exception', `the program reported an error: ${reply.error.slice(0, 1000)}`, {
+        retryable: true,
+        discard: false,
+      });
     }
     const checked = checkMetrics(this.spec.declared, reply.metrics);
-    if (!checked.ok) throw this.failure(running, 'exception', `wrong metrics: ${checked.problem}`, false);
+    if (!checked.ok) {
+      throw new Problem('exception', `wrong metrics: ${checked.problem}`, { retryable: false, discard: false });
+    }
     return reply.trace === undefined
       ? { metrics: checked.metrics }
       : { metrics: checked.metrics, trace: tracePanels(reply.trace) };
