@@ -273,11 +273,7 @@ export class ProgramClient {
     }
   }
 
-  private async exchange(
-    running: Running,
-    request: ProtocolRequest,
-    options: ProgramRunOptions,
-  ): Promise<RunOutput> {
+  private async exchange(running: Running, request: ProtocolRequest, options: ProgramRunOptions): Promise<RunOutput> {
     const stray = running.stray.shift();
     if (stray !== undefined) {
       throw new Problem(
