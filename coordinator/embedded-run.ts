@@ -8,7 +8,7 @@ import { PoolTerminated } from '../worker/pool-errors.js';
 import { ShardSinks } from '../worker/shard-sinks.js';
 import { ThreadPool } from '../worker/thread-pool.js';
 import type { PastRuns } from './past-runs.js';
-import type { RunProgress, RunStart, RunSweepOptions, RunSweepResult } from './run-sweep.js';
+import type { RunProgress, RunStart, RunSweepOptions, RunSweepResult } from './run-sweep-types.js';
 
 /** Failure messages logged individually before the log only counts them. */
 const LOGGED_FAILURES = 5;
