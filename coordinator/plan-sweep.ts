@@ -5,7 +5,7 @@ import type { Point } from '../shared/schemas/records.js';
 import { computedParams, countJobs, expandJobs, fullParams } from '../shared/sweep/expand.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { iteratePoints } from '../shared/sweep/points.js';
-import { runModel } from '../worker/run-model.js';
+import { runModelAsync } from '../worker/run-model.js';
 import { formatDuration } from './progress-display.js';
 
 /** Default ceiling on jobs per sweep; `--yes` or `--max-jobs` lifts it. */
@@ -82,7 +82,7 @@ export interface PlanOptions {
  * own cost figure over every job, times seconds per operation measured by
  * running a few real jobs (spread over the points) on this machine.
  */
-export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
+export async function planSweep(sweep: LoadedSweep, options: PlanOptions): Promise<SweepPlan> {
   const pointCount = sweep.pointCount;
   const replicates = sweep.spec.replicates;
   const sampleSize = options.sampleSize ?? 5;
@@ -115,7 +115,15 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
     // One untimed run first: the first call of a model includes compiling its
     // code, which would inflate a small sample several times over.
     try {
-      runModel(sweep.model, fullParams(sweep, timingPoints[0]!), jobSeed(sweep.spec.seed, 'calibration-warm-up'));
+      // For a program model this also starts its process, which is not part of any job's cost.
+      await runModelAsync(
+        sweep.model,
+        fullParams(sweep, timingPoints[0]!),
+        jobSeed(sweep.spec.seed, 'calibration-warm-up'),
+        {
+          key: 'calibration-warm-up',
+        },
+      );
     } catch {
       // Reported below when the same point is timed.
     }
@@ -123,7 +131,7 @@ export function planSweep(sweep: LoadedSweep, options: PlanOptions): SweepPlan {
       const params = fullParams(sweep, point);
       const seed = jobSeed(sweep.spec.seed, `calibration-${i}`);
       try {
-        seconds += runModel(sweep.model, params, seed).elapsedMs / 1000;
+        seconds += (await runModelAsync(sweep.model, params, seed, { key: `calibration-${i}` })).elapsedMs / 1000;
       } catch (error) {
         failures.push(error instanceof Error ? `${error.name}: ${error.message}` : String(error));
         continue;

@@ -1,7 +1,8 @@
 import { isErrorOf, issuesFromZod, ModelFailure } from '../shared/errors.js';
+import type { AnyModel } from '../shared/model.js';
 import { findModel } from '../shared/models/registry.js';
 import { type FailureKind, type JobPayload, JobPayloadSchema, type ResultRecord } from '../shared/schemas/records.js';
-import { MalformedMetricsError, runModel } from './run-model.js';
+import { MalformedMetricsError, type ModelRun, runModel, runModelAsync } from './run-model.js';
 
 /** Who is running the job: written into every record. */
 export interface JobContext {
@@ -26,59 +27,102 @@ export type JobOutcome =
  * queue consumer) records them the same way.
  */
 export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
+  const prepared = prepareJob(rawPayload);
+  if ('outcome' in prepared) return prepared.outcome;
+  return runPrepared(prepared, context);
+}
+
+/**
+ * runJob for every kind of model: models that run in another process (a
+ * program over the line protocol) or asynchronously give a promise, with
+ * the job's key and the time limit of this process (or the model's own).
+ * Pool threads run every job through here.
+ */
+export function runAnyJob(rawPayload: unknown, context: JobContext): JobOutcome | Promise<JobOutcome> {
+  const prepared = prepareJob(rawPayload);
+  if ('outcome' in prepared) return prepared.outcome;
+  const { model, payload, params } = prepared;
+  if (model.runAsync === undefined) return runPrepared(prepared, context);
+  return runModelAsync(model, params, payload.seed, { key: payload.key }).then(
+    (run) => succeeded(payload, run, context),
+    (error: unknown) => failed(payload, error),
+  );
+}
+
+interface PreparedJob {
+  readonly payload: JobPayload;
+  readonly model: AnyModel;
+  readonly params: unknown;
+}
+
+/** The payload checked, its model found and its parameters validated; or the outcome that ends the job. */
+function prepareJob(rawPayload: unknown): PreparedJob | { readonly outcome: JobOutcome } {
+  const outcome = (o: JobOutcome): { readonly outcome: JobOutcome } => ({ outcome: o });
   const parsed = JobPayloadSchema.safeParse(rawPayload);
   if (!parsed.success) {
     const detail = issuesFromZod(parsed.error.issues, 'payload')
       .map((i) => `${i.path}: ${i.message}`)
       .join('; ');
-    return {
+    return outcome({
       ok: false,
       kind: 'invalid',
       message: `invalid job payload: ${detail}`,
       retryable: false,
       payload: undefined,
-    };
+    });
   }
   const payload = parsed.data;
   const model = findModel(payload.model);
   if (model === undefined) {
-    return {
+    return outcome({
       ok: false,
       kind: 'unsupported',
       message: `this worker has no model "${payload.model}"`,
       retryable: false,
       payload,
-    };
+    });
   }
   if (model.version !== payload.modelVersion) {
-    return {
+    return outcome({
       ok: false,
       kind: 'unsupported',
       message: `job needs ${payload.model} version ${payload.modelVersion}, this worker has version ${model.version}; run a worker built from the code version that planned the sweep`,
       retryable: false,
       payload,
-    };
+    });
   }
   const params = model.params.safeParse(payload.params);
   if (!params.success) {
     const detail = issuesFromZod(params.error.issues, 'params')
       .map((i) => `${i.path}: ${i.message}`)
       .join('; ');
-    return { ok: false, kind: 'invalid', message: `invalid parameters: ${detail}`, retryable: false, payload };
+    return outcome({ ok: false, kind: 'invalid', message: `invalid parameters: ${detail}`, retryable: false, payload });
   }
-  let run: ReturnType<typeof runModel>;
+  return { payload, model, params: params.data };
+}
+
+function runPrepared({ payload, model, params }: PreparedJob, context: JobContext): JobOutcome {
+  let run: ModelRun;
   try {
-    run = runModel(model, params.data, payload.seed);
+    run = runModel(model, params, payload.seed);
   } catch (error) {
-    // A model that breaks the record format will do so again: no retry.
-    if (isErrorOf(error, MalformedMetricsError))
-      return { ok: false, kind: 'exception', message: error.message, retryable: false, payload };
-    // A model that knows how it failed says so (kind, and whether another try could help).
-    if (isErrorOf(error, ModelFailure))
-      return { ok: false, kind: error.kind, message: error.message, retryable: error.retryable, payload };
-    const message = error instanceof Error ? `${error.name}: ${error.message}` : String(error);
-    return { ok: false, kind: 'exception', message, retryable: true, payload };
+    return failed(payload, error);
   }
+  return succeeded(payload, run, context);
+}
+
+function failed(payload: JobPayload, error: unknown): JobOutcome {
+  // A model that breaks the record format will do so again: no retry.
+  if (isErrorOf(error, MalformedMetricsError))
+    return { ok: false, kind: 'exception', message: error.message, retryable: false, payload };
+  // A model that knows how it failed says so (kind, and whether another try could help).
+  if (isErrorOf(error, ModelFailure))
+    return { ok: false, kind: error.kind, message: error.message, retryable: error.retryable, payload };
+  const message = error instanceof Error ? `${error.name}: ${error.message}` : String(error);
+  return { ok: false, kind: 'exception', message, retryable: true, payload };
+}
+
+function succeeded(payload: JobPayload, run: ModelRun, context: JobContext): JobOutcome {
   const record: ResultRecord = {
     v: 1,
     key: payload.key,

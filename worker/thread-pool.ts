@@ -1,5 +1,6 @@
 import { availableParallelism } from 'node:os';
 import { type ResourceLimits, Worker } from 'node:worker_threads';
+import { externalModelSettings } from '../shared/models/external/settings.js';
 import { JobPayloadSchema } from '../shared/schemas/records.js';
 import { PoolBroken, PoolClosed, PoolTerminated } from './pool-errors.js';
 import type { JobContext, JobOutcome } from './run-job.js';
@@ -132,7 +133,8 @@ export class ThreadPool {
 
   private spawn(): void {
     const worker = new Worker(this.entry, {
-      workerData: { context: this.context },
+      // Model folders the main thread registered: every thread registers them too.
+      workerData: { context: this.context, models: externalModelSettings() },
       ...(this.resourceLimits === undefined ? {} : { resourceLimits: this.resourceLimits }),
     });
     const slot: Slot = { worker, task: undefined, ready: false, dead: false };

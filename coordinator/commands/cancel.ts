@@ -2,9 +2,10 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { cancelSweep } from '../cancel.js';
 import { action } from '../cli-support.js';
+import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 
-interface CancelOptions extends QueueCliOptions {
+interface CancelOptions extends QueueCliOptions, ModelCliOptions {
   readonly json?: boolean;
 }
 
@@ -16,9 +17,11 @@ export function registerCancel(program: Command): void {
       .description(
         "Remove the sweep's waiting jobs from the queue; running jobs finish and keep their results (`requeue` resumes)",
       )
-      .option('--json', 'print the counts as one JSON object'),
+      .option('--json', 'print the counts as one JSON object')
+      .addOption(modelsOption()),
   ).action(
     action(async (dir: string, options: CancelOptions) => {
+      await useModelOptions(options);
       const settings = queueSettings(options);
       const logger = createLogger({ name: 'cancel' });
       const r = await cancelSweep(dir, settings, logger);

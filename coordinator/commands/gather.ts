@@ -2,9 +2,10 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action } from '../cli-support.js';
 import { gatherSweep } from '../gather.js';
+import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 
-interface GatherOptions extends QueueCliOptions {
+interface GatherOptions extends QueueCliOptions, ModelCliOptions {
   readonly json?: boolean;
 }
 
@@ -16,9 +17,11 @@ export function registerGather(program: Command): void {
       .description(
         'Copy records of finished jobs held in Redis into this folder, then free them in Redis (for workers without a shared disk)',
       )
-      .option('--json', 'print the counts as one JSON object'),
+      .option('--json', 'print the counts as one JSON object')
+      .addOption(modelsOption()),
   ).action(
     action(async (dir: string, options: GatherOptions) => {
+      await useModelOptions(options);
       const settings = queueSettings(options);
       const logger = createLogger({ name: 'gather' });
       const r = await gatherSweep(dir, settings, logger);

@@ -1,8 +1,9 @@
 import type { Command } from 'commander';
 import { action, EXIT_FAILURE } from '../cli-support.js';
+import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { inspectJob } from '../summarize/inspect-job.js';
 
-interface InspectFlags {
+interface InspectFlags extends ModelCliOptions {
   readonly job: string;
   readonly out?: string;
 }
@@ -16,8 +17,11 @@ export function registerInspect(program: Command): void {
     .argument('<dir>', 'sweep folder (the one holding sweep.json)')
     .requiredOption('--job <key>', 'job key, or a unique prefix of one')
     .option('--out <file.svg>', 'where to write the trace (default: DIR/report/inspect-<key>.svg)')
+    .addOption(modelsOption())
+    .addOption(modelTimeoutOption())
     .action(
       action(async (dir: string, flags: InspectFlags) => {
+        await useModelOptions(flags);
         const result = await inspectJob({
           dir,
           job: flags.job,

@@ -3,13 +3,14 @@ import { ResultStore } from '../../shared/store/result-store.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
+import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, formatPlan, loadSweepForCommand, type PlanCores, planSweep } from '../plan-sweep.js';
 import { displayPath } from '../shell-text.js';
 
 /** Timing jobs run by default to turn operations into core-hours. */
 export const DEFAULT_CALIBRATION_JOBS = 3;
 
-interface PlanFlags {
+interface PlanFlags extends ModelCliOptions {
   readonly maxJobs: string;
   readonly yes?: boolean;
   readonly calibrate: string;
@@ -58,8 +59,10 @@ export function registerPlan(program: Command): void {
       '--cores <n>',
       "estimate the wall-clock time for this many cores, e.g. all workers' threads (default: this machine's)",
     )
+    .addOption(modelsOption())
     .action(
       action(async (file: string, flags: PlanFlags) => {
+        await useModelOptions(flags);
         const maxJobs = parseWholeNumber('--max-jobs', flags.maxJobs, 1);
         const calibrate = parseWholeNumber('--calibrate', flags.calibrate, 0, 1000);
         const cores: PlanCores =
@@ -69,7 +72,7 @@ export function registerPlan(program: Command): void {
         const sweep = await loadSweepForCommand(file, { maxJobs, yes: flags.yes === true });
         const results = await existingResults(sweep, flags.out);
         const done = results?.keys;
-        const plan = planSweep(sweep, { calibrate, ...(done === undefined ? {} : { done }) });
+        const plan = await planSweep(sweep, { calibrate, ...(done === undefined ? {} : { done }) });
         const where =
           results === null ? {} : done === undefined ? { otherSweepDir: results.dir } : { resultsDir: results.dir };
         process.stdout.write(formatPlan(plan, { cores, ...where }));

@@ -7,11 +7,12 @@ import type { WorkQueue } from '../../shared/queue/work-queue.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action } from '../cli-support.js';
 import { completedPercent } from '../completed-percent.js';
+import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { formatDuration } from '../progress-display.js';
 import { type ProgressSnapshot, sweepProgress } from '../queue-progress.js';
 import { addQueueOptions, optionalQueueSettings, type QueueCliOptions } from '../queue-session.js';
 
-interface ProgressOptions extends QueueCliOptions {
+interface ProgressOptions extends QueueCliOptions, ModelCliOptions {
   readonly follow?: boolean;
   readonly json?: boolean;
 }
@@ -27,10 +28,12 @@ export function registerProgress(program: Command): void {
         'How far a sweep is: finished jobs from the result files, waiting/running/failed jobs from the queue, rate and time left',
       )
       .option('--follow', 'redraw a live progress bar every 2 s until the sweep is finished (Ctrl-C stops watching)')
-      .option('--json', 'print the figures as one JSON object'),
+      .option('--json', 'print the figures as one JSON object')
+      .addOption(modelsOption()),
     false,
   ).action(
     action(async (dir: string, options: ProgressOptions) => {
+      await useModelOptions(options);
       const settings = optionalQueueSettings(options);
       const store = ResultStore.open(dir);
       const sweep = await store.readSweep();

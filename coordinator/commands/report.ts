@@ -3,11 +3,12 @@ import { InputError } from '../../shared/errors.js';
 import { MAX_BINS, MIN_BINS } from '../../shared/sweep/bins.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { completedPercent } from '../completed-percent.js';
+import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { displayPath } from '../shell-text.js';
 import { buildReport } from '../summarize/build-report.js';
 import { DEFAULT_PNG_SCALE, PNG_SCALE_RANGE, REPORT_FORMATS, type ReportFormat } from '../summarize/report-settings.js';
 
-interface ReportFlags {
+interface ReportFlags extends ModelCliOptions {
   readonly x?: string;
   readonly y?: string;
   readonly facet?: string;
@@ -73,8 +74,10 @@ export function registerReport(program: Command): void {
       '--png-scale <n>',
       `PNG pixels per SVG unit, ${PNG_SCALE_RANGE.min} to ${PNG_SCALE_RANGE.max} (default: ${DEFAULT_PNG_SCALE}, sharp in print)`,
     )
+    .addOption(modelsOption())
     .action(
       action(async (dir: string, flags: ReportFlags) => {
+        await useModelOptions(flags);
         const bins = flags.bins === undefined ? undefined : parseWholeNumber('--bins', flags.bins, MIN_BINS, MAX_BINS);
         const formats = parseFormats(flags.format);
         const pngScale =

@@ -1,10 +1,11 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action } from '../cli-support.js';
+import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 import { requeueSweep } from '../requeue.js';
 
-interface RequeueOptions extends QueueCliOptions {
+interface RequeueOptions extends QueueCliOptions, ModelCliOptions {
   readonly failed?: boolean;
   readonly json?: boolean;
 }
@@ -18,9 +19,11 @@ export function registerRequeue(program: Command): void {
         'Resume a sweep: queue every job that has no result and is not in the queue (also after Redis lost everything)',
       )
       .option('--failed', 'also give jobs in the failed set a fresh set of attempts')
-      .option('--json', 'print the counts as one JSON object'),
+      .option('--json', 'print the counts as one JSON object')
+      .addOption(modelsOption()),
   ).action(
     action(async (dir: string, options: RequeueOptions) => {
+      await useModelOptions(options);
       const settings = queueSettings(options);
       const logger = createLogger({ name: 'requeue' });
       const r = await requeueSweep(dir, settings, options.failed === true, logger);

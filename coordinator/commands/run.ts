@@ -3,6 +3,7 @@ import { createLogger } from '../../shared/logger.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
+import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
 import { runAdaptiveSweep } from '../run-adaptive.js';
@@ -91,7 +92,7 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
   return result;
 }
 
-interface RunFlags {
+interface RunFlags extends ModelCliOptions {
   readonly out: string;
   readonly threads?: string;
   readonly maxJobs: string;
@@ -107,8 +108,11 @@ export function registerRun(program: Command): void {
     .option('--threads <n>', 'worker threads (default: one per core)')
     .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
     .option('--yes', 'run even when the sweep has more jobs than the limit')
+    .addOption(modelsOption())
+    .addOption(modelTimeoutOption())
     .action(
       action(async (file: string, flags: RunFlags) => {
+        await useModelOptions(flags);
         const threads =
           flags.threads === undefined
             ? defaultThreadCount()

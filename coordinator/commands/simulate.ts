@@ -6,10 +6,11 @@ import type { TracePanel } from '../../shared/model.js';
 import { DEFAULT_MODEL_ID, requireModel } from '../../shared/models/registry.js';
 import { isParamName, unknownParamIssue } from '../../shared/param-names.js';
 import { MAX_SEED } from '../../shared/random.js';
-import { runModel } from '../../worker/run-model.js';
+import { runModelAsync } from '../../worker/run-model.js';
 import { action } from '../cli-support.js';
+import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 
-interface SimulateOptions {
+interface SimulateOptions extends ModelCliOptions {
   readonly model: string;
   readonly params?: string;
   readonly set: string[];
@@ -105,8 +106,11 @@ export function registerSimulate(program: Command): void {
     )
     .option('--seed <n>', 'seed of the trial (non-negative integer)', '1')
     .option('--trace <file>', 'write the match of every stored pattern at every recall step as CSV')
+    .addOption(modelsOption())
+    .addOption(modelTimeoutOption())
     .action(
       action(async (options: SimulateOptions) => {
+        await useModelOptions(options);
         const model = requireModel(options.model, '--model');
         const seed = parseSeed(options.seed);
         const fromFile = options.params === undefined ? {} : await readParamsFile(options.params);
@@ -129,7 +133,10 @@ export function registerSimulate(program: Command): void {
         if (!parsed.success) {
           throw invalidInput(`invalid parameters for model ${model.id}`, issuesFromZod(parsed.error.issues));
         }
-        const { output } = runModel(model, parsed.data, seed, options.trace === undefined ? {} : { trace: true });
+        const { output } = await runModelAsync(model, parsed.data, seed, {
+          key: 'simulate',
+          ...(options.trace === undefined ? {} : { trace: true }),
+        });
         if (options.trace !== undefined) {
           if (output.trace === undefined || output.trace.length === 0) {
             throw inputError('--trace', `model ${model.id} records no trace`);

@@ -2,11 +2,12 @@ import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { createLogger } from '../../shared/logger.js';
 import { action, parseWholeNumber } from '../cli-support.js';
+import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 import { type SubmitResult, submitSweep } from '../submit-sweep.js';
 
-interface SubmitOptions extends QueueCliOptions {
+interface SubmitOptions extends QueueCliOptions, ModelCliOptions {
   readonly out: string;
   readonly json?: boolean;
   readonly maxJobs: string;
@@ -22,9 +23,11 @@ export function registerSubmit(program: Command): void {
       .option('--out <dir>', 'results root; the sweep gets the folder <dir>/<name>', 'results')
       .option('--json', 'print the counts as one JSON object')
       .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
-      .option('--yes', 'queue the sweep even when it has more jobs than --max-jobs'),
+      .option('--yes', 'queue the sweep even when it has more jobs than --max-jobs')
+      .addOption(modelsOption()),
   ).action(
     action(async (file: string, options: SubmitOptions) => {
+      await useModelOptions(options);
       const settings = queueSettings(options);
       // Bad files and oversized sweeps are refused before Redis or the disk is touched.
       const maxJobs = parseWholeNumber('--max-jobs', options.maxJobs, 1);

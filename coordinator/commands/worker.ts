@@ -4,9 +4,10 @@ import { DEFAULT_LOCK_MS, DEFAULT_MAX_STALLED, DEFAULT_STALL_CHECK_MS } from '..
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { runWorkerProcess } from '../../worker/worker-process.js';
 import { action, parseWholeNumber } from '../cli-support.js';
+import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 
-interface WorkerOptions extends QueueCliOptions {
+interface WorkerOptions extends QueueCliOptions, ModelCliOptions {
   readonly threads?: string;
   readonly out: string;
   readonly name?: string;
@@ -37,9 +38,12 @@ export function registerWorker(program: Command): void {
         String(DEFAULT_LOCK_MS),
       )
       .option('--stall-check-ms <ms>', 'how often to look for jobs whose worker died', String(DEFAULT_STALL_CHECK_MS))
-      .option('--max-stalled <n>', 'times a job may lose its worker before it is failed', String(DEFAULT_MAX_STALLED)),
+      .option('--max-stalled <n>', 'times a job may lose its worker before it is failed', String(DEFAULT_MAX_STALLED))
+      .addOption(modelsOption())
+      .addOption(modelTimeoutOption()),
   ).action(
     action(async (options: WorkerOptions) => {
+      await useModelOptions(options);
       // Every option is checked before anything starts: bad input exits with 2.
       const settings = queueSettings(options);
       const threads =

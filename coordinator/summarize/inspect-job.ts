@@ -6,7 +6,7 @@ import type { Metrics } from '../../shared/model.js';
 import type { Point } from '../../shared/schemas/records.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { expandJobs, type PlannedJob } from '../../shared/sweep/expand.js';
-import { runModel } from '../../worker/run-model.js';
+import { runModelAsync } from '../../worker/run-model.js';
 import { renderTracePlot } from './charts/trace-plot.js';
 
 export interface InspectOptions {
@@ -87,7 +87,7 @@ export async function inspectJob(options: InspectOptions): Promise<InspectResult
       { path: '--job', message: params.error.message },
     ]);
   }
-  const { output } = runModel(sweep.model, params.data, job.seed, { trace: true });
+  const { output } = await runModelAsync(sweep.model, params.data, job.seed, { trace: true, key: job.key });
 
   let storedMetrics: Metrics | null = null;
   for await (const record of store.records()) {

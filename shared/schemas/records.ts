@@ -67,18 +67,21 @@ export type FailureRecord = z.infer<typeof FailureRecordSchema>;
  * Everything a worker needs to run one job without reading sweep.json:
  * the full parameter set is carried, and re-validated by the model's schema.
  */
-export const JobPayloadSchema = z.object({
-  v: z.literal(1),
-  sweep: z.object({
-    name: SweepNameSchema,
-    hash: z.string().regex(/^[0-9a-f]{64}$/),
-  }),
-  key: JobKeySchema,
-  model: z.string().max(100),
-  modelVersion: z.string().max(50),
-  params: z.record(z.string(), z.unknown()),
-  point: PointSchema,
-  replicate: z.number().int().min(0).max(1_000_000),
-  seed: SeedSchema,
-});
+export const JobPayloadSchema = z
+  .object({
+    v: z.literal(1),
+    sweep: z.object({
+      name: SweepNameSchema,
+      hash: z.string().regex(/^[0-9a-f]{64}$/),
+    }),
+    key: JobKeySchema,
+    model: z.string().max(100),
+    modelVersion: z.string().max(50),
+    params: z.record(z.string(), z.unknown()),
+    point: PointSchema,
+    replicate: z.number().int().min(0).max(1_000_000),
+    seed: SeedSchema,
+  })
+  // Nothing else: a payload never carries a command, a path or code (workers run only their own registered models).
+  .strict();
 export type JobPayload = z.infer<typeof JobPayloadSchema>;

@@ -17,10 +17,10 @@ vary:
 `;
 
 describe('planSweep with results already there', () => {
-  it('leaves the jobs that have a result out of the remaining work', () => {
+  it('leaves the jobs that have a result out of the remaining work', async () => {
     const sweep = parseSweepText(BURN, 'burn.yaml');
     const done = new Set([...expandJobs(sweep)].filter((j) => j.params['burnMs'] === 10).map((j) => j.key));
-    const plan = planSweep(sweep, { calibrate: 0, done });
+    const plan = await planSweep(sweep, { calibrate: 0, done });
     expect(plan.jobs).toBe(6);
     expect(plan.done).toBe(2);
     expect(plan.remainingJobs).toBe(4);
@@ -29,8 +29,8 @@ describe('planSweep with results already there', () => {
     expect(plan.totalOps).toBe(120e6);
   });
 
-  it('counts every job as remaining when no result is given', () => {
-    const plan = planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 0 });
+  it('counts every job as remaining when no result is given', async () => {
+    const plan = await planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 0 });
     expect(plan).toMatchObject({ done: 0, remainingJobs: 6, remainingOps: 120e6, remainingCoreHours: null });
   });
 });
@@ -125,10 +125,10 @@ describe('recallscape plan with results already there', () => {
 });
 
 describe('the plan text', () => {
-  it('says how many jobs have results and where', () => {
+  it('says how many jobs have results and where', async () => {
     const sweep = parseSweepText(BURN, 'burn.yaml');
     const done = new Set([...expandJobs(sweep)].slice(0, 3).map((j) => j.key));
-    const text = formatPlan(planSweep(sweep, { calibrate: 0, done }), {
+    const text = formatPlan(await planSweep(sweep, { calibrate: 0, done }), {
       cores: { count: 2, unit: 'thread' },
       resultsDir: 'results/burn-left',
     });

@@ -1,4 +1,5 @@
-import { readFileSync } from 'node:fs';
+import { spawn } from 'node:child_process';
+import { existsSync, readFileSync } from 'node:fs';
 import { cp, mkdir, mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -8,6 +9,8 @@ import { fileURLToPath } from 'node:url';
 export const SUPERVISOR = new URL('../../dist/shared/models/external/supervisor.js', import.meta.url);
 export const EXAMPLES = fileURLToPath(new URL('../../examples/models', import.meta.url));
 export const FIXTURES = fileURLToPath(new URL('./fixtures', import.meta.url));
+export const ROOT = fileURLToPath(new URL('../..', import.meta.url));
+export const CLI = join(ROOT, 'bin', 'recallscape.js');
 
 export async function tempDir(label: string): Promise<string> {
   return mkdtemp(join(tmpdir(), `recallscape-ext-${label}-`));
@@ -100,4 +103,34 @@ export function programDescription(over: Record<string, unknown> = {}): Record<s
     timeoutMs: 5000,
     ...over,
   };
+}
+
+/**
+ * Environment for commands that start the Python example: the system's
+ * python3 first on PATH when there is one, because a version manager's shim
+ * in front of it costs seconds per start on a loaded machine (the example's
+ * description still just says "python3").
+ */
+export function modelEnv(extra: Record<string, string> = {}): NodeJS.ProcessEnv {
+  const path = existsSync('/usr/bin/python3') ? `/usr/bin:${process.env['PATH'] ?? ''}` : (process.env['PATH'] ?? '');
+  return { ...process.env, RECALLSCAPE_LOG_LEVEL: 'info', RECALLSCAPE_DEBUG: '', PATH: path, ...extra };
+}
+
+export interface CliRun {
+  readonly code: number | null;
+  readonly stdout: string;
+  readonly stderr: string;
+}
+
+/** The built command line, run to the end in `cwd` with `env`. */
+export function runCliIn(args: readonly string[], cwd: string, env: NodeJS.ProcessEnv = modelEnv()): Promise<CliRun> {
+  return new Promise((resolve, reject) => {
+    const child = spawn(process.execPath, [CLI, ...args], { cwd, env, stdio: ['ignore', 'pipe', 'pipe'] });
+    let stdout = '';
+    let stderr = '';
+    child.stdout.on('data', (d: Buffer) => (stdout += d.toString()));
+    child.stderr.on('data', (d: Buffer) => (stderr += d.toString()));
+    child.on('error', reject);
+    child.on('close', (code) => resolve({ code, stdout, stderr }));
+  });
 }

@@ -18,8 +18,8 @@ vary:
 `;
 
 describe('planSweep', () => {
-  it('counts points and jobs and sums the model cost over every job', () => {
-    const plan = planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 0 });
+  it('counts points and jobs and sums the model cost over every job', async () => {
+    const plan = await planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 0 });
     expect(plan.points).toBe(15);
     expect(plan.replicates).toBe(4);
     expect(plan.jobs).toBe(60);
@@ -37,8 +37,8 @@ describe('planSweep', () => {
     ]);
   });
 
-  it('calibrates seconds per operation by timing real jobs', () => {
-    const plan = planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 3 });
+  it('calibrates seconds per operation by timing real jobs', async () => {
+    const plan = await planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 3 });
     const c = plan.calibration!;
     expect(c.jobs).toBe(3);
     // Timing points are spread over the 15 points: indices 0, 5 and 10 have burnMs 20, 40 and 60.
@@ -51,8 +51,8 @@ describe('planSweep', () => {
     expect(plan.coreHours! * 3600).toBeGreaterThanOrEqual(2.4);
   });
 
-  it('prints the counts, the estimate and the first points as text', () => {
-    const text = formatPlan(planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 1 }), {
+  it('prints the counts, the estimate and the first points as text', async () => {
+    const text = formatPlan(await planSweep(parseSweepText(BURN, 'burn.yaml'), { calibrate: 1 }), {
       cores: { count: 2, unit: 'thread' },
     });
     expect(text).toMatch(/^jobs +60$/m);

@@ -5,6 +5,7 @@ import { findModel, registerModel } from '../registry.js';
 import { DESCRIPTION_FILE } from './description-schema.js';
 import { type ExternalModel, isExternalModel } from './external-model.js';
 import { type LoadOptions, loadModelFolder } from './load-model-folder.js';
+import { addModelFolders, type ExternalModelSettings, setModelTimeout } from './settings.js';
 
 /** Environment variable naming the models folder(s) when `--models` is not given. */
 export const MODELS_ENV = 'RECALLSCAPE_MODELS';
@@ -81,7 +82,14 @@ export async function registerModelFolders(
       loaded.push(model);
     }
   }
+  addModelFolders(dirs);
   return loaded;
+}
+
+/** In a pool thread: register what the main thread registered, with its time limit. */
+export async function applyExternalModelSettings(settings: ExternalModelSettings): Promise<void> {
+  await registerModelFolders(settings.folders);
+  setModelTimeout(settings.timeoutMs);
 }
 
 /** `--models` (or the environment variable) loaded into the registry; nothing when neither is set. */
