@@ -122,6 +122,8 @@ export function registerRun(program: Command): void {
         const sweep = await loadSweepForCommand(file, { maxJobs, yes: flags.yes === true });
         const words = ['recallscape', 'run', file, '--out', flags.out];
         if (flags.threads !== undefined) words.push('--threads', String(threads));
+        if (flags.models !== undefined) words.push('--models', flags.models);
+        if (flags.modelTimeout !== undefined) words.push('--model-timeout', flags.modelTimeout);
         if (flags.yes === true) words.push('--yes');
         else if (flags.maxJobs !== String(DEFAULT_JOB_LIMIT)) words.push('--max-jobs', String(maxJobs));
         await executeSweep({

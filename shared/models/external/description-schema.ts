@@ -73,6 +73,9 @@ const CommonFields = {
   timeoutMs: z.number().int().min(1).max(MAX_TIMEOUT_MS),
 };
 
+/** Default extra time a program gets on the first job after it started (interpreter, imports). */
+export const DEFAULT_STARTUP_MS = 60_000;
+
 const RelativePath = z
   .string()
   .min(1)
@@ -84,6 +87,8 @@ export const ProgramDescriptionSchema = z
     kind: z.literal('program'),
     /** Argument array; the first entry is a program on PATH, or a path relative to the folder when it holds a "/". */
     command: z.array(z.string().min(1)).min(1, 'at least the program to start'),
+    /** Extra time for the first job of a freshly started process, on top of timeoutMs. */
+    startupMs: z.number().int().min(0).max(MAX_TIMEOUT_MS).default(DEFAULT_STARTUP_MS),
   })
   .strict();
 

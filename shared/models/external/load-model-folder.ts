@@ -109,7 +109,10 @@ export async function loadModelFolder(folder: string, options: LoadOptions = {})
   const declared = declarationOf(description);
   if (description.kind === 'program') {
     const command = programCommand(root, description.command, file);
-    const runner = programRunner({ id: description.id, folder: root, command, declared }, options.supervisor);
+    const runner = programRunner(
+      { id: description.id, folder: root, command, declared, startupMs: description.startupMs },
+      options.supervisor,
+    );
     return externalModel(description, compiled, source, runner);
   }
   const modulePath = resolve(root, description.module);

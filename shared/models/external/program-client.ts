@@ -13,6 +13,8 @@ export interface ProgramSpec {
   /** Program and arguments, the program already resolved against the folder when it is a path. */
   readonly command: readonly string[];
   readonly declared: MetricDeclaration;
+  /** Extra time for the first job of a freshly started process (start-up is not the job's time). */
+  readonly startupMs: number;
 }
 
 export interface ProgramRunOptions {
@@ -258,9 +260,10 @@ export class ProgramClient {
   }
 
   private async runOne(request: ProtocolRequest, options: ProgramRunOptions): Promise<RunOutput> {
+    const fresh = this.running === undefined || this.running.closed || this.running.killed;
     const running = this.start();
     try {
-      return await this.exchange(running, request, options);
+      return await this.exchange(running, request, options, fresh);
     } catch (error) {
       if (!(error instanceof Problem)) throw error;
       if (error.discard) this.discard(running);
@@ -273,7 +276,12 @@ export class ProgramClient {
     }
   }
 
-  private async exchange(running: Running, request: ProtocolRequest, options: ProgramRunOptions): Promise<RunOutput> {
+  private async exchange(
+    running: Running,
+    request: ProtocolRequest,
+    options: ProgramRunOptions,
+    fresh: boolean,
+  ): Promise<RunOutput> {
     const stray = running.stray.shift();
     if (stray !== undefined) {
       throw new Problem(
@@ -282,7 +290,8 @@ export class ProgramClient {
         { retryable: true, discard: true },
       );
     }
-    const limitMs = options.timeoutMs;
+    // A freshly started program also needs time to start (interpreter, imports): not the job's time.
+    const limitMs = options.timeoutMs + (fresh ? this.spec.startupMs : 0);
     running.hold(true);
     let timer: NodeJS.Timeout | undefined;
     try {
@@ -293,7 +302,9 @@ export class ProgramClient {
       const event = await Promise.race([running.next(), timeout]);
       if (event === 'timeout') {
         running.stopWaiting();
-        const limit = `${options.timeoutMs} ms`;
+        const limit = fresh
+          ? `${options.timeoutMs} ms plus ${this.spec.startupMs} ms for starting the program`
+          : `${options.timeoutMs} ms`;
         throw new Problem('timeout', `no reply within the time limit of ${limit}; the program was killed`, {
           retryable: true,
           discard: true,
