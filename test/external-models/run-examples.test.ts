@@ -122,6 +122,32 @@ describe('the example models through recallscape run and report', () => {
     const report = await runCli(['report', join(out, 'hopfield-load'), '--models', 'examples/models'], ROOT);
     expect(report.code).toBe(0);
     expect(existsSync(join(out, 'hopfield-load', 'report', 'phase-success.png'))).toBe(true);
+
+    // inspect re-runs one job through the program, compares, and draws the trace the program sends.
+    const key = String(records.find((r) => r.point['patterns'] === 9)?.['key']);
+    const svg = join(out, 'inspect.svg');
+    const inspect = await runCli(
+      ['inspect', join(out, 'hopfield-load'), '--job', key, '--models', 'examples/models', '--out', svg],
+      ROOT,
+    );
+    expect(inspect.code, inspect.stderr).toBe(0);
+    expect(inspect.stdout).toMatch(/stored record: identical metrics/);
+    expect(inspect.stdout).toMatch(/trace: 1 recall panel\(s\) drawn/);
+    expect(await readFile(svg, 'utf8')).toMatch(/<svg [^>]*class="trace-plot"/);
+  });
+
+  it('plans a sweep of the Python model, timing real jobs for the estimate', async () => {
+    const plan = await runCli(
+      ['plan', 'examples/models/hopfield-py/sweep.yaml', '--models', 'examples/models', '--calibrate', '2'],
+      ROOT,
+    );
+    expect(plan.code, plan.stderr).toBe(0);
+    expect(plan.stdout).toMatch(/^model +hopfield-py version 1\.0\.0$/m);
+    expect(plan.stdout).toMatch(/^jobs +320$/m);
+    // One operation per job without a cost function: 320 operations, 2 timed jobs.
+    expect(plan.stdout).toMatch(/^work +320 operations/m);
+    expect(plan.stdout).toMatch(/^calibration +2 jobs timed/m);
+    expect(plan.stdout).toMatch(/^estimate +[0-9.e+-]+ core-hours/m);
   });
 
   it('refuses a sweep of an external model without --models, and a bad description, with exit code 2 before anything is written', async () => {
