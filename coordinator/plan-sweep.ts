@@ -2,9 +2,9 @@ import { jobSeed } from '../shared/job-identity.js';
 import type { TrialRange } from '../shared/refine/estimate.js';
 import { sweepTrialRange } from '../shared/refine/sweep-design.js';
 import type { Point } from '../shared/schemas/records.js';
-import { computedParams, countJobs, expandJobs, fullParams } from '../shared/sweep/expand.js';
+import { computedParams, countJobs, expandJobs, fullParams, resolveParams } from '../shared/sweep/expand.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
-import { iteratePoints } from '../shared/sweep/points.js';
+import { iteratePoints, pointsAtPositions, representativePositions, spreadPositions } from '../shared/sweep/points.js';
 import { runModelAsync } from '../worker/run-model.js';
 import { formatDuration } from './progress-display.js';
 
@@ -46,8 +46,11 @@ export interface SweepPlan {
   readonly points: number;
   readonly replicates: number;
   readonly jobs: number;
-  /** Sum of model.cost over every job. */
+  /** Sum of model.cost over every job (estimated from costedPoints points when fewer than all). */
   readonly totalOps: number;
+  readonly costedPoints: number;
+  /** Points run through the model's schema while loading. */
+  readonly checkedPoints: number;
   readonly sample: readonly Point[];
   /** Computed parameters: name -> normalised formula (file order). */
   readonly formulas: Readonly<Record<string, string>>;
@@ -77,34 +80,45 @@ export interface PlanOptions {
   readonly done?: ReadonlySet<string>;
 }
 
+/** Points whose cost is summed: every point of a smaller sweep, a representative selection of a larger one. */
+export const COSTED_POINTS = 256;
+
 /**
- * Count and cost a sweep. The core-hour estimate is the sum of the model's
- * own cost figure over every job, times seconds per operation measured by
- * running a few real jobs (spread over the points) on this machine.
+ * Count and cost a sweep. The core-hour estimate is the model's own cost
+ * figure summed over every job (over COSTED_POINTS representative points,
+ * scaled up, for a larger sweep, so planning takes the same short time
+ * whatever the sweep's size), times seconds per operation measured by
+ * running a few real jobs (spread over those points) on this machine.
  */
 export async function planSweep(sweep: LoadedSweep, options: PlanOptions): Promise<SweepPlan> {
   const pointCount = sweep.pointCount;
   const replicates = sweep.spec.replicates;
   const sampleSize = options.sampleSize ?? 5;
-  const wanted = Math.min(options.calibrate, pointCount);
-  // Timing jobs are spread evenly over the points (cost can vary a lot between them).
-  const timingIndices = new Set<number>();
-  for (let i = 0; i < wanted; i++) timingIndices.add(Math.floor((i * pointCount) / wanted));
   const sample: Point[] = [];
-  const timingPoints: Point[] = [];
-  let opsPerReplicate = 0;
-  let index = 0;
   for (const point of iteratePoints(sweep)) {
-    opsPerReplicate += Number(sweep.model.cost(fullParams(sweep, point)));
-    if (index < sampleSize) sample.push(point);
-    if (timingIndices.has(index)) timingPoints.push(point);
-    index++;
+    if (sample.length >= sampleSize) break;
+    sample.push(point);
   }
+  const costed: Point[] = [];
+  let costSum = 0;
+  for (const [, point] of pointsAtPositions(sweep, representativePositions(sweep, pointCount, COSTED_POINTS))) {
+    // A point the model refuses (possible only outside the points checked while loading) has no cost.
+    const params = resolveParams(sweep, point);
+    if (params === undefined) continue;
+    costSum += Number(sweep.model.cost(params));
+    costed.push(point);
+  }
+  const opsPerReplicate =
+    costed.length === pointCount ? costSum : costed.length === 0 ? 0 : (costSum / costed.length) * pointCount;
   const refine = sweep.spec.refine;
   const range = refine === undefined ? undefined : sweepTrialRange(sweep);
   // Adaptive: the worst case, at the starting grid's average cost per trial.
   const totalOps =
     range === undefined ? opsPerReplicate * replicates : (opsPerReplicate / Math.max(1, pointCount)) * range.worst;
+  // Timing jobs are spread evenly over the costed points (cost can vary a lot between them).
+  const timingPoints = spreadPositions(costed.length, Math.min(options.calibrate, costed.length)).map(
+    (i) => costed[i]!,
+  );
 
   let calibration: CalibrationFigures | null = null;
   if (timingPoints.length > 0) {
@@ -159,15 +173,26 @@ export async function planSweep(sweep: LoadedSweep, options: PlanOptions): Promi
     model: sweep.model.id,
     modelVersion: sweep.model.version,
     sampler:
-      sweep.spec.sampler.kind === 'grid' ? 'grid' : `${sweep.spec.sampler.kind} (${sweep.spec.sampler.points} points)`,
+      'points' in sweep.spec.sampler
+        ? `${sweep.spec.sampler.kind} (${sweep.spec.sampler.points} points)`
+        : sweep.spec.sampler.kind,
     variedNames: sweep.variedNames,
     points: pointCount,
     replicates,
     jobs,
     totalOps,
+    costedPoints: costed.length,
+    checkedPoints: sweep.checkedPoints,
     sample,
     formulas: sweep.derived?.compiled.normalised ?? {},
-    sampleComputed: sample.map((point) => computedParams(sweep, point)),
+    // The first points are among those checked while loading; a formula that still fails shows no values.
+    sampleComputed: sample.map((point) => {
+      try {
+        return computedParams(sweep, point);
+      } catch {
+        return {};
+      }
+    }),
     calibration,
     coreHours: secondsPerOp === null ? null : (totalOps * secondsPerOp) / 3600,
     ...(range === undefined || refine === undefined
@@ -253,7 +278,14 @@ export function formatPlan(plan: SweepPlan, options: PlanTextOptions): string {
   if (options.otherSweepDir !== undefined) {
     row('results', `none counted: ${options.otherSweepDir} holds another sweep of this name (run would refuse it)`);
   }
-  row('work', `${plan.totalOps.toPrecision(3)} operations (the model's own estimate)`);
+  if (plan.checkedPoints < plan.points) {
+    row(
+      'checked',
+      `${count(plan.checkedPoints)} of ${count(plan.points)} points against the model (the others when they run)`,
+    );
+  }
+  const from = plan.costedPoints < plan.points ? `, from ${count(plan.costedPoints)} of the points` : '';
+  row('work', `${plan.totalOps.toPrecision(3)} operations (the model's own estimate${from})`);
   const c = plan.calibration;
   if (c === null) {
     row('estimate', 'not calibrated (--calibrate 0); operations only');

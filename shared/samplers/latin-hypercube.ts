@@ -1,4 +1,5 @@
 import { createRandom } from '../random.js';
+import type { DrawingSampler } from './sampler.js';
 
 /**
  * Latin hypercube sample (McKay, Beckman & Conover 1979): each dimension is cut
@@ -34,3 +35,12 @@ export function* latinHypercubeUnitPoints(count: number, dimensions: number, see
     yield point;
   }
 }
+
+export const latinHypercubeSampler = {
+  kind: 'lhs',
+  help: 'Latin hypercube: one point in each of N equal strata of every dimension',
+  ranges: ['between', 'among', 'list'],
+  needsPoints: true,
+  maxDimensions: Number.POSITIVE_INFINITY,
+  unitPoints: latinHypercubeUnitPoints,
+} as const satisfies DrawingSampler;

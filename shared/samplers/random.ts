@@ -1,4 +1,5 @@
 import { createRandom } from '../random.js';
+import type { DrawingSampler } from './sampler.js';
 
 /**
  * Independent uniform draws in the unit cube. Point i uses draws
@@ -13,3 +14,12 @@ export function* randomUnitPoints(count: number, dimensions: number, seed: numbe
     yield point;
   }
 }
+
+export const randomSampler = {
+  kind: 'random',
+  help: 'Independent uniform draws; asking for more points keeps the earlier ones',
+  ranges: ['between', 'among', 'list'],
+  needsPoints: true,
+  maxDimensions: Number.POSITIVE_INFINITY,
+  unitPoints: randomUnitPoints,
+} as const satisfies DrawingSampler;

@@ -1,3 +1,4 @@
+import type { DrawingSampler } from './sampler.js';
 import { JOE_KUO_ROWS, SOBOL_MAX_DIMENSIONS } from './sobol-directions.js';
 
 const BITS = 32;
@@ -50,3 +51,12 @@ export function* sobolUnitPoints(count: number, dimensions: number): Generator<n
     for (let d = 0; d < dimensions; d++) x[d] = (x[d]! ^ directions[d]![c]!) >>> 0;
   }
 }
+
+export const sobolSampler = {
+  kind: 'sobol',
+  help: `Unscrambled Sobol sequence from the all-zero point (Joe & Kuo 2008), at most ${SOBOL_MAX_DIMENSIONS} varied parameters; seed-free`,
+  ranges: ['between', 'among', 'list'],
+  needsPoints: true,
+  maxDimensions: SOBOL_MAX_DIMENSIONS,
+  unitPoints: (count: number, dimensions: number) => sobolUnitPoints(count, dimensions),
+} as const satisfies DrawingSampler;

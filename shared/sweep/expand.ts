@@ -25,7 +25,6 @@ export function computedParams(sweep: LoadedSweep, point: Point): Readonly<Recor
   if (sweep.derived === undefined) return {};
   const d = derivePoint(sweep.derived, sweep.spec.fixed, point);
   if (!d.success) {
-    // Load evaluated every point; reaching this means the model changed under us.
     throw invalidInput(`point ${JSON.stringify(point)} is not valid for model ${sweep.model.id}`, [
       { path: `derived.${d.name}`, message: d.message },
     ]);
@@ -34,14 +33,26 @@ export function computedParams(sweep: LoadedSweep, point: Point): Readonly<Recor
 }
 
 /**
- * Full parameters of one point, through the model's schema (defaults filled
- * in): model defaults + fixed + the point + computed parameters. Computed
- * values are plain numbers here, so jobs and workers need nothing new.
+ * Full parameters of one point through the model's schema (defaults filled
+ * in): model defaults + fixed + the point + computed parameters, or
+ * undefined when a formula fails or the model refuses them. Computed values
+ * are plain numbers here, so jobs and workers need nothing new.
  */
+export function resolveParams(sweep: LoadedSweep, point: Point): Record<string, unknown> | undefined {
+  let input: Record<string, unknown> = { ...sweep.spec.fixed, ...point };
+  if (sweep.derived !== undefined) {
+    const d = derivePoint(sweep.derived, sweep.spec.fixed, point);
+    if (!d.success) return undefined;
+    input = d.input;
+  }
+  const parsed = sweep.model.params.safeParse(input);
+  return parsed.success ? (parsed.data as Record<string, unknown>) : undefined;
+}
+
+/** As resolveParams, but an InputError naming the field when the point is refused. */
 export function fullParams(sweep: LoadedSweep, point: Point): Record<string, unknown> {
   const parsed = sweep.model.params.safeParse({ ...sweep.spec.fixed, ...point, ...computedParams(sweep, point) });
   if (!parsed.success) {
-    // Load validated every point; reaching this means the model changed under us.
     throw invalidInput(
       `point ${JSON.stringify(point)} is not valid for model ${sweep.model.id}`,
       issuesFromZod(parsed.error.issues, 'params'),
@@ -61,7 +72,11 @@ export function* expandJobs(sweep: LoadedSweep): Generator<PlannedJob> {
   // once per point instead of once per replicate (tests check equality with jobKey).
   const head = `{"model":${JSON.stringify(model.id)},"modelVersion":${JSON.stringify(model.version)},"params":`;
   for (const point of iteratePoints(sweep)) {
-    const params = fullParams(sweep, point);
+    // A large sweep has only a selection of its points checked while loading
+    // (see check-points.ts). A point the model refuses still becomes jobs,
+    // with the parameters as written, so the job runner fails them as
+    // invalid and records why, and every other job runs.
+    const params = resolveParams(sweep, point) ?? { ...sweep.spec.fixed, ...point };
     const prefix = `${head}${canonicalJson(params)},"replicate":`;
     for (let replicate = 0; replicate < spec.replicates; replicate++) {
       const key = sha256Hex(`${prefix}${replicate}}`).slice(0, 32);

@@ -1,5 +1,6 @@
 import { canonicalJson, sha256Hex } from '../canonical-json.js';
 import type { AnyModel } from '../model.js';
+import { samplerFor } from '../samplers/index.js';
 import type { SweepSpec } from './schema.js';
 
 export const SWEEP_FORMAT = 'recallscape-sweep/1';
@@ -9,9 +10,9 @@ export const SWEEP_FORMAT = 'recallscape-sweep/1';
  * they compute: name, model id and version, seed, replicates, the base
  * parameters (model defaults + fixed, as validated: writing a default into
  * `fixed` changes no job, so it changes no hash), vary, sampler and refine; not
- * `report`, which only changes how results are drawn. Sampled sweeps also
+ * `report`, which only changes how results are drawn. Drawn sweeps also
  * hash the order of the varied parameters, because it assigns the sampler's
- * dimensions; a grid's job set does not depend on that order.
+ * dimensions; a product (grid) sweep's job set does not depend on that order.
  * Computed parameters enter as their normalised formulas (printFormula), so
  * spacing and redundant parentheses do not change the hash; a sweep without
  * any keeps the hash it had before the section existed.
@@ -22,7 +23,7 @@ export function sweepHash(
   baseParams: Readonly<Record<string, unknown>>,
   derived: Readonly<Record<string, string>> = {},
 ): string {
-  const order = spec.sampler.kind === 'grid' ? undefined : Object.keys(spec.vary);
+  const order = samplerFor(spec.sampler.kind).needsPoints ? Object.keys(spec.vary) : undefined;
   return sha256Hex(
     canonicalJson({
       format: SWEEP_FORMAT,

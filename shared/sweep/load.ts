@@ -1,19 +1,30 @@
-import { readFile } from 'node:fs/promises';
-import { parse as parseYaml } from 'yaml';
 import { z } from 'zod';
-import { type FieldIssue, InputError, invalidInput, issuesFromZod } from '../errors.js';
+import { type FieldIssue, InputError, invalidInput, issuesFromZod, shorten } from '../errors.js';
 import { type DerivedSetup, derivedSetup } from '../formula/derive-point.js';
 import { compileDerived } from '../formula/derived-params.js';
 import type { AnyModel } from '../model.js';
 import { findModel, listModels } from '../models/registry.js';
-import { paramNames, unknownParamIssue } from '../param-names.js';
+import { isParamName, paramNames, unknownParamIssue } from '../param-names.js';
 import { refineIssues } from '../refine/validate.js';
+import { DEFAULT_SAMPLER, type SamplerDescriptor, samplerFor, samplersAccepting } from '../samplers/index.js';
+import { checkBudget, checkPoints } from './check-points.js';
+import { documentIssues } from './document-limits.js';
 import { SWEEP_FORMAT, sweepHash } from './hash.js';
 import { checkJobLimit } from './job-limit.js';
-import { iteratePoints, requestedPointCount, variedNamesOf } from './points.js';
-import { RANGE_SCHEMAS, type Range, type RangeKind, rangeKindOf } from './ranges.js';
-import { MAX_GRID_POINTS, SPEC_FIELD_ORDER, SweepFileSchema, type SweepSpec } from './schema.js';
-import { validatePoints } from './validate-points.js';
+import { SWEEP_LIMITS } from './limits.js';
+import { parseDocument } from './parse-document.js';
+import { countPoints, requestedPointCount, variedNamesOf } from './points.js';
+import {
+  RANGE_FORMS,
+  RANGE_SCHEMAS,
+  type Range,
+  type RangeKind,
+  rangeKindOf,
+  rangeSize,
+  repeatedStepValue,
+} from './ranges.js';
+import { readSweepFile } from './read-sweep-file.js';
+import { SamplerSchema, SPEC_FIELD_ORDER, SweepFileSchema, type SweepSpec } from './schema.js';
 
 export { SWEEP_FORMAT } from './hash.js';
 
@@ -30,6 +41,8 @@ export interface LoadedSweep {
   readonly source: string | null;
   /** Distinct parameter points (jobs = pointCount x replicates). */
   readonly pointCount: number;
+  /** Points run through the model's schema while loading: all of them, or a selection of a large sweep. */
+  readonly checkedPoints: number;
   /** Computed parameters (the `derived` section), compiled; undefined when there are none. */
   readonly derived: DerivedSetup | undefined;
 }
@@ -54,8 +67,6 @@ export const StoredSweepSchema = z
   .strict();
 export type StoredSweep = z.infer<typeof StoredSweepSchema>;
 
-const MAX_FILE_BYTES = 5 * 1024 * 1024;
-
 const ALLOWED_KEYS: Record<string, readonly string[]> = {
   '': SPEC_FIELD_ORDER,
   report: ['x', 'y', 'facet', 'metric', 'bins'],
@@ -63,57 +74,49 @@ const ALLOWED_KEYS: Record<string, readonly string[]> = {
   'refine.replicates': ['start', 'max'],
 };
 
-/** Stage one: everything except the ranges, which get a per-kind check. */
+/**
+ * The fields, except the ranges, which get a check by their kind (so an
+ * error names the kind meant). `fixed` is not walked again: the document
+ * checks have already held every value in it to plain JSON data.
+ */
 const TopLevelSchema = SweepFileSchema.extend({
+  fixed: z
+    .record(z.string(), z.unknown(), { error: 'fixed maps parameter names to values' })
+    .default({}) as unknown as (typeof SweepFileSchema.shape)['fixed'],
   vary: z.record(z.string(), z.unknown(), { error: 'vary maps parameter names to ranges' }).default({}),
 });
 
-function fail(source: string, issues: readonly FieldIssue[]): never {
-  throw invalidInput(`${source} is not a valid sweep file`, issues);
+class Refusal {
+  constructor(readonly issues: readonly FieldIssue[]) {}
 }
 
-/** YAML or JSON, decided by trying to parse (JSON first, then YAML 1.2). */
-function parseDocument(text: string, source: string): unknown {
-  let value: unknown;
-  try {
-    value = JSON.parse(text);
-  } catch {
-    try {
-      value = parseYaml(text, { uniqueKeys: true, maxAliasCount: 100, prettyErrors: true });
-    } catch (error) {
-      const detail = (error instanceof Error ? (error.message.split('\n')[0] ?? '') : String(error)).replace(
-        /:\s*$/,
-        '',
-      );
-      throw new InputError(`${source}: not a YAML or JSON file (${detail})`, [
-        { path: '(file)', message: `${source} is neither YAML nor JSON: ${detail}` },
-      ]);
-    }
-  }
-  if (value === null || typeof value !== 'object' || Array.isArray(value)) {
-    const got =
-      value === null || value === undefined ? 'nothing' : Array.isArray(value) ? 'a list' : `a ${typeof value}`;
-    throw new InputError(
-      `${source}: not a sweep file: expected a YAML or JSON mapping with name, model, seed, replicates, fixed, vary, sampler, report; got ${got}`,
-      [{ path: '(file)', message: `expected a mapping of sweep fields, got ${got}` }],
-    );
-  }
-  return value;
+/** Stop the pipeline when a stage found problems; `buildSweep` turns them into one InputError. */
+function stopIf(issues: readonly FieldIssue[]): void {
+  if (issues.length > 0) throw new Refusal(issues);
 }
 
-const RANGE_HELP: Record<'grid' | 'sampled', string> = {
-  grid: 'with the grid sampler use { list: [...] } or { from, to, steps, scale? }',
-  sampled:
-    'with the random, lhs and sobol samplers use { between: [low, high], scale?, integer? }, { among: [...] } or { list: [...] }',
-};
+const list = (words: readonly string[], last: string): string =>
+  words.length <= 1 ? (words[0] ?? '') : `${words.slice(0, -1).join(', ')} ${last} ${words.at(-1)}`;
 
-/** Parse each range by the kind its leading key names, and check it suits the sampler. */
-function parseRanges(
-  rawVary: Record<string, unknown>,
-  samplerKind: string,
-  issues: FieldIssue[],
-): Record<string, Range> {
-  const grid = samplerKind === 'grid';
+/** "with the grid sampler use { list: [...] } or { from, to, steps, scale? }", from the descriptor. */
+function rangeHelp(sampler: SamplerDescriptor): string {
+  return `with the ${sampler.kind} sampler use ${list(
+    sampler.ranges.map((k) => RANGE_FORMS[k].syntax),
+    'or',
+  )}`;
+}
+
+// ---- Stage 1: the document -------------------------------------------------
+
+/** Sizes, nesting and values no sweep needs are refused before any schema looks at the file. */
+function checkDocument(raw: unknown): void {
+  stopIf(documentIssues(raw));
+}
+
+// ---- Stage 2: the fields ---------------------------------------------------
+
+/** Each range by the kind its leading key names, checked against what the sampler takes. */
+function parseRanges(rawVary: Record<string, unknown>, sampler: SamplerDescriptor, issues: FieldIssue[]) {
   const out: Record<string, Range> = {};
   for (const [name, raw] of Object.entries(rawVary)) {
     const path = `vary.${name}`;
@@ -121,21 +124,16 @@ function parseRanges(
     if (kind === undefined) {
       issues.push({
         path,
-        message: `a range is an object with one of list, from/to/steps, between or among; ${RANGE_HELP[grid ? 'grid' : 'sampled']}`,
+        message: `a range is an object with one of list, from/to/steps, between or among; ${rangeHelp(sampler)}`,
       });
       continue;
     }
-    if (grid && (kind === 'between' || kind === 'among')) {
+    if (!sampler.ranges.includes(kind)) {
+      const takers = samplersAccepting(kind).map((s) => s.kind);
+      const what = kind === 'steps' ? 'from/to/steps' : `\`${kind}\``;
       issues.push({
-        path: `${path}.${kind}`,
-        message: `\`${kind}\` needs a random, lhs or sobol sampler; ${RANGE_HELP.grid}`,
-      });
-      continue;
-    }
-    if (!grid && kind === 'steps') {
-      issues.push({
-        path: `${path}.from`,
-        message: `from/to/steps is a grid range; ${RANGE_HELP.sampled} (or use sampler: { kind: grid })`,
+        path: `${path}.${RANGE_FORMS[kind].key}`,
+        message: `${what} needs the ${list(takers, 'or')} sampler; ${rangeHelp(sampler)}`,
       });
       continue;
     }
@@ -150,47 +148,58 @@ function parseRanges(
   return out;
 }
 
-/** Put the spec's fields in canonical order (sweep.json is written like this). */
-function orderSpec(spec: SweepSpec): SweepSpec {
-  const ordered: Record<string, unknown> = {};
-  for (const key of SPEC_FIELD_ORDER) if (spec[key] !== undefined) ordered[key] = spec[key];
-  return ordered as SweepSpec;
+/** The sampler named by a file whose other fields may be wrong (its ranges are still worth checking). */
+function samplerOf(raw: Record<string, unknown>): SamplerDescriptor {
+  const parsed = SamplerSchema.safeParse(raw['sampler']);
+  return samplerFor(parsed.success ? parsed.data.kind : DEFAULT_SAMPLER);
 }
 
-/** Build a loaded sweep from a parsed document (a sweep file or sweep.json's `sweep`). */
-export function buildSweep(raw: unknown, source: string, options: ParseOptions = {}): LoadedSweep {
+/** The normalised spec, in canonical field order (sweep.json is written like this). */
+function parseFields(raw: unknown): SweepSpec {
   const issues: FieldIssue[] = [];
   const top = TopLevelSchema.safeParse(raw);
   if (!top.success) issues.push(...issuesFromZod(top.error.issues, { allowedAt: (p) => ALLOWED_KEYS[p] }));
   const rawObject = raw as Record<string, unknown>;
-  const samplerKind = top.success
-    ? top.data.sampler.kind
-    : typeof (rawObject['sampler'] as { kind?: unknown } | undefined)?.kind === 'string'
-      ? String((rawObject['sampler'] as { kind: string }).kind)
-      : 'grid';
   const rawVary = top.success ? top.data.vary : rawObject['vary'];
+  const sampler = top.success ? samplerFor(top.data.sampler.kind) : samplerOf(rawObject);
   const vary =
     rawVary !== null && typeof rawVary === 'object' && !Array.isArray(rawVary)
-      ? parseRanges(rawVary as Record<string, unknown>, samplerKind, issues)
+      ? parseRanges(rawVary as Record<string, unknown>, sampler, issues)
       : {};
-  if (issues.length > 0 || !top.success) fail(source, issues);
-
-  const spec = orderSpec({ ...top.data, vary });
-  const model = findModel(spec.model);
-  if (model === undefined) {
-    const known = listModels()
-      .map((m) => m.id)
-      .join(', ');
-    fail(source, [{ path: 'model', message: `unknown model "${spec.model}"; known models: ${known}` }]);
+  stopIf(issues);
+  if (!top.success) throw new Refusal(issues);
+  const spec: Record<string, unknown> = {};
+  for (const key of SPEC_FIELD_ORDER) {
+    const value = key === 'vary' ? vary : top.data[key];
+    // Optional sections left out stay out (sweep.json and the hash never see them).
+    if (value !== undefined) spec[key] = value;
   }
+  return spec as SweepSpec;
+}
 
-  // Parameter names against the model, before any value is looked at.
-  const known = new Set(paramNames(model));
+// ---- Stage 3: the model ----------------------------------------------------
+
+function resolveModel(spec: SweepSpec): AnyModel {
+  const model = findModel(spec.model);
+  if (model !== undefined) return model;
+  const known = listModels()
+    .map((m) => m.id)
+    .join(', ');
+  throw new Refusal([{ path: 'model', message: `unknown model "${shorten(spec.model)}"; known models: ${known}` }]);
+}
+
+/**
+ * Parameter names against the model, report axes against the varied names,
+ * and the computed parameters' names and formulas (compiled, in dependency
+ * order), before any value is looked at.
+ */
+function checkNames(spec: SweepSpec, model: AnyModel, raw: Record<string, unknown>): DerivedSetup | undefined {
+  const issues: FieldIssue[] = [];
   const variedNames = variedNamesOf(spec);
   for (const name of Object.keys(spec.fixed))
-    if (!known.has(name)) issues.push(unknownParamIssue(`fixed.${name}`, name, model));
+    if (!isParamName(model, name)) issues.push(unknownParamIssue(`fixed.${name}`, name, model));
   for (const name of variedNames) {
-    if (!known.has(name)) issues.push(unknownParamIssue(`vary.${name}`, name, model));
+    if (!isParamName(model, name)) issues.push(unknownParamIssue(`vary.${name}`, name, model));
     if (Object.hasOwn(spec.fixed, name)) {
       issues.push({
         path: `vary.${name}`,
@@ -199,15 +208,14 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
     }
   }
   const varied = new Set(variedNames);
-  const axes: Array<'x' | 'y' | 'facet'> = ['x', 'y', 'facet'];
   const used = new Map<string, string>();
-  for (const axis of axes) {
+  for (const axis of ['x', 'y', 'facet'] as const) {
     const name = spec.report[axis];
     if (name === undefined) continue;
     if (!varied.has(name)) {
       issues.push({
         path: `report.${axis}`,
-        message: `"${name}" is not a varied parameter; use one of: ${variedNames.join(', ') || '(none: vary has no parameters)'}`,
+        message: `"${shorten(name)}" is not a varied parameter; use one of: ${variedNames.join(', ') || '(none: vary has no parameters)'}`,
       });
     } else if (used.has(name)) {
       issues.push({
@@ -218,21 +226,19 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
       used.set(name, axis);
     }
   }
-  // Computed parameters: names, formulas and their order, before any point.
   let derived: DerivedSetup | undefined;
-  const rawDerived = rawObject['derived'];
   let derivedNamesKnown = true;
+  const rawDerived = raw['derived'];
   if (rawDerived !== null && typeof rawDerived === 'object') {
-    // Keys of the raw object: __proto__ does not survive parsing into a record; refuse it rather than drop it.
     for (const key of Object.keys(rawDerived)) {
-      if (Object.hasOwn(spec.derived, key) && known.has(key)) continue;
+      if (Object.hasOwn(spec.derived, key) && isParamName(model, key)) continue;
       issues.push(unknownParamIssue(`derived.${key}`, key, model));
       derivedNamesKnown = false;
     }
   }
   if (derivedNamesKnown && Object.keys(spec.derived).length > 0) {
     const compiled = compileDerived(spec.derived, {
-      known: [...known],
+      known: paramNames(model),
       fixed: Object.keys(spec.fixed),
       varied: variedNames,
     });
@@ -248,52 +254,128 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
       issues.push(...compiled.issues);
     }
   }
-  // A stored sweep (sweep.json) holds the normalised replicates; only a person's file is checked for both.
-  issues.push(...refineIssues(spec, options.stored !== true && Object.hasOwn(rawObject, 'replicates')));
-  if (spec.sampler.kind === 'sobol' && variedNames.length > 40) {
-    issues.push({
-      path: 'vary',
-      message: `the sobol sampler supports at most 40 varied parameters, got ${variedNames.length}`,
-    });
-  }
-  if (issues.length > 0) fail(source, issues);
+  stopIf(issues);
+  return derived;
+}
 
-  const requested = requestedPointCount(spec);
-  // An adaptive sweep is limited by its starting grid at the most replicates a point may get.
-  const perPoint = spec.refine?.replicates.max ?? spec.replicates;
-  if (spec.sampler.kind === 'grid' && requested > MAX_GRID_POINTS) {
-    fail(source, [
+/** Most replicates one point may get: `replicates`, or refine's maximum for an adaptive sweep. */
+function replicatesPerPoint(spec: SweepSpec): number {
+  return spec.refine?.replicates.max ?? spec.replicates;
+}
+
+// ---- Stage 4: sizes, by arithmetic -----------------------------------------
+
+/**
+ * Every size limit, from the numbers in the spec alone: nothing has been
+ * expanded yet, so a range of 10^12 steps costs no more than one of 10.
+ */
+function checkSizes(spec: SweepSpec, options: ParseOptions): void {
+  const sampler = samplerFor(spec.sampler.kind);
+  const dimensions = variedNamesOf(spec).length;
+  if (dimensions > sampler.maxDimensions) {
+    throw new Refusal([
       {
         path: 'vary',
-        message: `the grid has ${requested} points, more than the most a sweep may have (${MAX_GRID_POINTS}); use fewer values or a sampler with points: N`,
+        message: `the ${sampler.kind} sampler supports at most ${sampler.maxDimensions} varied parameters, got ${dimensions}`,
       },
     ]);
   }
-  if (options.jobLimit !== undefined && spec.sampler.kind === 'grid') {
-    checkJobLimit(requested * perPoint, options.jobLimit);
+  const requested = requestedPointCount(spec);
+  if (!sampler.needsPoints && requested > SWEEP_LIMITS.gridPoints) {
+    const sizes = Object.values(spec.vary).map(rangeSize);
+    throw new Refusal([
+      {
+        path: 'vary',
+        message: `the ${sampler.kind} has ${sizes.join(' x ')} = ${requested} points, more than the most a sweep may have (${SWEEP_LIMITS.gridPoints}); use fewer values or a sampler with points: N`,
+      },
+    ]);
   }
+  if (sampler.needsPoints && requested * dimensions > SWEEP_LIMITS.sampledValues) {
+    throw new Refusal([
+      {
+        path: 'sampler.points',
+        message: `${requested} points x ${dimensions} varied parameters = ${requested * dimensions} drawn values, more than the ${SWEEP_LIMITS.sampledValues} a sweep may have; use fewer points or fewer varied parameters`,
+      },
+    ]);
+  }
+  // Drawn points may still merge (repeats are dropped), so only a product's count is final here.
+  if (options.jobLimit !== undefined && !sampler.needsPoints) {
+    checkJobLimit(requested * replicatesPerPoint(spec), options.jobLimit);
+  }
+}
 
-  // Every point merged with the model defaults and `fixed`, through the model's schema.
-  const checked = validatePoints(spec, model, iteratePoints({ spec }), derived);
-  if (checked.issues.length > 0) fail(source, checked.issues);
-  if (options.jobLimit !== undefined) checkJobLimit(checked.pointCount * perPoint, options.jobLimit);
+// ---- Stage 5: the values of the ranges -------------------------------------
 
+/** Repeated grid values, and an adaptive sweep's `refine` against its ranges (it reads their values). */
+function checkRangeValues(spec: SweepSpec, raw: Record<string, unknown>, options: ParseOptions): void {
+  const issues: FieldIssue[] = [];
+  for (const [name, range] of Object.entries(spec.vary)) {
+    if (!('steps' in range)) continue;
+    const repeated = repeatedStepValue(range);
+    if (repeated !== undefined) {
+      issues.push({
+        path: `vary.${name}.steps`,
+        message: `${range.steps} steps from ${range.from} to ${range.to} are closer than the 12-significant-digit precision of grid values, so the value ${repeated} would repeat; use fewer steps or ends further apart`,
+      });
+    }
+  }
+  // A stored sweep (sweep.json) holds the normalised replicates; only a person's file is checked for both.
+  issues.push(...refineIssues(spec, options.stored !== true && Object.hasOwn(raw, 'replicates')));
+  stopIf(issues);
+}
+
+// ---- Stage 6: the points ---------------------------------------------------
+
+/** Counts the distinct points and runs them (or a selection) through the model's schema. */
+function checkModelPoints(spec: SweepSpec, model: AnyModel, derived: DerivedSetup | undefined, options: ParseOptions) {
+  const { count: pointCount, leading } = countPoints({ spec }, checkBudget({ spec }));
+  if (options.jobLimit !== undefined) checkJobLimit(pointCount * replicatesPerPoint(spec), options.jobLimit);
+  const check = checkPoints({ spec, derived }, model, pointCount, leading);
+  stopIf(check.issues);
+  return { pointCount, checkedPoints: check.checked };
+}
+
+function baseParamsOf(spec: SweepSpec, model: AnyModel): Record<string, unknown> {
   const base = model.params.safeParse(spec.fixed);
+  if (base.success) return base.data as Record<string, unknown>;
   const defaults = model.params.safeParse({});
-  const baseParams: Record<string, unknown> = base.success
-    ? (base.data as Record<string, unknown>)
-    : { ...(defaults.success ? (defaults.data as Record<string, unknown>) : {}), ...spec.fixed };
+  return { ...(defaults.success ? (defaults.data as Record<string, unknown>) : {}), ...spec.fixed };
+}
 
-  return {
-    spec,
-    hash: sweepHash(spec, model, baseParams, derived?.compiled.normalised),
-    model,
-    baseParams,
-    variedNames,
-    source,
-    pointCount: checked.pointCount,
-    derived,
-  };
+/**
+ * Build a loaded sweep from a parsed document (a sweep file or sweep.json's
+ * `sweep`). The stages run in order and each stops the load when it finds a
+ * problem: the document's sizes and nesting, the fields, the model and the
+ * names (computed parameters compiled), every size limit by arithmetic, the
+ * range values (and an adaptive sweep's refine section), then the points.
+ * Nothing is expanded before every size is known to be within its limit.
+ */
+export function buildSweep(raw: unknown, source: string, options: ParseOptions = {}): LoadedSweep {
+  try {
+    checkDocument(raw);
+    const spec = parseFields(raw);
+    const model = resolveModel(spec);
+    const rawObject = raw as Record<string, unknown>;
+    const derived = checkNames(spec, model, rawObject);
+    checkSizes(spec, options);
+    checkRangeValues(spec, rawObject, options);
+    const { pointCount, checkedPoints } = checkModelPoints(spec, model, derived, options);
+    const baseParams = baseParamsOf(spec, model);
+    return {
+      spec,
+      hash: sweepHash(spec, model, baseParams, derived?.compiled.normalised),
+      model,
+      baseParams,
+      variedNames: variedNamesOf(spec),
+      source,
+      pointCount,
+      checkedPoints,
+      derived,
+    };
+  } catch (error) {
+    if (error instanceof Refusal) throw invalidInput(`${source} is not a valid sweep file`, error.issues);
+    throw error;
+  }
 }
 
 /** Parse and validate the text of a sweep file (YAML or JSON). Throws InputError. */
@@ -303,29 +385,7 @@ export function parseSweepText(text: string, sourceName: string, options: ParseO
 
 /** Read, parse and validate a sweep file. Throws InputError. */
 export async function loadSweepFile(path: string, options: ParseOptions = {}): Promise<LoadedSweep> {
-  let text: string;
-  try {
-    const buffer = await readFile(path);
-    if (buffer.length > MAX_FILE_BYTES) {
-      throw new InputError(`${path}: the sweep file is ${buffer.length} bytes, more than ${MAX_FILE_BYTES}`, [
-        { path: '(file)', message: 'file too large' },
-      ]);
-    }
-    text = buffer.toString('utf8');
-  } catch (error) {
-    if (error instanceof InputError) throw error;
-    const code = (error as NodeJS.ErrnoException).code;
-    const why =
-      code === 'ENOENT'
-        ? 'no such file'
-        : code === 'EISDIR'
-          ? 'is a folder, not a sweep file'
-          : code === 'EACCES'
-            ? 'permission denied'
-            : String((error as Error).message);
-    throw new InputError(`${path}: ${why}`, [{ path: '(file)', message: `${path}: ${why}` }]);
-  }
-  return parseSweepText(text, path, options);
+  return parseSweepText(await readSweepFile(path), path, options);
 }
 
 /** A loaded sweep from the contents of sweep.json; its hash must still match this build. */
@@ -347,4 +407,3 @@ export function sweepFromStored(json: unknown, where = 'sweep.json'): LoadedSwee
   }
   return { ...loaded, source: stored.data.source };
 }
-export { sweepJsonSchema } from './json-schema.js';

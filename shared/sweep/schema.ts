@@ -2,50 +2,68 @@ import { z } from 'zod';
 import { FORMULA_LIMITS } from '../formula/formula-limits.js';
 import { DEFAULT_MODEL_ID } from '../models/registry.js';
 import { RefineSchema } from '../refine/schema.js';
+import {
+  DEFAULT_SAMPLER,
+  SAMPLER_KINDS,
+  SAMPLERS,
+  type SamplerDescriptor,
+  type SamplerKind,
+} from '../samplers/index.js';
 import { BinsSchema } from './bins.js';
+import { SWEEP_LIMITS } from './limits.js';
 import { SweepNameSchema } from './name.js';
 import { RangeSchema } from './ranges.js';
 
-export * from './ranges.js';
+export type { SamplerKind } from '../samplers/index.js';
 
-/** Hard ceilings that keep a typo from planning a billion jobs. */
-export const MAX_REPLICATES = 100_000;
-export const MAX_SAMPLED_POINTS = 1_000_000;
-export const MAX_GRID_POINTS = 5_000_000;
+const POINTS_RULE = `a whole number from 1 to ${SWEEP_LIMITS.sampledPoints}`;
 
 const PointsSchema = z
-  .number({ error: `the random, lhs and sobol samplers need points: a whole number from 1 to ${MAX_SAMPLED_POINTS}` })
-  .int('points must be a whole number')
-  .min(1, 'points must be at least 1')
-  .max(MAX_SAMPLED_POINTS, `points must be at most ${MAX_SAMPLED_POINTS}`)
+  .number({ error: `points must be ${POINTS_RULE}` })
+  .int(`points must be ${POINTS_RULE}`)
+  .min(1, `points must be ${POINTS_RULE}`)
+  .max(SWEEP_LIMITS.sampledPoints, `points must be ${POINTS_RULE}`)
   .describe('Number of parameter points to draw');
 
+/** `{ kind }` for a product sampler, `{ kind, points }` for a drawing one. */
+type SamplerObject =
+  | z.ZodObject<{ kind: z.ZodLiteral<SamplerKind> }, z.core.$strict>
+  | z.ZodObject<{ kind: z.ZodLiteral<SamplerKind>; points: typeof PointsSchema }, z.core.$strict>;
+
+const samplerObject = (sampler: SamplerDescriptor<SamplerKind>): SamplerObject =>
+  sampler.needsPoints
+    ? z
+        .object({ kind: z.literal(sampler.kind), points: PointsSchema })
+        .strict()
+        .describe(sampler.help)
+    : z
+        .object({ kind: z.literal(sampler.kind) })
+        .strict()
+        .describe(sampler.help);
+
+const drawing = SAMPLERS.filter((s) => s.needsPoints).map((s) => s.kind);
+
+/** What the `sampler` field holds: `{ kind }`, plus `points` for a drawing sampler; one variant per registered sampler. */
+type SamplerShape<S> = S extends { readonly kind: infer K; readonly needsPoints: true }
+  ? { kind: K; points: number }
+  : S extends { readonly kind: infer K }
+    ? { kind: K }
+    : never;
+export type Sampler = SamplerShape<(typeof SAMPLERS)[number]>;
+
+/**
+ * The `sampler` field: one object shape per registered sampler, told apart
+ * by `kind`. Built from the descriptors, so its static type is stated from
+ * them too (a list built at run time cannot carry each variant's type).
+ */
 export const SamplerSchema = z
-  .discriminatedUnion(
-    'kind',
-    [
-      z
-        .object({ kind: z.literal('grid') })
-        .strict()
-        .describe('Full product of the ranges'),
-      z
-        .object({ kind: z.literal('random'), points: PointsSchema })
-        .strict()
-        .describe('Independent uniform draws'),
-      z
-        .object({ kind: z.literal('lhs'), points: PointsSchema })
-        .strict()
-        .describe('Latin hypercube'),
-      z
-        .object({ kind: z.literal('sobol'), points: PointsSchema })
-        .strict()
-        .describe('Unscrambled Sobol sequence'),
-    ],
-    { error: 'sampler.kind must be one of grid, random, lhs, sobol' },
-  )
-  .default({ kind: 'grid' });
-export type Sampler = z.output<typeof SamplerSchema>;
-export type SamplerKind = Sampler['kind'];
+  .discriminatedUnion('kind', SAMPLERS.map(samplerObject) as [SamplerObject, ...SamplerObject[]], {
+    error: (issue) =>
+      issue.code === 'invalid_union' && issue.note === 'No matching discriminator'
+        ? `sampler.kind must be one of ${SAMPLER_KINDS.join(', ')}`
+        : `sampler must be { kind: ${SAMPLER_KINDS.join(' | ')} } (${drawing.join(', ')} also need points: ${POINTS_RULE})`,
+  })
+  .default({ kind: DEFAULT_SAMPLER }) as unknown as z.ZodDefault<z.ZodType<Sampler>>;
 
 export const ReportSchema = z
   .object({
@@ -69,24 +87,32 @@ export const FormulaTextSchema = z
   .describe(
     'Formula over parameter names: numbers, + - * / % ^ (power), unary -, parentheses, < <= > >= == !=, a ? b : c, and min, max, abs, sqrt, exp, log, log2, log10, floor, ceil, round, pow',
   );
+const REPLICATES_RULE = `replicates must be a whole number from 1 to ${SWEEP_LIMITS.replicates}`;
+const MODEL_RULE = 'model must be a model id of 1 to 100 characters';
+const SEED_RULE = 'seed must be a whole number from 0 to 2^53 - 1';
 
 /** The sweep file. Unknown keys are rejected at every level. */
 export const SweepFileSchema = z
   .object({
     name: SweepNameSchema,
-    model: z.string().min(1).max(100).default(DEFAULT_MODEL_ID).describe('Model id'),
+    model: z
+      .string({ error: MODEL_RULE })
+      .min(1, MODEL_RULE)
+      .max(100, MODEL_RULE)
+      .default(DEFAULT_MODEL_ID)
+      .describe('Model id'),
     seed: z
-      .number({ error: 'seed must be a whole number from 0 to 2^53 - 1' })
-      .int('seed must be a whole number from 0 to 2^53 - 1')
-      .min(0, 'seed must be a whole number from 0 to 2^53 - 1')
-      .max(Number.MAX_SAFE_INTEGER, 'seed must be a whole number from 0 to 2^53 - 1')
+      .number({ error: SEED_RULE })
+      .int(SEED_RULE)
+      .min(0, SEED_RULE)
+      .max(Number.MAX_SAFE_INTEGER, SEED_RULE)
       .default(0)
       .describe('Root seed; every job seed derives from it and the job key'),
     replicates: z
-      .number({ error: `replicates must be a whole number from 1 to ${MAX_REPLICATES}` })
-      .int(`replicates must be a whole number from 1 to ${MAX_REPLICATES}`)
-      .min(1, `replicates must be a whole number from 1 to ${MAX_REPLICATES}`)
-      .max(MAX_REPLICATES, `replicates must be a whole number from 1 to ${MAX_REPLICATES}`)
+      .number({ error: REPLICATES_RULE })
+      .int(REPLICATES_RULE)
+      .min(1, REPLICATES_RULE)
+      .max(SWEEP_LIMITS.replicates, REPLICATES_RULE)
       .default(1)
       .describe('Independent trials per parameter point'),
     fixed: z.record(z.string(), z.json()).default({}).describe('Parameters held at one value'),
@@ -111,16 +137,5 @@ export type SweepSpec = z.output<typeof SweepFileSchema>;
 /** What a person may write. */
 export type SweepFileInput = z.input<typeof SweepFileSchema>;
 
-/** Top-level field order of a normalised spec (sweep.json is written in it). */
-export const SPEC_FIELD_ORDER = [
-  'name',
-  'model',
-  'seed',
-  'replicates',
-  'fixed',
-  'vary',
-  'derived',
-  'sampler',
-  'report',
-  'refine',
-] as const;
+/** Top-level field order of a normalised spec (sweep.json is written in it): the schema's own order. */
+export const SPEC_FIELD_ORDER = Object.keys(SweepFileSchema.shape) as ReadonlyArray<keyof SweepSpec>;
