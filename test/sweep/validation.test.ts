@@ -124,7 +124,7 @@ describe('sweep file validation', () => {
     expect(
       issueAt(rejection('name: s\nmodel: no-op\nvary:\n  value: { from: 0, to: 1, steps: 0 }\n'), 'vary.value.steps')
         .message,
-    ).toContain('at least 1');
+    ).toBe('steps must be a whole number from 1 to 100000');
     expect(issueAt(rejection('name: s\nmodel: no-op\nvary:\n  value: {}\n'), 'vary.value').message).toContain(
       'list, from/to/steps, between or among',
     );
