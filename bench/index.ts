@@ -11,6 +11,7 @@ const SECTIONS: readonly Section[] = [
   { name: 'embedded', load: () => import('./embedded.js') },
   { name: 'queue', load: () => import('./queue.js') },
   { name: 'summarize', load: () => import('./summarize.js') },
+  { name: 'validation', load: () => import('./validation.js') },
   { name: 'external', load: () => import('./external.js') },
   { name: 'startup', load: () => import('./startup.js') },
 ];
