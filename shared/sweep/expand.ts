@@ -49,6 +49,18 @@ export function resolveParams(sweep: LoadedSweep, point: Point): Record<string, 
   return parsed.success ? (parsed.data as Record<string, unknown>) : undefined;
 }
 
+/**
+ * The parameters a job of a refused point carries: what the file gives, with
+ * the computed values; a computed parameter whose formula failed is null, so
+ * the model refuses the job as it would any other bad value (a job must
+ * never run with a default in place of a failed formula).
+ */
+function refusedParams(sweep: LoadedSweep, point: Point): Record<string, unknown> {
+  if (sweep.derived === undefined) return { ...sweep.spec.fixed, ...point };
+  const d = derivePoint(sweep.derived, sweep.spec.fixed, point);
+  return d.success ? d.input : { ...sweep.spec.fixed, ...point, [d.name]: null };
+}
+
 /** As resolveParams, but an InputError naming the field when the point is refused. */
 export function fullParams(sweep: LoadedSweep, point: Point): Record<string, unknown> {
   const parsed = sweep.model.params.safeParse({ ...sweep.spec.fixed, ...point, ...computedParams(sweep, point) });
@@ -76,7 +88,7 @@ export function* expandJobs(sweep: LoadedSweep): Generator<PlannedJob> {
     // (see check-points.ts). A point the model refuses still becomes jobs,
     // with the parameters as written, so the job runner fails them as
     // invalid and records why, and every other job runs.
-    const params = resolveParams(sweep, point) ?? { ...sweep.spec.fixed, ...point };
+    const params = resolveParams(sweep, point) ?? refusedParams(sweep, point);
     const prefix = `${head}${canonicalJson(params)},"replicate":`;
     for (let replicate = 0; replicate < spec.replicates; replicate++) {
       const key = sha256Hex(`${prefix}${replicate}}`).slice(0, 32);

@@ -18,8 +18,8 @@ export const SWEEP_LIMITS = {
   mapKeys: 1_000,
   /** Characters of one key. */
   keyLength: 200,
-  /** Characters of one string value. */
-  stringLength: 10_000,
+  /** Characters of one text value in a range (`list`, `among`). */
+  rangeText: 1_000,
   replicates: 100_000,
   /** Values of one from/to/steps range. */
   steps: 100_000,

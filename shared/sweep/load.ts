@@ -193,13 +193,25 @@ function resolveModel(spec: SweepSpec): AnyModel {
  * and the computed parameters' names and formulas (compiled, in dependency
  * order), before any value is looked at.
  */
-function checkNames(spec: SweepSpec, model: AnyModel, raw: Record<string, unknown>): DerivedSetup | undefined {
+function checkNames(
+  spec: SweepSpec,
+  model: AnyModel,
+  raw: Record<string, unknown>,
+  options: ParseOptions,
+): DerivedSetup | undefined {
   const issues: FieldIssue[] = [];
   const variedNames = variedNamesOf(spec);
-  for (const name of Object.keys(spec.fixed))
+  // Names as the file wrote them: a key such as __proto__ does not survive
+  // parsing into a record, and is refused here rather than dropped.
+  const rawKeys = (section: string): string[] => {
+    const value = raw[section];
+    return value !== null && typeof value === 'object' ? Object.keys(value) : [];
+  };
+  for (const name of rawKeys('fixed'))
     if (!isParamName(model, name)) issues.push(unknownParamIssue(`fixed.${name}`, name, model));
-  for (const name of variedNames) {
+  for (const name of rawKeys('vary'))
     if (!isParamName(model, name)) issues.push(unknownParamIssue(`vary.${name}`, name, model));
+  for (const name of variedNames) {
     if (Object.hasOwn(spec.fixed, name)) {
       issues.push({
         path: `vary.${name}`,
@@ -228,13 +240,10 @@ function checkNames(spec: SweepSpec, model: AnyModel, raw: Record<string, unknow
   }
   let derived: DerivedSetup | undefined;
   let derivedNamesKnown = true;
-  const rawDerived = raw['derived'];
-  if (rawDerived !== null && typeof rawDerived === 'object') {
-    for (const key of Object.keys(rawDerived)) {
-      if (Object.hasOwn(spec.derived, key) && isParamName(model, key)) continue;
-      issues.push(unknownParamIssue(`derived.${key}`, key, model));
-      derivedNamesKnown = false;
-    }
+  for (const key of rawKeys('derived')) {
+    if (Object.hasOwn(spec.derived, key) && isParamName(model, key)) continue;
+    issues.push(unknownParamIssue(`derived.${key}`, key, model));
+    derivedNamesKnown = false;
   }
   if (derivedNamesKnown && Object.keys(spec.derived).length > 0) {
     const compiled = compileDerived(spec.derived, {
@@ -254,6 +263,10 @@ function checkNames(spec: SweepSpec, model: AnyModel, raw: Record<string, unknow
       issues.push(...compiled.issues);
     }
   }
+  // An adaptive sweep's refine section against the ranges it refines along. A
+  // stored sweep (sweep.json) holds the normalised replicates; only a person's
+  // file is checked for both.
+  issues.push(...refineIssues(spec, options.stored !== true && Object.hasOwn(raw, 'replicates')));
   stopIf(issues);
   return derived;
 }
@@ -306,8 +319,8 @@ function checkSizes(spec: SweepSpec, options: ParseOptions): void {
 
 // ---- Stage 5: the values of the ranges -------------------------------------
 
-/** Repeated grid values, and an adaptive sweep's `refine` against its ranges (it reads their values). */
-function checkRangeValues(spec: SweepSpec, raw: Record<string, unknown>, options: ParseOptions): void {
+/** Grid values that would repeat. */
+function checkRangeValues(spec: SweepSpec): void {
   const issues: FieldIssue[] = [];
   for (const [name, range] of Object.entries(spec.vary)) {
     if (!('steps' in range)) continue;
@@ -319,8 +332,6 @@ function checkRangeValues(spec: SweepSpec, raw: Record<string, unknown>, options
       });
     }
   }
-  // A stored sweep (sweep.json) holds the normalised replicates; only a person's file is checked for both.
-  issues.push(...refineIssues(spec, options.stored !== true && Object.hasOwn(raw, 'replicates')));
   stopIf(issues);
 }
 
@@ -346,8 +357,8 @@ function baseParamsOf(spec: SweepSpec, model: AnyModel): Record<string, unknown>
  * Build a loaded sweep from a parsed document (a sweep file or sweep.json's
  * `sweep`). The stages run in order and each stops the load when it finds a
  * problem: the document's sizes and nesting, the fields, the model and the
- * names (computed parameters compiled), every size limit by arithmetic, the
- * range values (and an adaptive sweep's refine section), then the points.
+ * names (computed parameters compiled, an adaptive sweep's refine section),
+ * every size limit by arithmetic, the range values, then the points.
  * Nothing is expanded before every size is known to be within its limit.
  */
 export function buildSweep(raw: unknown, source: string, options: ParseOptions = {}): LoadedSweep {
@@ -356,9 +367,9 @@ export function buildSweep(raw: unknown, source: string, options: ParseOptions =
     const spec = parseFields(raw);
     const model = resolveModel(spec);
     const rawObject = raw as Record<string, unknown>;
-    const derived = checkNames(spec, model, rawObject);
+    const derived = checkNames(spec, model, rawObject, options);
     checkSizes(spec, options);
-    checkRangeValues(spec, rawObject, options);
+    checkRangeValues(spec);
     const { pointCount, checkedPoints } = checkModelPoints(spec, model, derived, options);
     const baseParams = baseParamsOf(spec, model);
     return {

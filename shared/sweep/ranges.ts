@@ -1,5 +1,4 @@
 import { z } from 'zod';
-import { PointValueSchema } from '../schemas/records.js';
 import { SWEEP_LIMITS } from './limits.js';
 
 /**
@@ -41,11 +40,18 @@ function distinct(values: ReadonlyArray<string | number | boolean>): boolean {
 
 const LIST_RULE = `a list of 1 to ${SWEEP_LIMITS.listLength} distinct values`;
 
+/** A value of `list` or `among`: what a point may hold, with texts kept short (they travel in every job). */
+const RangeValueSchema = z.union([
+  z.number(),
+  z.string().max(SWEEP_LIMITS.rangeText, `a text value of a range has at most ${SWEEP_LIMITS.rangeText} characters`),
+  z.boolean(),
+]);
+
 /** Explicit values; a discrete set for every sampler. */
 export const ListRangeSchema = z
   .object({
     list: z
-      .array(PointValueSchema)
+      .array(RangeValueSchema)
       .min(1, 'a list needs at least one value')
       .max(SWEEP_LIMITS.listLength, `${LIST_RULE}; got more`)
       .refine(distinct, 'the values of a list must be distinct')
@@ -121,7 +127,7 @@ export const BetweenRangeSchema = z
 export const AmongRangeSchema = z
   .object({
     among: z
-      .array(PointValueSchema)
+      .array(RangeValueSchema)
       .min(1, 'among needs at least one value')
       .max(SWEEP_LIMITS.listLength, `among takes 1 to ${SWEEP_LIMITS.listLength} distinct values; got more`)
       .refine(distinct, 'the values of among must be distinct'),

@@ -239,7 +239,13 @@ describe('refusals at load time, at derived.<name>', () => {
       message: 'a formula is a text, e.g. "10 / hypercolumns"',
     });
     const long = `1${' + 1'.repeat(30_000)}`;
-    expect(rejection(withDerived([`weightGain: "${long}"`])).issues[0]).toEqual({
+    // As JSON: a YAML sweep file may have at most 32 KiB.
+    const json = JSON.stringify({
+      name: 'd',
+      vary: { hypercolumns: { list: [10, 25] } },
+      derived: { weightGain: long },
+    });
+    expect(rejection(json).issues[0]).toEqual({
       path: 'derived.weightGain',
       message: 'a formula has at most 1000 characters',
     });

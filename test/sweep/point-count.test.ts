@@ -151,4 +151,25 @@ describe('a point of a large sweep that loading did not check', () => {
       expect(outcome.message).toContain('epochs');
     }
   });
+
+  it('gives a computed parameter whose formula fails there no value, so the job fails as invalid instead of running with a default', () => {
+    const make = (bad: number): string =>
+      `name: u\nvary:\n  epochs: { list: [${Array.from({ length: 5000 }, (_, i) => i + 1).join(', ')}] }\nderived:\n  weightGain: "1 / abs(epochs - ${bad})"\n`;
+    let bad = 3999;
+    let loaded: ReturnType<typeof parseSweepText> | undefined;
+    while (loaded === undefined && bad < 5000) {
+      bad++;
+      try {
+        loaded = parseSweepText(make(bad), 'u.yaml');
+      } catch {
+        // The failing point was checked: try the next one.
+      }
+    }
+    if (loaded === undefined) throw new Error('every position was checked');
+    const job = [...expandJobs(loaded)].find((j) => j.params['weightGain'] === null);
+    expect(job?.point['epochs']).toBe(bad);
+    const outcome = runJob(toPayload(loaded, job!), { writer: 'w', run: 'r' });
+    expect(outcome.ok).toBe(false);
+    if (!outcome.ok) expect(outcome.kind).toBe('invalid');
+  });
 });
