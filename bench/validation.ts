@@ -206,7 +206,7 @@ async function inProcess(file: string, extra: readonly string[]): Promise<number
   const started = process.cpuUsage();
   try {
     const sweep = await loadSweepFile(file, extra.includes('--yes') ? {} : { jobLimit: 1_000_000 });
-    planSweep(sweep, { calibrate: 0 });
+    await planSweep(sweep, { calibrate: 0 });
   } catch {
     // Refused: the time to refuse is the figure.
   }
