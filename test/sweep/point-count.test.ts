@@ -112,7 +112,9 @@ describe('repeated grid values', () => {
 describe('grid positions', () => {
   it('computes the index tuple at a position as gridIndices lists it', () => {
     const sizes = [3, 1, 4, 2];
-    [...gridIndices(sizes)].forEach((index, position) => expect(gridIndexAt(sizes, position)).toEqual(index));
+    const listed = [...gridIndices(sizes)];
+    expect(listed).toHaveLength(24);
+    for (const [position, index] of listed.entries()) expect(gridIndexAt(sizes, position)).toEqual(index);
   });
 
   it('spreads positions evenly from the first, without repeats', () => {
