@@ -159,6 +159,71 @@ describe('a worker given hostile payloads', () => {
   });
 });
 
+describe('a worker given jobs whose stored data it cannot read', () => {
+  it('fails each at once as invalid (one attempt, no stall loop) and keeps serving', async () => {
+    const client = await inspector(SHARED_REDIS);
+    const q = new Queue(queue.name, { connection: client.duplicate(), prefix: queue.prefix });
+    // Raw values of the job hash's data field, as anyone who can write to Redis could leave them.
+    const raw: Record<string, string> = {
+      'not-json': '{"v":1, "sweep": {',
+      binary: '\u0000\u00ff\u0007',
+      number: '42',
+      null: 'null',
+      array: '[1,2,3]',
+      'missing-fields': '{"v":1}',
+      // Over MAX_PAYLOAD_CHARS (1 MiB): refused unread.
+      huge: JSON.stringify({ v: 1, pad: 'x'.repeat(2 * 1024 * 1024) }),
+    };
+    const expectations: Record<string, RegExp> = {
+      'not-json': /^invalid: invalid job payload: the payload is not JSON/,
+      binary: /^invalid: invalid job payload: the payload is not JSON/,
+      number: /^invalid: invalid job payload/,
+      null: /^invalid: invalid job payload/,
+      array: /^invalid: invalid job payload/,
+      'missing-fields': /^invalid: invalid job payload: payload\.sweep/,
+      huge: /^invalid: invalid job payload: the payload is 20971\d\d characters of JSON, more than the 1048576/,
+    };
+    try {
+      const opts = { attempts: 4, backoff: { type: 'exponential', delay: 1_000 } };
+      // Added delayed (no worker can take them yet), the data overwritten, then released together.
+      for (const [id, data] of Object.entries(raw)) {
+        await q.add('raw', {}, { ...opts, jobId: `raw-${id}`, delay: 3_600_000 });
+        await client.hset(`${queue.prefix}:${queue.name}:raw-${id}`, 'data', data);
+      }
+      await q.promoteJobs();
+      const valid = parseSweepText('name: raw-ok\nmodel: no-op\nfixed: { value: 5 }\n', 'inline');
+      const validJob = expandJobs(valid).next().value;
+      if (validJob === undefined) throw new Error('the valid sweep has no job');
+      await q.add('valid', toPayload(valid, validJob), { ...opts, jobId: 'raw-valid-after' });
+      const states = async (): Promise<string[]> =>
+        Promise.all(Object.keys(raw).map((id) => q.getJobState(`raw-${id}`)));
+      await waitFor(
+        'every raw job to fail and the valid one to complete',
+        async () =>
+          (await states()).every((s) => s === 'failed') && (await q.getJobState('raw-valid-after')) === 'completed'
+            ? true
+            : undefined,
+        60_000,
+        200,
+      );
+      for (const [id, pattern] of Object.entries(expectations)) {
+        const key = `${queue.prefix}:${queue.name}:raw-${id}`;
+        // Read from the hash itself: BullMQ's getJob would try to parse the data again.
+        const [reason, made, stalled] = await client.hmget(key, 'failedReason', 'atm', 'stc');
+        expect(reason, id).toMatch(pattern);
+        // Unrecoverable: one attempt although four were allowed, and it never stalled.
+        expect(made, id).toBe('1');
+        expect(stalled ?? '0', id).toBe('0');
+      }
+    } finally {
+      await q.close();
+      client.disconnect();
+    }
+    expect(worker.child.exitCode).toBeNull();
+    expect((await readNdjson(join(resultsRoot, 'raw-ok', 'results'))).length).toBe(1);
+  });
+});
+
 describe('requeue --failed', () => {
   it('gives a job that failed for good a fresh start, and progress counts its failure by kind', async () => {
     const text = 'name: retry-me\nmodel: no-op\nreplicates: 3\n';

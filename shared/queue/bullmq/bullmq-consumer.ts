@@ -1,11 +1,42 @@
-import { type Job, UnrecoverableError, WaitingError, Worker } from 'bullmq';
+import { type Job, type JobJson, UnrecoverableError, WaitingError, Worker } from 'bullmq';
 import type { Redis } from 'ioredis';
+import { MAX_PAYLOAD_CHARS } from '../job-policy.js';
 import type { QueueTarget } from '../queue-target.js';
 import type { ConsumerCounts, ConsumerOptions, JobHandler, WorkConsumer } from '../work-consumer.js';
 import { closeRedis } from './redis-connect.js';
 
 /** Same reason of trouble logged at most once per this many ms (a Redis outage reports every reconnect). */
 const TROUBLE_EVERY_MS = 30_000;
+
+/** Why a job's stored data could not be read, by job (set while the job is built, read when it runs). */
+const unreadableJobs = new WeakMap<Job, string>();
+
+/**
+ * BullMQ's worker, with one change: a job whose stored data is not JSON, or
+ * is larger than a payload may be, is still built (with null data) instead
+ * of throwing inside BullMQ's fetch loop. Left to BullMQ, such a job is taken,
+ * throws before any handler sees it, loses its lock and goes back to waiting,
+ * forever; built this way it reaches the handler, which fails it for good.
+ */
+class TolerantWorker extends Worker {
+  protected override createJob(json: JobJson, jobId: string): Job {
+    const text = json.data;
+    let problem: string | undefined;
+    if (typeof text === 'string' && text.length > MAX_PAYLOAD_CHARS) {
+      // Refused unread: parsing hundreds of megabytes would stall this thread, which also keeps the locks alive.
+      problem = `the payload is ${text.length} characters of JSON, more than the ${MAX_PAYLOAD_CHARS} a job may have; not read`;
+    } else {
+      try {
+        return super.createJob(json, jobId);
+      } catch (error) {
+        problem = `the payload is not JSON (${error instanceof Error ? error.message.slice(0, 200) : String(error)})`;
+      }
+    }
+    const job = super.createJob({ ...json, data: 'null' }, jobId);
+    unreadableJobs.set(job, problem);
+    return job;
+  }
+}
 
 /**
  * A worker's side of a BullMQ queue: takes jobs, keeps their locks alive
@@ -24,7 +55,7 @@ export class BullmqConsumer implements WorkConsumer {
     private readonly handler: JobHandler,
     private readonly options: ConsumerOptions,
   ) {
-    this.worker = new Worker(target.name, (job, token) => this.process(job, token), {
+    this.worker = new TolerantWorker(target.name, (job, token) => this.process(job, token), {
       connection,
       prefix: target.prefix,
       concurrency: options.concurrency,
@@ -79,7 +110,12 @@ export class BullmqConsumer implements WorkConsumer {
   private async process(job: Job, token: string | undefined): Promise<unknown> {
     const attempt = job.attemptsMade + 1;
     this.options.logger.debug({ job: job.id, attempt }, 'job started');
-    const verdict = await this.handler({ id: job.id ?? '', data: job.data, unreadable: undefined, attempt });
+    const verdict = await this.handler({
+      id: job.id ?? '',
+      data: job.data,
+      unreadable: unreadableJobs.get(job),
+      attempt,
+    });
     switch (verdict.kind) {
       case 'done':
         return verdict.value;

@@ -1,3 +1,4 @@
+import { randomBytes } from 'node:crypto';
 import { type JobType, Queue } from 'bullmq';
 import type { ChainableCommander, Redis } from 'ioredis';
 import type { Logger } from '../../logger.js';
@@ -24,6 +25,69 @@ const WAITING_STATES: readonly JobType[] = ['wait', 'prioritized', 'waiting-chil
 export const SCAN_PAGE = 1_000;
 /** Removals in flight at a time. */
 const REMOVE_BATCH = 500;
+/** Entries a cancel step looks at: one short script run, so Redis is never blocked for long. */
+export const CANCEL_PAGE = 1_000;
+/** Cancel repeats its pass while the previous one removed something (a queue that changes meanwhile). */
+const CANCEL_PASSES = 10;
+
+/**
+ * One cancel step over one page of a not-started state, run as a single Lua
+ * script so that nothing happens between looking at a job and removing it:
+ * a job that a worker took or finished before the script ran is no longer
+ * in the page, and one still in it cannot be taken while the script runs.
+ * (Snapshotting ids and removing them one by one afterwards deleted jobs,
+ * records included, that finished in between.)
+ *
+ * KEYS[1]: the state (the `wait` or `paused` list, the `delayed` or
+ * `prioritized` sorted set). ARGV: 'list' or 'zset'; the job key base
+ * `<prefix>:<queue>:`; the sweep's job id prefix; the page start; the page
+ * size; a marker that no job id can equal (ids of ours hold no ':').
+ * Returns { removed, entries of other sweeps in the page, entries in the page }.
+ * Ours in a list are overwritten by the marker (LSET) and the markers then go
+ * in one LREM that stops at the last of them, so a page costs its own position
+ * in the list instead of one list scan per job.
+ */
+const CANCEL_PAGE_SCRIPT = `
+local kind, base, prefix, marker = ARGV[1], ARGV[2], ARGV[3], ARGV[6]
+local start, size = tonumber(ARGV[4]), tonumber(ARGV[5])
+local ids
+if kind == 'list' then
+  ids = redis.call('LRANGE', KEYS[1], start, start + size - 1)
+else
+  ids = redis.call('ZRANGE', KEYS[1], start, start + size - 1)
+end
+local removed, others = 0, 0
+for i, id in ipairs(ids) do
+  if string.sub(id, 1, #prefix) == prefix then
+    if kind == 'list' then
+      redis.call('LSET', KEYS[1], start + i - 1, marker)
+    else
+      redis.call('ZREM', KEYS[1], id)
+    end
+    local job = base .. id
+    redis.call('DEL', job, job .. ':logs', job .. ':dependencies', job .. ':processed', job .. ':failed', job .. ':unsuccessful')
+    removed = removed + 1
+  else
+    others = others + 1
+  end
+end
+if kind == 'list' and removed > 0 then
+  redis.call('LREM', KEYS[1], removed, marker)
+end
+return { removed, others, #ids }
+`;
+
+interface CancelCommand {
+  recallscapeCancelPage(
+    state: string,
+    kind: 'list' | 'zset',
+    base: string,
+    idPrefix: string,
+    start: number,
+    size: number,
+    marker: string,
+  ): Promise<[number, number, number]>;
+}
 
 /** Results of a pipeline, with the first command error thrown. */
 async function replies(pipeline: ChainableCommander): Promise<unknown[]> {
@@ -214,8 +278,40 @@ export class BullmqWorkQueue implements WorkQueue {
 
   cancel(sweepHash: string): Promise<number> {
     return this.guard(async () => {
-      const ids = await this.collectIds(sweepHash, [...WAITING_STATES, 'delayed']);
-      return this.removeIds([...ids]);
+      const client = this.client as Redis & Partial<CancelCommand>;
+      if (client.recallscapeCancelPage === undefined) {
+        client.defineCommand('recallscapeCancelPage', { numberOfKeys: 1, lua: CANCEL_PAGE_SCRIPT });
+      }
+      const run = (client as Redis & CancelCommand).recallscapeCancelPage.bind(client);
+      const prefix = jobIdPrefix(sweepHash);
+      const base = `${this.target.prefix}:${this.target.name}:`;
+      const marker = `recallscape:cancelled:${randomBytes(8).toString('hex')}`;
+      // Not started: waiting (or waiting in a paused queue), prioritized, or delayed for a retry.
+      // No job of ours has children, so 'waiting-children' holds none.
+      const states = [
+        ['wait', 'list'],
+        ['paused', 'list'],
+        ['prioritized', 'zset'],
+        ['delayed', 'zset'],
+      ] as const;
+      let total = 0;
+      for (let pass = 0; pass < CANCEL_PASSES; pass++) {
+        let removedInPass = 0;
+        for (const [state, kind] of states) {
+          const key = stateRedisKey(this.target, state);
+          // Entries of other sweeps stay, so the next page starts after the ones passed over.
+          for (let start = 0; ; ) {
+            const [removed, others, seen] = await run(key, kind, base, prefix, start, CANCEL_PAGE, marker);
+            removedInPass += removed;
+            start += others;
+            if (seen < CANCEL_PAGE) break;
+          }
+        }
+        total += removedInPass;
+        // Jobs added meanwhile shift the pages; another pass finds what the shift hid.
+        if (removedInPass === 0) break;
+      }
+      return total;
     });
   }
 
