@@ -15,6 +15,7 @@ interface ReportFlags extends ModelCliOptions {
   readonly metric?: string;
   readonly format?: string;
   readonly bins?: string;
+  readonly log?: string;
   readonly pngScale?: string;
 }
 
@@ -71,6 +72,10 @@ export function registerReport(program: Command): void {
       'bins per axis where a continuous range is drawn as cells, and most panels of a continuous facet (default: report.bins, else 8)',
     )
     .option(
+      '--log <params>',
+      'comma-separated varied parameters to draw on a log axis (default: report.log; ranges with scale: log and lists spaced by ratio are drawn so anyway)',
+    )
+    .option(
       '--png-scale <n>',
       `PNG pixels per SVG unit, ${PNG_SCALE_RANGE.min} to ${PNG_SCALE_RANGE.max} (default: ${DEFAULT_PNG_SCALE}, sharp in print)`,
     )
@@ -93,6 +98,7 @@ export function registerReport(program: Command): void {
           ...(formats === undefined ? {} : { formats }),
           ...(bins === undefined ? {} : { bins }),
           ...(pngScale === undefined ? {} : { pngScale }),
+          ...(flags.log === undefined ? {} : { log: parseNameList(flags.log) }),
         });
         for (const w of result.warnings.slice(0, MAX_PRINTED_WARNINGS)) {
           process.stderr.write(`recallscape: warning: ${w.kind}: ${w.message}\n`);
@@ -116,4 +122,12 @@ export function registerReport(program: Command): void {
         process.stdout.write(`${lines.join('\n')}\n`);
       }),
     );
+}
+
+/** "a, b" -> ["a", "b"]; empty entries dropped (the names are checked against the sweep later). */
+function parseNameList(text: string): string[] {
+  return text
+    .split(',')
+    .map((n) => n.trim())
+    .filter((n) => n !== '');
 }

@@ -8,6 +8,8 @@ export interface ValueAxis {
   readonly param: string;
   readonly values: readonly AxisValue[];
   readonly positions: ReadonlyMap<string, number>;
+  /** Drawn in log space: cells sized by the ratios of neighbouring values rather than their differences. */
+  readonly log: boolean;
 }
 
 /** One cell per bin of a numeric range (random, lhs and sobol sweeps). */
@@ -30,7 +32,7 @@ function valueKey(value: AxisValue): string {
  * cells are neighbours in parameter space (the border contour relies on it);
  * strings and booleans keep the order they first appear in (the sweep's order).
  */
-export function valueAxis(param: string, occurring: Iterable<AxisValue>): ValueAxis {
+export function valueAxis(param: string, occurring: Iterable<AxisValue>, log = false): ValueAxis {
   const seen = new Map<string, AxisValue>();
   for (const v of occurring) {
     const key = valueKey(v);
@@ -39,11 +41,43 @@ export function valueAxis(param: string, occurring: Iterable<AxisValue>): ValueA
   let values = [...seen.values()];
   if (values.every((v) => typeof v === 'number')) values = (values as number[]).sort((a, b) => a - b);
   const positions = new Map(values.map((v, i) => [valueKey(v), i]));
-  return { kind: 'values', param, values, positions };
+  return { kind: 'values', param, values, positions, log };
 }
 
-export function binAxis(param: string, lo: number, hi: number, bins: number, log: boolean): BinAxis {
-  return { kind: 'bins', param, edges: binEdges(lo, hi, bins, log), log };
+/** How uneven gaps may be, largest over smallest, for a list to count as evenly spaced in log space. */
+const GEOMETRIC_SPREAD = 1.5;
+
+/**
+ * Whether listed numbers are spaced more evenly by ratio than by difference,
+ * as sizes usually are (6, 10, 16, 25, 40 or 1, 2, 5, 10): such a list is
+ * drawn on a log axis. Whole-number rounding of a geometric series keeps the
+ * spread of its log gaps well under GEOMETRIC_SPREAD.
+ */
+export function geometricList(values: readonly AxisValue[]): boolean {
+  if (values.length < 3 || !values.every((v) => typeof v === 'number' && v > 0)) return false;
+  const sorted = [...new Set(values as number[])].sort((a, b) => a - b);
+  if (sorted.length < 3) return false;
+  const spread = (xs: number[]): number => {
+    const gaps = xs.slice(1).map((x, i) => x - (xs[i] as number));
+    return Math.max(...gaps) / Math.min(...gaps);
+  };
+  const logSpread = spread(sorted.map(Math.log));
+  return logSpread <= GEOMETRIC_SPREAD && logSpread < spread(sorted);
+}
+
+/**
+ * Bins over [lo, hi]. For whole-number ranges the inner edges are rounded to
+ * whole numbers (bins that would then be empty are merged away), so every
+ * bin holds whole values [a, b) and the axis shows whole-number ticks.
+ */
+export function binAxis(param: string, lo: number, hi: number, bins: number, log: boolean, whole = false): BinAxis {
+  const edges = binEdges(lo, hi, bins, log);
+  if (!whole) return { kind: 'bins', param, edges, log };
+  const rounded: number[] = [];
+  for (const e of edges.map(Math.round))
+    if (rounded.length === 0 || e > (rounded[rounded.length - 1] as number)) rounded.push(e);
+  if (rounded.length < 2) rounded.push(hi);
+  return { kind: 'bins', param, edges: rounded, log };
 }
 
 export function axisSize(axis: Axis): number {

@@ -19,8 +19,8 @@ export function binEdges(lo: number, hi: number, bins: number, log: boolean): nu
 
 /**
  * Index of the bin holding `value`: bins are [edge_i, edge_i+1), the last one
- * closed. Returns -1 outside the range. Computed in (log) space directly
- * rather than by searching, since bins are equal-width there.
+ * closed. Returns -1 outside the range. Guessed in (log) space, where bins
+ * are equal-width, then corrected against the edges.
  */
 export function binIndex(edges: readonly number[], log: boolean, value: number): number {
   const bins = edges.length - 1;
@@ -33,10 +33,9 @@ export function binIndex(edges: readonly number[], log: boolean, value: number):
   let i = Math.floor(t * bins);
   if (i >= bins) i = bins - 1;
   if (i < 0) i = 0;
-  // Guard against rounding right at an edge: the edges list is the truth.
-  const left = edges[i];
-  const right = edges[i + 1];
-  if (left !== undefined && value < left && i > 0) i -= 1;
-  else if (right !== undefined && value >= right && i < bins - 1) i += 1;
+  // The guess is exact for equal-width bins; rounding at an edge, or edges
+  // rounded to whole numbers, move it a step or a few: the edges list is the truth.
+  while (i > 0 && value < (edges[i] as number)) i -= 1;
+  while (i < bins - 1 && value >= (edges[i + 1] as number)) i += 1;
   return i;
 }

@@ -9,7 +9,13 @@ import { type DiagramKind, diagramKindOf } from './diagram-kind.js';
 import { GroupSummary, type MetricKind } from './group-summary.js';
 import { paramLabel } from './param-label.js';
 import type { ParamColumn, ReportGroup } from './report-group.js';
-import { checkMetric, type ReportFormat, type ResolvedSettings, resolveSettings } from './report-settings.js';
+import {
+  checkLogAxes,
+  checkMetric,
+  type ReportFormat,
+  type ResolvedSettings,
+  resolveSettings,
+} from './report-settings.js';
 import type { ReportSource, ScanWarning } from './report-source.js';
 import { TrialRecorder } from './trial-recorder.js';
 
@@ -22,6 +28,8 @@ export interface ReportOptions {
   readonly formats?: readonly ReportFormat[];
   readonly bins?: number;
   readonly pngScale?: number;
+  /** Parameters to draw on a log axis. */
+  readonly log?: readonly string[];
 }
 
 export type ReportSweep = LoadedSweep & { readonly codeVersion: string; readonly createdAt: string };
@@ -94,10 +102,12 @@ export async function collectReport(source: ReportSource, options: ReportOptions
       bins: options.bins,
       formats: options.formats,
       pngScale: options.pngScale,
+      log: options.log,
     },
     spec.report,
     sweep.variedNames,
   );
+  checkLogAxes(settings.log, spec.vary, options.log !== undefined);
   const label = (p: string): string => paramLabel(p, model.paramInfo);
   const names = sweep.variedNames;
   const computed = sweep.derived === undefined ? [] : Object.keys(spec.derived ?? {});

@@ -1,4 +1,5 @@
 import { type Axis, cellLabel } from './axis.js';
+import { type AxisGeometry, axisGeometry } from './axis-geometry.js';
 import type { CellData, CellGrid } from './cell-grid.js';
 import { colourScale } from './colour-scale.js';
 import { isoLines, isoRegion } from './contour.js';
@@ -118,7 +119,27 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
   const width = legendX + LEGEND_WIDTH;
   const scale = colourScale(input.domain);
   const id = input.id;
-  const at = ([u, v]: readonly [number, number]): [number, number] => [left + u * cellW, top + (ny - v) * cellH];
+  const xg = axisGeometry(xAxis, plotW);
+  const yg: AxisGeometry =
+    yAxis === null
+      ? { edges: [0, plotH], centres: [plotH / 2], even: true, at: (v) => v * plotH }
+      : axisGeometry(yAxis, plotH);
+  // Cells of evenly spaced axes keep the plain arithmetic, so their drawing does not change by a digit.
+  const at =
+    xg.even && yg.even
+      ? ([u, v]: readonly [number, number]): [number, number] => [left + u * cellW, top + (ny - v) * cellH]
+      : ([u, v]: readonly [number, number]): [number, number] => [left + xg.at(u), top + plotH - yg.at(v)];
+  const cellBox = (
+    cx: number,
+    cy: number,
+  ): { x: number | string; y: number | string; w: number | string; h: number | string } => {
+    if (xg.even && yg.even) return { x: left + cx * cellW, y: top + (ny - 1 - cy) * cellH, w: cellW, h: cellH };
+    const x0 = xg.edges[cx] as number;
+    const x1 = xg.edges[cx + 1] as number;
+    const y0 = yg.edges[cy] as number;
+    const y1 = yg.edges[cy + 1] as number;
+    return { x: px(left + x0), y: px(top + plotH - y1), w: px(x1 - x0), h: px(y1 - y0) };
+  };
 
   const incompleteCells = grid.cells.filter((c) => c.n > 0 && c.n < c.planned);
   const emptyCount = grid.cells.filter((c) => c.n === 0).length;
@@ -166,17 +187,16 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
 
   out.push(`<g class="cells">`);
   for (const cell of grid.cells) {
-    const x = left + cell.x * cellW;
-    const y = top + (ny - 1 - cell.y) * cellH;
+    const box = cellBox(cell.x, cell.y);
     const empty = cell.n === 0;
     const classes = ['cell', empty ? 'empty' : 'filled', !empty && cell.n < cell.planned ? 'incomplete' : 'complete'];
     const fill = cell.value === null ? '#ffffff' : scale.colour(cell.value);
     const attrs = [
       `class="${classes.join(' ')}"`,
-      `x="${x}"`,
-      `y="${y}"`,
-      `width="${cellW}"`,
-      `height="${cellH}"`,
+      `x="${box.x}"`,
+      `y="${box.y}"`,
+      `width="${box.w}"`,
+      `height="${box.h}"`,
       `fill="${fill}"`,
       cell.value === null ? 'stroke="#c8c8c8" stroke-width="0.8"' : `stroke="${fill}" stroke-width="0.5"`,
       `data-x="${cell.x}"`,
@@ -198,9 +218,8 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
   if (incompleteCells.length > 0) {
     out.push(`<g class="incomplete-marks" pointer-events="none">`);
     for (const cell of incompleteCells) {
-      const x = left + cell.x * cellW;
-      const y = top + (ny - 1 - cell.y) * cellH;
-      out.push(`<rect x="${x}" y="${y}" width="${cellW}" height="${cellH}" fill="url(#${id}-hatch)"/>`);
+      const box = cellBox(cell.x, cell.y);
+      out.push(`<rect x="${box.x}" y="${box.y}" width="${box.w}" height="${box.h}" fill="url(#${id}-hatch)"/>`);
     }
     out.push('</g>');
   }
@@ -221,29 +240,33 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
 
   // x axis: ticks at cell centres for values, at edges for bins.
   out.push(`<g class="x-axis" font-size="${TICK_FONT}" text-anchor="middle">`);
-  const xStep = labelStep(xLabels, cellW, TICK_FONT);
+  const xTicks = xLabels.map((_, i) => left + tickAt(xAxis, xg, i));
+  const xShown = shownLabels(xLabels, xTicks, xg.even ? labelStep(xLabels, cellW, TICK_FONT) : null, (l) =>
+    textWidth(l, TICK_FONT),
+  );
   xLabels.forEach((label, i) => {
-    const x = left + (xAxis.kind === 'values' ? (i + 0.5) * cellW : i * cellW);
+    const x = xTicks[i] as number;
     out.push(`<line x1="${px(x)}" y1="${top + plotH}" x2="${px(x)}" y2="${top + plotH + 5}" stroke="#222222"/>`);
-    if (i % xStep === 0) out.push(`<text x="${px(x)}" y="${top + plotH + 18}">${escapeXml(label)}</text>`);
+    if (xShown[i]) out.push(`<text x="${px(x)}" y="${top + plotH + 18}">${escapeXml(label)}</text>`);
   });
   out.push('</g>');
   out.push(
-    `<text class="x-title" x="${px(left + plotW / 2)}" y="${top + plotH + 44}" text-anchor="middle">${escapeXml(input.xLabel)}</text>`,
+    `<text class="x-title" x="${px(left + plotW / 2)}" y="${top + plotH + 44}" text-anchor="middle">${escapeXml(input.xLabel + logNote(xAxis))}</text>`,
   );
 
   if (yAxis !== null) {
     out.push(`<g class="y-axis" font-size="${TICK_FONT}" text-anchor="end">`);
-    const yStep = Math.max(1, Math.ceil(15 / cellH));
+    const yTicks = yLabels.map((_, i) => top + plotH - tickAt(yAxis, yg, i));
+    const yShown = shownLabels(yLabels, yTicks, yg.even ? Math.max(1, Math.ceil(15 / cellH)) : null, () => 15);
     yLabels.forEach((label, i) => {
-      const y = top + plotH - (yAxis.kind === 'values' ? (i + 0.5) * cellH : i * cellH);
+      const y = yTicks[i] as number;
       out.push(`<line x1="${left - 5}" y1="${px(y)}" x2="${left}" y2="${px(y)}" stroke="#222222"/>`);
-      if (i % yStep === 0) out.push(`<text x="${left - 8}" y="${px(y + 4)}">${escapeXml(label)}</text>`);
+      if (yShown[i]) out.push(`<text x="${left - 8}" y="${px(y + 4)}">${escapeXml(label)}</text>`);
     });
     out.push('</g>');
     const cy = top + plotH / 2;
     out.push(
-      `<text class="y-title" x="18" y="${px(cy)}" text-anchor="middle" transform="rotate(-90 18 ${px(cy)})">${escapeXml(input.yLabel)}</text>`,
+      `<text class="y-title" x="18" y="${px(cy)}" text-anchor="middle" transform="rotate(-90 18 ${px(cy)})">${escapeXml(input.yLabel + logNote(yAxis))}</text>`,
     );
   }
 
@@ -266,4 +289,37 @@ function edgeOrCellLabel(axis: Axis, i: number): string {
   const edge = axis.edges[i];
   if (edge === undefined) return '';
   return String(Number(edge.toPrecision(3)));
+}
+
+/** Ticks sit at cell centres for values, at edges for bins. */
+function tickAt(axis: Axis, geometry: AxisGeometry, i: number): number {
+  return (axis.kind === 'values' ? geometry.centres[i] : geometry.edges[i]) ?? 0;
+}
+
+/** Said after an axis title drawn in log space. */
+function logNote(axis: Axis): string {
+  return axis.log ? ', log scale' : '';
+}
+
+/**
+ * Which tick labels to print: every k-th on evenly spaced axes (as always),
+ * otherwise from the first, each one that keeps clear of the last printed.
+ */
+function shownLabels(
+  labels: readonly string[],
+  at: readonly number[],
+  step: number | null,
+  size: (label: string) => number,
+): boolean[] {
+  if (step !== null) return labels.map((_, i) => i % step === 0);
+  const shown: boolean[] = [];
+  let last: { centre: number; half: number } | null = null;
+  labels.forEach((label, i) => {
+    const centre = at[i] as number;
+    const half = size(label) / 2;
+    const fits = last === null || Math.abs(centre - last.centre) >= last.half + half + 6;
+    shown.push(fits);
+    if (fits) last = { centre, half };
+  });
+  return shown;
 }

@@ -1,5 +1,5 @@
 import { gridValues, type Range } from '../../shared/sweep/ranges.js';
-import { type Axis, type AxisValue, binAxis, locate, valueAxis } from './axis.js';
+import { type Axis, type AxisValue, binAxis, geometricList, locate, valueAxis } from './axis.js';
 
 /** Where a parameter point falls on a set of heat maps. */
 export interface CellPlace {
@@ -28,18 +28,22 @@ export interface CellLayoutInput {
   readonly bins: number;
   /** Bins for a continuous facet. */
   readonly facetBins: number;
+  /** Parameters drawn on a log axis on request (ranges with `scale: log` and geometric lists are anyway). */
+  readonly log?: ReadonlySet<string>;
 }
 
 /** Axis of one varied parameter: its values (grid and discrete ranges), or bins of a continuous range. */
-function axisFor(vary: Readonly<Record<string, Range>>, param: string, bins: number): Axis {
+function axisFor(vary: Readonly<Record<string, Range>>, param: string, bins: number, logAsked: boolean): Axis {
   const range = vary[param];
   if (range === undefined) throw new TypeError(`no range for ${param}`);
   if ('between' in range) {
     const [lo, hi] = range.between;
-    return binAxis(param, lo, hi, bins, range.scale === 'log');
+    const log = range.scale === 'log' || logAsked;
+    return binAxis(param, lo, hi, bins, log, range.integer);
   }
   const values: AxisValue[] = 'among' in range ? [...range.among] : gridValues(range);
-  return valueAxis(param, values);
+  const log = logAsked || ('from' in range && range.scale === 'log') || geometricList(values);
+  return valueAxis(param, values, log);
 }
 
 /**
@@ -48,9 +52,10 @@ function axisFor(vary: Readonly<Record<string, Range>>, param: string, bins: num
  * are pooled: the points that share a cell are summarised together.
  */
 export function buildCellLayout(input: CellLayoutInput): CellLayout {
-  const xAxis = input.x === null ? null : axisFor(input.vary, input.x, input.bins);
-  const yAxis = input.y === null ? null : axisFor(input.vary, input.y, input.bins);
-  const facetAxis = input.facet === null ? null : axisFor(input.vary, input.facet, input.facetBins);
+  const asked = (p: string): boolean => input.log?.has(p) ?? false;
+  const xAxis = input.x === null ? null : axisFor(input.vary, input.x, input.bins, asked(input.x));
+  const yAxis = input.y === null ? null : axisFor(input.vary, input.y, input.bins, asked(input.y));
+  const facetAxis = input.facet === null ? null : axisFor(input.vary, input.facet, input.facetBins, asked(input.facet));
   return {
     xAxis,
     yAxis,

@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { InputError } from '../../shared/errors.js';
 import { BINS_RULE, BinsSchema } from '../../shared/sweep/bins.js';
+import type { Range } from '../../shared/sweep/ranges.js';
 
 export const REPORT_FORMATS = ['csv', 'md', 'svg', 'png', 'html'] as const;
 export type ReportFormat = (typeof REPORT_FORMATS)[number];
@@ -20,6 +21,8 @@ export interface ReportChoices {
   readonly bins?: number | undefined;
   readonly formats?: readonly string[] | undefined;
   readonly pngScale?: number | undefined;
+  /** Parameters to draw on a log axis. */
+  readonly log?: readonly string[] | undefined;
 }
 
 export interface ResolvedSettings {
@@ -32,6 +35,8 @@ export interface ResolvedSettings {
   readonly formats: ReadonlySet<ReportFormat>;
   /** PNG pixels per SVG unit. */
   readonly pngScale: number;
+  /** Parameters drawn on a log axis on request (log ranges and geometric lists are drawn so anyway). */
+  readonly log: ReadonlySet<string>;
 }
 
 /** PNG pixels per SVG unit when nothing else is asked: sharp in print and on high-density screens. */
@@ -108,7 +113,14 @@ export function resolveSettings(
     );
 
   const metric = choices.metric ?? fromSweep.metric ?? 'success';
-  return { x, y, facet, metric, bins, formats, pngScale };
+  const logOption = choices.log !== undefined ? '--log' : 'report.log';
+  const log = new Set<string>();
+  for (const name of choices.log ?? fromSweep.log ?? []) {
+    if (!varied.includes(name))
+      reject(logOption, `"${name}" is not a varied parameter of this sweep; allowed: ${allowed}`);
+    log.add(name);
+  }
+  return { x, y, facet, metric, bins, formats, pngScale, log };
 }
 
 /** After the scan, when the metrics are known: InputError for an unknown --metric. */
@@ -116,4 +128,33 @@ export function checkMetric(metric: string, known: readonly string[], fromOption
   if (known.includes(metric)) return;
   const option = fromOption ? '--metric' : 'report.metric';
   reject(option, `no scalar metric "${metric}" in the results; allowed: ${known.join(', ')}`);
+}
+
+/**
+ * A log axis needs positive numbers: every listed or stepped value, or both
+ * ends of an interval, of each parameter asked for on a log axis.
+ */
+export function checkLogAxes(
+  log: ReadonlySet<string>,
+  vary: Readonly<Record<string, Range>>,
+  fromOption: boolean,
+): void {
+  for (const name of log) {
+    const range = vary[name];
+    if (range === undefined) continue;
+    const values: unknown[] =
+      'between' in range
+        ? [...range.between]
+        : 'among' in range
+          ? [...range.among]
+          : 'list' in range
+            ? [...range.list]
+            : [range.from, range.to];
+    const bad = values.find((v) => typeof v !== 'number' || !(v > 0));
+    if (bad !== undefined)
+      reject(
+        fromOption ? '--log' : 'report.log',
+        `${name} has the value ${JSON.stringify(bad)}; a log axis needs numbers greater than 0`,
+      );
+  }
 }

@@ -76,9 +76,17 @@ function tickText(t: number): string {
   return String(Number(t.toPrecision(3)));
 }
 
-/** Round ticks inside the axis range; on a log axis at most about six, so labels never crowd. */
+/**
+ * Round ticks inside the axis range; on a log axis at most about six, so
+ * labels never crowd; whole numbers only on a whole-number axis (its ends
+ * when no round whole number lies inside).
+ */
 function ticksOf(axis: ScatterAxis, scale: ReturnType<typeof axisScale>): number[] {
-  const ticks = scale.ticks(6).filter((t) => t >= axis.lo && t <= axis.hi);
+  let ticks = scale.ticks(6).filter((t) => t >= axis.lo && t <= axis.hi);
+  if (axis.whole) {
+    ticks = ticks.filter(Number.isInteger);
+    if (ticks.length < 2) ticks = axis.lo === axis.hi ? [axis.lo] : [axis.lo, axis.hi];
+  }
   if (!axis.log || ticks.length <= 7) return ticks;
   const step = Math.ceil(ticks.length / 6);
   return ticks.filter((_, i) => i % step === 0);

@@ -1,5 +1,5 @@
 import type { Range } from '../../shared/sweep/ranges.js';
-import { formatNumber, formatValue } from './axis.js';
+import { formatNumber, formatValue, geometricList } from './axis.js';
 import { binEdges, binIndex } from './binning.js';
 import { MIN_POINTS } from './local-likelihood-field.js';
 import type { ReportGroup } from './report-group.js';
@@ -10,6 +10,8 @@ export interface ScatterAxis {
   readonly lo: number;
   readonly hi: number;
   readonly log: boolean;
+  /** Whole numbers only (an integer range, or a list of whole numbers): ticks are whole numbers too. */
+  readonly whole: boolean;
 }
 
 /** One panel of scattered points, or the words that stand in for a panel with too few. */
@@ -40,13 +42,22 @@ export interface ScatterLayout {
 export const MIN_PANEL_POINTS = Math.max(20, 2 * MIN_POINTS);
 
 /** The numeric span of a range (both ends of `between`, or the least and greatest listed number). */
-export function scatterAxis(param: string, range: Range | undefined): ScatterAxis | null {
+export function scatterAxis(param: string, range: Range | undefined, logAsked = false): ScatterAxis | null {
   if (range === undefined) return null;
-  if ('between' in range) return { param, lo: range.between[0], hi: range.between[1], log: range.scale === 'log' };
+  if ('between' in range) {
+    const [lo, hi] = range.between;
+    return { param, lo, hi, log: range.scale === 'log' || logAsked, whole: range.integer };
+  }
   const values = 'among' in range ? range.among : 'list' in range ? range.list : [];
   if (!values.every((v) => typeof v === 'number') || values.length < 2) return null;
   const nums = values as number[];
-  return { param, lo: Math.min(...nums), hi: Math.max(...nums), log: false };
+  return {
+    param,
+    lo: Math.min(...nums),
+    hi: Math.max(...nums),
+    log: logAsked || geometricList(nums),
+    whole: nums.every(Number.isInteger),
+  };
 }
 
 function withPoints(groups: readonly ReportGroup[]): ReportGroup[] {
@@ -67,10 +78,12 @@ export function scatterLayout(input: {
   readonly facet: string | null;
   readonly maxPanels: number;
   readonly groups: readonly ReportGroup[];
+  /** Parameters drawn on a log axis on request. */
+  readonly log?: ReadonlySet<string>;
   readonly pooled: readonly string[];
 }): ScatterLayout | null {
-  const xAxis = scatterAxis(input.x, input.vary[input.x]);
-  const yAxis = scatterAxis(input.y, input.vary[input.y]);
+  const xAxis = scatterAxis(input.x, input.vary[input.x], input.log?.has(input.x) ?? false);
+  const yAxis = scatterAxis(input.y, input.vary[input.y], input.log?.has(input.y) ?? false);
   if (xAxis === null || yAxis === null) return null;
   const groups = withPoints(input.groups);
   const tooFew = (n: number): string =>

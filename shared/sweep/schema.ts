@@ -76,6 +76,13 @@ export const ReportSchema = z
       .optional()
       .describe('Metric to show (default success)'),
     bins: BinsSchema.optional().describe('Bins per axis for sampled (non-grid) sweeps'),
+    log: z
+      .array(z.string().max(100), { error: 'report.log is a list of varied parameter names' })
+      .max(64)
+      .optional()
+      .describe(
+        'Varied parameters drawn on a log axis (ranges with scale: log, and lists spaced by ratio, are drawn so anyway)',
+      ),
   })
   .strict();
 export type ReportSpec = z.output<typeof ReportSchema>;

@@ -72,6 +72,17 @@ describe('recallscape report', () => {
     expect(result.code).toBe(2);
     expect(result.stderr).toBe('recallscape: --bins must be a whole number from 2 to 200, got "1"\n');
   });
+
+  it('exits with 2 for --log naming a parameter the sweep does not vary, or one with a value of 0', async () => {
+    const unknown = await runCli(['report', folder.dir, '--log', 'burnMs,noise'], folder.root);
+    expect(unknown.code).toBe(2);
+    expect(unknown.stderr).toBe(
+      'recallscape: --log: "noise" is not a varied parameter of this sweep; allowed: successRate, burnMs\n',
+    );
+    const zero = await runCli(['report', folder.dir, '--log', 'burnMs'], folder.root);
+    expect(zero.code).toBe(2);
+    expect(zero.stderr).toBe('recallscape: --log: burnMs has the value 0; a log axis needs numbers greater than 0\n');
+  });
 });
 
 describe('recallscape report on shards with many damaged lines', () => {

@@ -119,6 +119,7 @@ export function cellLayoutOf(report: CollectedReport): CellLayout {
     facet: settings.facet,
     bins: settings.bins,
     facetBins: Math.min(settings.bins, MAX_FACET_BINS),
+    log: settings.log,
   });
 }
 

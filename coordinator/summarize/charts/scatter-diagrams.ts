@@ -52,6 +52,7 @@ export const scatterDiagrams: ReportChart = {
       maxPanels: Math.min(settings.bins, MAX_FACET_BINS),
       groups: report.groups,
       pooled: report.pooled,
+      log: settings.log,
     });
     if (layout === null) return { files: [], section: diagramSection([]) };
     const isRate = metric.kind === 'boolean';
