@@ -1,4 +1,4 @@
-import { wilsonInterval } from '../../coordinator/summarize/wilson.js';
+import { wilsonInterval } from '../wilson.js';
 
 /** One point of a row: its position along the row and its tally. */
 export interface RowPoint {

@@ -1,4 +1,4 @@
-import { wilsonInterval } from '../../coordinator/summarize/wilson.js';
+import { wilsonInterval } from '../wilson.js';
 import { twoSidedZ } from './normal-quantile.js';
 import type { RefineSettings } from './schema.js';
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { wilsonInterval } from '../../coordinator/summarize/wilson.js';
+import { wilsonInterval } from '../../shared/wilson.js';
 import { normalCdf, twoSidedZ } from '../../shared/refine/normal-quantile.js';
 import { batchSizes, pointState, stopConfidence } from '../../shared/refine/sequential.js';
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { wilsonInterval } from '../../coordinator/summarize/wilson.js';
+import { wilsonInterval } from '../../shared/wilson.js';
 
 // Worked examples of Newcombe (1998, Stat Med 17:857-872), Table I, method 3
 // (score interval without continuity correction); SciPy 1.17
