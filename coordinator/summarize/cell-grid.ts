@@ -1,8 +1,8 @@
+import { wilsonInterval } from '../../shared/wilson.js';
 import { axisSize } from './axis.js';
 import { GroupSummary, type MetricKind } from './group-summary.js';
 import type { ReportGroup } from './report-group.js';
 import type { CellLayout } from './report-layout.js';
-import { wilsonInterval } from '../../shared/wilson.js';
 
 /** What a diagram cell shows, for one metric. */
 export interface CellData {

@@ -1,5 +1,5 @@
-import type { KernelWindow } from './local-likelihood-kernel.js';
 import { Z_95 } from '../../shared/wilson.js';
+import type { KernelWindow } from './local-likelihood-kernel.js';
 
 /**
  * Local likelihood estimate of a success probability on the plane (Loader

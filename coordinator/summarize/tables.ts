@@ -1,8 +1,8 @@
+import { wilsonInterval } from '../../shared/wilson.js';
 import { formatNumber } from './axis.js';
 import type { MetricKind } from './group-summary.js';
 import type { ParamColumn, ReportGroup } from './report-group.js';
 import { formatMeanSd, formatRateInterval } from './significant.js';
-import { wilsonInterval } from '../../shared/wilson.js';
 
 export type TableCell = number | string | boolean | null;
 

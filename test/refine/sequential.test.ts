@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { wilsonInterval } from '../../shared/wilson.js';
 import { normalCdf, twoSidedZ } from '../../shared/refine/normal-quantile.js';
 import { batchSizes, pointState, stopConfidence } from '../../shared/refine/sequential.js';
+import { wilsonInterval } from '../../shared/wilson.js';
 
 const settings = { level: 0.5, confidence: 0.95, replicates: { start: 8, max: 64 } };
 

@@ -23,8 +23,12 @@ describe('cells of a grid axis', () => {
     const g = axisGeometry(valueAxis('p', [0, 0.2, 0.3, 0.4, 0.6]), 100);
     expect(g.even).toBe(false);
     const expected = [0, 25, 43.75, 56.25, 75, 100];
-    g.edges.forEach((e, i) => expect(e).toBeCloseTo(expected[i] as number, 9));
-    [12.5, 37.5, 50, 62.5, 87.5].forEach((c, i) => expect(g.centres[i]).toBeCloseTo(c, 9));
+    g.edges.forEach((e, i) => {
+      expect(e).toBeCloseTo(expected[i] as number, 9);
+    });
+    [12.5, 37.5, 50, 62.5, 87.5].forEach((c, i) => {
+      expect(g.centres[i]).toBeCloseTo(c, 9);
+    });
     // Between cell centres a position in cell units maps linearly between the values.
     expect(g.at(1.5)).toBeCloseTo(37.5, 9);
     expect(g.at(2)).toBeCloseTo(43.75, 9);
@@ -151,7 +155,9 @@ describe('a phase diagram of an uneven grid', () => {
       .map((m) => Number(m[1]));
     // The plot is 5 cells of 64 px = 320 px; the gaps 0.2, 0.1, 0.1, 0.2 give widths in the ratio 2 : 1.5 : 1 : 1.5 : 2.
     const unit = 320 / 8;
-    [2, 1.5, 1, 1.5, 2].forEach((r, i) => expect(widths[i]).toBeCloseTo(r * unit, 1));
+    [2, 1.5, 1, 1.5, 2].forEach((r, i) => {
+      expect(widths[i]).toBeCloseTo(r * unit, 1);
+    });
     expect(svg).toContain('minicolumns, log scale');
     expect(svg).not.toContain('patternOverlap, log scale');
   });

@@ -1,3 +1,4 @@
+import { wilsonInterval } from '../../../shared/wilson.js';
 import { shellWord } from '../../shell-text.js';
 import { formatNumber, formatValue } from '../axis.js';
 import { type BinomialPoint, unitCoordinate } from '../local-likelihood-data.js';
@@ -8,7 +9,6 @@ import type { ReportGroup } from '../report-group.js';
 import { MAX_FACET_BINS } from '../report-settings.js';
 import { renderScatterDiagram, type ScatterMarker } from '../scatter-diagram.js';
 import { type ScatterAxis, scatterLayout } from '../scatter-layout.js';
-import { wilsonInterval } from '../../../shared/wilson.js';
 import { diagramFigure, diagramSection, slug } from './figure.js';
 import { metricLabel } from './phase-diagrams.js';
 import type { ChartOutput, ReportChart } from './report-chart.js';
