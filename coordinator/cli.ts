@@ -18,6 +18,7 @@ const COMMANDS: Readonly<Record<string, () => Promise<Register>>> = {
   submit: async () => (await import('./commands/submit.js')).registerSubmit,
   worker: async () => (await import('./commands/worker.js')).registerWorker,
   progress: async () => (await import('./commands/progress.js')).registerProgress,
+  finish: async () => (await import('./commands/finish.js')).registerFinish,
   requeue: async () => (await import('./commands/requeue.js')).registerRequeue,
   gather: async () => (await import('./commands/gather.js')).registerGather,
   cancel: async () => (await import('./commands/cancel.js')).registerCancel,
@@ -49,6 +50,10 @@ const SUMMARIES: Readonly<Record<keyof typeof COMMANDS, readonly [args: string, 
   progress: [
     '<dir>',
     'How far a sweep is: finished jobs from the result files, waiting/running/failed jobs from the queue, rate and time left',
+  ],
+  finish: [
+    '<dir>',
+    'Follow a queued sweep to its end: gather results from Redis as they come, queue again what Redis lost, build the report',
   ],
   requeue: [
     '<dir>',

@@ -2,8 +2,7 @@ import type { Command } from 'commander';
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { demoSweep } from '../demo-sweep.js';
-import { buildReport } from '../summarize/build-report.js';
-import { displayPath, executeSweep, shellWord } from './run.js';
+import { executeSweep, shellWord } from './run.js';
 
 interface DemoFlags {
   readonly out: string;
@@ -32,22 +31,15 @@ export function registerDemo(program: Command): void {
         const words = ['recallscape', 'demo', '--out', flags.out];
         if (flags.threads !== undefined) words.push('--threads', String(threads));
         if (replicates !== undefined) words.push('--replicates', String(replicates));
-        const result = await executeSweep({
+        // The demo ends with the report of the finished sweep, as `run` does.
+        await executeSweep({
           sweep,
           root: flags.out,
           threads,
           resumeCommand: words.map(shellWord).join(' '),
           loggerName: 'demo',
-          reportHint: false,
+          report: true,
         });
-        if (result.stopped !== null) return;
-        // The demo ends with the report of the finished sweep.
-        const report = await buildReport({ dir: result.dir });
-        const diagrams = report.files.filter((f) => f.endsWith('.svg')).length;
-        process.stdout.write(
-          `report: ${displayPath(report.reportDir)}/ (${diagrams} phase diagrams as SVG and PNG, tables as CSV and Markdown)\n` +
-            (report.indexHtml === null ? '' : `open ${displayPath(report.indexHtml)} in a browser\n`),
-        );
       }),
     );
 }

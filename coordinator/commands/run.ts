@@ -3,6 +3,7 @@ import { createLogger } from '../../shared/logger.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
+import { buildClosingReport } from '../finish-report.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
@@ -23,14 +24,15 @@ export interface ExecuteOptions {
   /** The command that resumes this run, for the closing lines. */
   readonly resumeCommand: string;
   readonly loggerName: string;
-  /** Whether to end with the hint to build a report (the demo builds it itself). */
-  readonly reportHint?: boolean;
+  /** Build the report when the run ends (not when stopped by a signal); otherwise end with the hint to build it. */
+  readonly report: boolean;
 }
 
 /**
  * Run a loaded sweep with a progress display and signal handling, print the
- * closing summary, and set the exit code: 0 all done, 1 some jobs failed,
- * 130 stopped by a signal. Used by `run` and `demo`.
+ * closing summary, build the report (unless stopped or told not to), and set
+ * the exit code: 0 all done, 1 some jobs failed, 130 stopped by a signal.
+ * Used by `run` and `demo`.
  */
 export async function executeSweep(options: ExecuteOptions): Promise<RunSweepResult> {
   const logger = createLogger({ name: options.loggerName });
@@ -82,13 +84,15 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
     process.exitCode = EXIT_FAILURE;
   } else {
     lines.push(
-      options.reportHint === false
+      options.report
         ? 'every job has a result.'
         : `every job has a result. build a report with: recallscape report ${shellWord(dir)}`,
     );
     process.exitCode = EXIT_OK;
   }
   out.write(`${lines.join('\n')}\n`);
+  // Failed jobs do not hold the report back: it marks their cells as incomplete.
+  if (options.report && result.stopped === null) await buildClosingReport(result.dir, (text) => out.write(text));
   return result;
 }
 
@@ -97,6 +101,8 @@ interface RunFlags extends ModelCliOptions {
   readonly threads?: string;
   readonly maxJobs: string;
   readonly yes?: boolean;
+  /** False with --no-report. */
+  readonly report: boolean;
 }
 
 export function registerRun(program: Command): void {
@@ -108,6 +114,7 @@ export function registerRun(program: Command): void {
     .option('--threads <n>', 'worker threads (default: one per core)')
     .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
     .option('--yes', 'run even when the sweep has more jobs than the limit')
+    .option('--no-report', 'do not build the report at the end (`recallscape report DIR` builds it any time)')
     .addOption(modelsOption())
     .addOption(modelTimeoutOption())
     .action(
@@ -126,12 +133,14 @@ export function registerRun(program: Command): void {
         if (flags.modelTimeout !== undefined) words.push('--model-timeout', flags.modelTimeout);
         if (flags.yes === true) words.push('--yes');
         else if (flags.maxJobs !== String(DEFAULT_JOB_LIMIT)) words.push('--max-jobs', String(maxJobs));
+        if (!flags.report) words.push('--no-report');
         await executeSweep({
           sweep,
           root: flags.out,
           threads,
           resumeCommand: words.map(shellWord).join(' '),
           loggerName: 'run',
+          report: flags.report,
         });
       }),
     );

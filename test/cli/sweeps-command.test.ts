@@ -57,7 +57,10 @@ beforeAll(async () => {
 
   // partial: 4 points x 1 replicate; its shard cut back to the first record, as a run stopped early leaves it.
   await writeFile(join(files, 'partial.yaml'), small('partial', [0, 0.25, 0.5, 0.75], 1));
-  expect((await runCli(['run', join(files, 'partial.yaml'), '--out', out, '--threads', '1'], root)).code).toBe(0);
+  // --no-report: run would otherwise end with a report, and this sweep is meant to have none.
+  expect(
+    (await runCli(['run', join(files, 'partial.yaml'), '--out', out, '--threads', '1', '--no-report'], root)).code,
+  ).toBe(0);
   const shards = join(out, 'partial', 'results');
   const [shard] = await readdir(shards);
   const firstLine = (await readFile(join(shards, shard ?? ''), 'utf8')).split('\n')[0];
@@ -103,7 +106,10 @@ describe('recallscape sweeps', () => {
     expect((await runCli(['report', join(root, 'results', 'partial')], root)).code).toBe(0);
     expect((await listed()).get('partial')?.report.state).toBe('current');
     // Resuming the run adds the three missing results after the report was built.
-    const resumed = await runCli(['run', join(root, 'files', 'partial.yaml'), '--out', join(root, 'results')], root);
+    const resumed = await runCli(
+      ['run', join(root, 'files', 'partial.yaml'), '--out', join(root, 'results'), '--no-report'],
+      root,
+    );
     expect(resumed.code, resumed.stderr).toBe(0);
     sweeps = await listed();
     expect(sweeps.get('partial')).toMatchObject({ done: 4, planned: 4, report: { state: 'stale' } });
