@@ -3,7 +3,6 @@ import { createLogger } from '../../shared/logger.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
-import { buildClosingReport } from '../finish-report.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
@@ -92,7 +91,11 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
   }
   out.write(`${lines.join('\n')}\n`);
   // Failed jobs do not hold the report back: it marks their cells as incomplete.
-  if (options.report && result.stopped === null) await buildClosingReport(result.dir, (text) => out.write(text));
+  if (options.report && result.stopped === null) {
+    // Loaded here: the renderers take a while to load, and a run should start at once.
+    const { buildClosingReport } = await import('../finish-report.js');
+    await buildClosingReport(result.dir, (text) => out.write(text));
+  }
   return result;
 }
 
