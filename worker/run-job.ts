@@ -1,4 +1,5 @@
 import { isErrorOf, issuesFromZod, ModelFailure } from '../shared/errors.js';
+import { identityProblem, jobKeyPrefix } from '../shared/job-identity.js';
 import type { AnyModel } from '../shared/model.js';
 import { findModel } from '../shared/models/registry.js';
 import { type FailureKind, type JobPayload, JobPayloadSchema, type ResultRecord } from '../shared/schemas/records.js';
@@ -72,6 +73,18 @@ function prepareJob(rawPayload: unknown): PreparedJob | { readonly outcome: JobO
     });
   }
   const payload = parsed.data;
+  // Key, seed and point must be what the payload's own content gives, or a
+  // writer to the queue could file any result under a real job's key. Such a
+  // job is refused without any record: a failure record would name a key it has no right to.
+  let prefix: string;
+  try {
+    prefix = jobKeyPrefix(payload.model, payload.modelVersion, payload.params);
+  } catch (error) {
+    // Nested beyond the stack (a payload is at most 1 MiB, but that is deep enough).
+    return outcome(misnamed(`the parameters cannot be put in canonical form (${String(error).slice(0, 200)})`));
+  }
+  const forged = identityProblem(payload, payload.params, payload.rootSeed, prefix);
+  if (forged !== undefined) return outcome(misnamed(forged));
   const model = findModel(payload.model);
   if (model === undefined) {
     return outcome({
@@ -98,7 +111,23 @@ function prepareJob(rawPayload: unknown): PreparedJob | { readonly outcome: JobO
       .join('; ');
     return outcome({ ok: false, kind: 'invalid', message: `invalid parameters: ${detail}`, retryable: false, payload });
   }
+  // The key covers the parameters as sent; the model must run exactly those (a
+  // planned job carries every parameter, defaults included), not defaults filled in here.
+  if (jobKeyPrefix(payload.model, payload.modelVersion, params.data as Record<string, unknown>) !== prefix) {
+    return outcome(misnamed('the parameters leave out some the model runs with, so the key does not cover the run'));
+  }
   return { payload, model, params: params.data };
+}
+
+/** A job whose key, seed or point is not its own: invalid, and nothing is recorded under the key it claims. */
+function misnamed(problem: string): JobOutcome {
+  return {
+    ok: false,
+    kind: 'invalid',
+    message: `invalid job identity: ${problem}`,
+    retryable: false,
+    payload: undefined,
+  };
 }
 
 function runPrepared({ payload, model, params }: PreparedJob, context: JobContext): JobOutcome {

@@ -81,6 +81,8 @@ export const JobPayloadSchema = z
     point: PointSchema,
     replicate: z.number().int().min(0).max(1_000_000),
     seed: SeedSchema,
+    /** The sweep's root seed, so a worker can check that `seed` is the job's (shared/job-identity.ts). */
+    rootSeed: SeedSchema,
   })
   // Nothing else: a payload never carries a command, a path or code (workers run only their own registered models).
   .strict();

@@ -1,7 +1,6 @@
-import { canonicalJson, sha256Hex } from '../canonical-json.js';
 import { invalidInput, issuesFromZod } from '../errors.js';
 import { derivePoint } from '../formula/derive-point.js';
-import { jobSeed } from '../job-identity.js';
+import { jobKeyAt, jobKeyPrefix, jobSeed } from '../job-identity.js';
 import type { JobPayload, Point } from '../schemas/records.js';
 import { checkJobLimit } from './job-limit.js';
 import type { LoadedSweep } from './load.js';
@@ -79,19 +78,16 @@ export function fullParams(sweep: LoadedSweep, point: Point): Record<string, unk
  */
 export function* expandJobs(sweep: LoadedSweep): Generator<PlannedJob> {
   const { model, spec } = sweep;
-  // jobKey() hashes canonicalJson({ model, modelVersion, params, replicate });
-  // its sorted keys are in exactly this order, so the parameter text is built
-  // once per point instead of once per replicate (tests check equality with jobKey).
-  const head = `{"model":${JSON.stringify(model.id)},"modelVersion":${JSON.stringify(model.version)},"params":`;
+  // The key text of a point is built once and serves every replicate (see jobKeyPrefix).
   for (const point of iteratePoints(sweep)) {
     // A large sweep has only a selection of its points checked while loading
     // (see check-points.ts). A point the model refuses still becomes jobs,
     // with the parameters as written, so the job runner fails them as
     // invalid and records why, and every other job runs.
     const params = resolveParams(sweep, point) ?? refusedParams(sweep, point);
-    const prefix = `${head}${canonicalJson(params)},"replicate":`;
+    const prefix = jobKeyPrefix(model.id, model.version, params);
     for (let replicate = 0; replicate < spec.replicates; replicate++) {
-      const key = sha256Hex(`${prefix}${replicate}}`).slice(0, 32);
+      const key = jobKeyAt(prefix, replicate);
       yield { key, point, params, replicate, seed: jobSeed(spec.seed, key) };
     }
   }
@@ -109,6 +105,7 @@ export function toPayload(sweep: LoadedSweep, job: PlannedJob): JobPayload {
     point: { ...job.point },
     replicate: job.replicate,
     seed: job.seed,
+    rootSeed: sweep.spec.seed,
   };
 }
 

@@ -2,6 +2,7 @@ import { existsSync } from 'node:fs';
 import { join } from 'node:path';
 import { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { jobKey, jobSeed } from '../../shared/job-identity.js';
 import { registerModelFolders } from '../../shared/models/external/model-folders.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
@@ -42,13 +43,25 @@ function validPayload(): Record<string, unknown> {
 
 const context = { writer: 'test', run: 'r1' };
 
+/** A valid payload naming another model, its key and seed made to match (so the worker's identity check passes). */
+function namingModel(model: string): Record<string, unknown> {
+  const payload = validPayload() as {
+    modelVersion: string;
+    params: Record<string, unknown>;
+    replicate: number;
+    rootSeed: number;
+  };
+  const key = jobKey(model, payload.modelVersion, payload.params, payload.replicate);
+  return { ...payload, model, key, seed: jobSeed(payload.rootSeed, key) };
+}
+
 function hostile(): Record<string, Record<string, unknown>> {
   return {
     command: { ...validPayload(), command: ['sh', '-c', `touch ${marker}`] },
     module: { ...validPayload(), module: join(base, 'evil.mjs') },
     code: { ...validPayload(), code: `require('fs').writeFileSync(${JSON.stringify(marker)}, '')` },
-    'model-path': { ...validPayload(), model: join(base, 'evil') },
-    'model-relative': { ...validPayload(), model: '../evil' },
+    'model-path': namingModel(join(base, 'evil')),
+    'model-relative': namingModel('../evil'),
   };
 }
 

@@ -2,6 +2,7 @@ import { mkdir, readdir, stat } from 'node:fs/promises';
 import { join, relative } from 'node:path';
 import { Queue } from 'bullmq';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { jobKey, jobSeed } from '../../shared/job-identity.js';
 import { findModel } from '../../shared/models/registry.js';
 import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
 import { ResultStore } from '../../shared/store/result-store.js';
@@ -66,6 +67,8 @@ describe('a worker given hostile payloads', () => {
     const valid = parseSweepText('name: hostile-ok\nmodel: no-op\nfixed: { value: 4 }\n', 'inline');
     const validJob = expandJobs(valid).next().value;
     if (validJob === undefined) throw new Error('the valid sweep has no job');
+    const hugeParams = { hypercolumns: 1e12, minicolumns: 1e12 };
+    const hugeKey = jobKey('bcpnn-sequences', bcpnn?.version ?? '?', hugeParams, 0);
     const hostile: Record<string, unknown> = {
       'wrong-types': {
         v: 1,
@@ -77,16 +80,18 @@ describe('a worker given hostile payloads', () => {
         replicate: -1,
         seed: 'seed',
       },
+      // Key and seed made to match, so the payload gets as far as the model's parameter schema.
       'huge-numbers': {
         v: 1,
         sweep: { name: 'hostile-big', hash: HASH },
-        key: KEY,
+        key: hugeKey,
         model: 'bcpnn-sequences',
         modelVersion: bcpnn?.version ?? '?',
-        params: { hypercolumns: 1e12, minicolumns: 1e12 },
+        params: hugeParams,
         point: {},
         replicate: 0,
-        seed: 1,
+        seed: jobSeed(1, hugeKey),
+        rootSeed: 1,
       },
       'path-in-name': {
         v: 1,
@@ -156,6 +161,77 @@ describe('a worker given hostile payloads', () => {
     await expect(stat(join(base, 'deep', 'etc'))).rejects.toThrow();
     // Only folders named by valid sweep names appear under the root.
     expect((await readdir(resultsRoot)).every((n) => /^[a-z0-9._-]+$/.test(n) && !n.includes('..'))).toBe(true);
+  });
+});
+
+describe('a worker given payloads that claim another identity', () => {
+  it("refuses forged keys, seeds and extra fields without writing any record, and files another sweep's job only in that sweep's folder", async () => {
+    const mine = parseSweepText(
+      'name: forge-target\nmodel: no-op\nseed: 5\nreplicates: 2\nfixed: { value: 3 }\n',
+      'inline',
+    );
+    const store = ResultStore.at(resultsRoot, 'forge-target');
+    await store.prepare(mine);
+    const [first, second] = [...expandJobs(mine)];
+    if (first === undefined || second === undefined) throw new Error('two jobs expected');
+    const real = toPayload(mine, first);
+    const other = parseSweepText('name: forge-other\nmodel: no-op\nfixed: { value: 9 }\n', 'inline');
+    const otherJob = expandJobs(other).next().value;
+    if (otherJob === undefined) throw new Error('the other sweep has no job');
+    const payloads: Record<string, unknown> = {
+      // A real key and seed with another value: the worker must not file 1000 under job 0.
+      'forged-params': { ...real, params: { value: 1000 } },
+      'forged-seed': { ...real, seed: (real.seed + 1) % 2 ** 53 },
+      'forged-key': { ...real, key: second.key },
+      'forged-point': { ...real, point: { value: 1000 } },
+      'extra-field': { ...real, exec: 'touch /tmp/pwned' },
+      'extra-param': { ...real, params: { ...real.params, command: 'ls' } },
+      // A valid job of a sweep that has no folder here yet.
+      'other-sweep': toPayload(other, otherJob),
+    };
+    const expectations: Record<string, RegExp> = {
+      'forged-params': /^invalid: invalid job identity: key/,
+      'forged-seed': /^invalid: invalid job identity: seed/,
+      'forged-key': /^invalid: invalid job identity: key/,
+      'forged-point': /^invalid: invalid job identity: point\.value/,
+      'extra-field': /^invalid: invalid job payload: .*exec/i,
+      'extra-param': /^invalid: invalid job identity|^invalid: invalid parameters/,
+    };
+    const client = await inspector(SHARED_REDIS);
+    const q = new Queue(queue.name, { connection: client.duplicate(), prefix: queue.prefix });
+    try {
+      const opts = { attempts: 4, backoff: { type: 'exponential', delay: 1_000 } };
+      for (const [id, data] of Object.entries(payloads))
+        await q.add('forged', data, { ...opts, jobId: `forged-${id}` });
+      await waitFor(
+        'every forged job to end',
+        async () => {
+          const states = await Promise.all(Object.keys(payloads).map((id) => q.getJobState(`forged-${id}`)));
+          return states.every((s) => s === 'failed' || s === 'completed') ? true : undefined;
+        },
+        60_000,
+        200,
+      );
+      for (const [id, pattern] of Object.entries(expectations)) {
+        const job = await q.getJob(`forged-${id}`);
+        expect(await job?.getState(), id).toBe('failed');
+        expect(job?.failedReason, id).toMatch(pattern);
+        expect(job?.attemptsMade, id).toBe(1);
+      }
+      expect(await q.getJobState('forged-other-sweep')).toBe('completed');
+    } finally {
+      await q.close();
+      client.disconnect();
+    }
+    // Nothing was filed under the target sweep: no result and no failure record.
+    expect(await readNdjson(store.resultsDir)).toEqual([]);
+    expect(await readNdjson(store.failuresDir)).toEqual([]);
+    // The other sweep's record is in its own folder, directly under the results root, and nowhere else.
+    const otherRecords = await readNdjson(join(resultsRoot, 'forge-other', 'results'));
+    expect(otherRecords.map((r) => r['key'])).toEqual([otherJob.key]);
+    expect(otherRecords[0]?.['sweepHash']).toBe(other.hash);
+    for (const file of await filesUnder(base)) expect(file.startsWith(join('deep', 'a', 'results'))).toBe(true);
+    expect(worker.child.exitCode).toBeNull();
   });
 });
 
@@ -238,9 +314,12 @@ describe('requeue --failed', () => {
     const flags = ['--redis', SHARED_REDIS, '--json', ...queue.flags];
     try {
       // The first job arrives asking for a model version no worker has: it fails without retries.
+      // Key and seed as a coordinator with version 999 of the model would make them.
+      const params = broken.params as Record<string, unknown>;
+      const key999 = jobKey('no-op', '999', params, broken.replicate);
       await q.add(
         'retry-me',
-        { ...toPayload(sweep, broken), modelVersion: '999' },
+        { ...toPayload(sweep, broken), modelVersion: '999', key: key999, seed: jobSeed(sweep.spec.seed, key999) },
         { jobId: jobIdFor(sweep.hash, broken.key), attempts: 4 },
       );
       await waitFor(

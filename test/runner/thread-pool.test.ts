@@ -28,6 +28,7 @@ function burnPayload(burnMs: number, replicate: number, modelVersion = '1'): Job
     point: { burnMs },
     replicate,
     seed: jobSeed(1, key),
+    rootSeed: 1,
   };
 }
 
