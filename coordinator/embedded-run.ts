@@ -4,7 +4,7 @@ import { isErrorOf } from '../shared/errors.js';
 import { newWriterId, type ResultStore } from '../shared/store/result-store.js';
 import { countJobs, type PlannedJob, toPayload } from '../shared/sweep/expand.js';
 import { type JobResult, JobRunner } from '../worker/job-runner.js';
-import { PoolTerminated } from '../worker/pool-errors.js';
+import { PoolClosed, PoolTerminated } from '../worker/pool-errors.js';
 import { ShardSinks } from '../worker/shard-sinks.js';
 import { ThreadPool } from '../worker/thread-pool.js';
 import type { PastRuns } from './past-runs.js';
@@ -14,17 +14,18 @@ import type { RunProgress, RunStart, RunSweepOptions, RunSweepResult } from './r
 const LOGGED_FAILURES = 5;
 /** Finished jobs skipped between two looks at signals and progress while fast-forwarding. */
 const SKIP_BATCH = 5_000;
-
-function abortPromise(signal: AbortSignal | undefined): Promise<void> {
-  if (signal === undefined) return new Promise(() => {});
-  if (signal.aborted) return Promise.resolve();
-  return new Promise((resolve) => signal.addEventListener('abort', () => resolve(), { once: true }));
-}
+/**
+ * Jobs handed to the pool per thread, beyond those whose record waits for a
+ * sync: the running one and one queued, so a thread starts its next job the
+ * moment it replies instead of waiting for the main thread's turn.
+ */
+export const JOBS_PER_THREAD = 2;
 
 /**
  * One run of the embedded runner over a prepared sweep folder: feeds jobs
- * without a result to the job runner, one per thread at a time, counts what
- * happens, and stops on the two signals or on the first fatal error.
+ * without a result to the job runner (two per thread, plus those waiting
+ * for a group commit), counts a job done once its record is durable, and
+ * stops on the two signals or on the first fatal error.
  */
 export class EmbeddedRun {
   readonly start: RunStart;
@@ -40,6 +41,13 @@ export class EmbeddedRun {
   private readonly inFlight = new Set<Promise<void>>();
   /** Jobs this run means to execute: exact once every job was visited. */
   private toRun: number;
+  /** Wakes the feeding loop: a job ended, a record started waiting for a sync, or a signal came. */
+  private wake: (() => void) | undefined;
+  private readonly poke = (): void => {
+    const wake = this.wake;
+    this.wake = undefined;
+    wake?.();
+  };
 
   constructor(
     private readonly options: RunSweepOptions,
@@ -55,7 +63,7 @@ export class EmbeddedRun {
     this.sinks = new ShardSinks({
       root: options.root,
       writer,
-      durability: 'later',
+      durability: 'each-job',
       ...(options.shardFs === undefined ? {} : { fs: options.shardFs }),
     });
     this.pool = new ThreadPool({
@@ -89,8 +97,13 @@ export class EmbeddedRun {
       toRun: this.toRun,
       succeeded: this.succeeded,
       failed: this.failed,
-      running: this.inFlight.size,
+      running: this.running(),
     };
+  }
+
+  /** Jobs in a thread now: handed to the pool and not yet waiting for a sync, at most one per thread. */
+  private running(): number {
+    return Math.min(this.pool.threads, this.inFlight.size - this.sinks.awaiting);
   }
 
   private report(): void {
@@ -102,29 +115,27 @@ export class EmbeddedRun {
     if (this.fatal !== null) return;
     this.fatal = error;
     void this.pool.terminate();
+    this.poke();
   }
 
   private readonly hardStop = (): void => {
     void this.pool.terminate();
+    this.poke();
+  };
+
+  /** Graceful stop: jobs merely queued for a thread are taken back; running ones finish and are written. */
+  private readonly softStop = (): void => {
+    this.pool.withdrawQueued();
+    this.poke();
   };
 
   /** Run every job of `jobs` without a result, until done, stopped or failed; throws the fatal error. */
   async execute(jobs: Iterable<PlannedJob>): Promise<void> {
     const { options } = this;
     options.abandonSignal?.addEventListener('abort', this.hardStop, { once: true });
-    const syncEvery = (options.syncSeconds ?? 5) * 1000;
-    let lastSync = performance.now();
-    const ticker = setInterval(() => {
-      this.report();
-      if (performance.now() - lastSync >= syncEvery) {
-        lastSync = performance.now();
-        try {
-          this.sinks.syncAll();
-        } catch (error) {
-          this.failRun(error);
-        }
-      }
-    }, 1000);
+    options.signal?.addEventListener('abort', this.softStop, { once: true });
+    const stopListening = this.sinks.onAwaitingChange(this.poke);
+    const ticker = setInterval(() => this.report(), 1000);
     ticker.unref();
     this.report();
     try {
@@ -132,7 +143,9 @@ export class EmbeddedRun {
       await Promise.all([...this.inFlight]);
     } finally {
       clearInterval(ticker);
+      stopListening();
       options.abandonSignal?.removeEventListener('abort', this.hardStop);
+      options.signal?.removeEventListener('abort', this.softStop);
       if (this.abandoned || this.fatal !== null) await this.pool.terminate();
       else await this.pool.close();
       try {
@@ -147,11 +160,9 @@ export class EmbeddedRun {
   }
 
   private async feed(jobs: Iterable<PlannedJob>): Promise<void> {
-    const { options } = this;
-    const stopRequested = Promise.race([abortPromise(options.signal), abortPromise(options.abandonSignal)]);
-    // Jobs handed to the pool at once: one per thread, so a graceful stop never
-    // starts a job that was merely queued.
-    const limit = this.pool.threads;
+    // Jobs handed to the pool and not yet waiting for a sync. A graceful stop
+    // takes the queued ones back, so it never starts a job that was merely queued.
+    const limit = JOBS_PER_THREAD * this.pool.threads;
     let skipped = 0;
     for (const job of jobs) {
       if (this.stopping()) break;
@@ -164,8 +175,10 @@ export class EmbeddedRun {
         }
         continue;
       }
-      while (this.inFlight.size >= limit && !this.stopping()) {
-        await Promise.race([...this.inFlight, stopRequested]);
+      while (this.inFlight.size - this.sinks.awaiting >= limit && !this.stopping()) {
+        await new Promise<void>((wake) => {
+          this.wake = wake;
+        });
       }
       if (this.stopping()) break;
       this.launch(job);
@@ -186,10 +199,13 @@ export class EmbeddedRun {
       .catch((error: unknown) => {
         // An abandoned job writes nothing; anything else ends the run.
         if (isErrorOf(error, PoolTerminated) && (this.abandoned || this.fatal !== null)) return;
+        // Taken back from the pool's queue by a graceful stop: it never started.
+        if (isErrorOf(error, PoolClosed) && this.options.signal?.aborted === true) return;
         this.failRun(error);
       })
       .finally(() => {
         this.inFlight.delete(task);
+        this.poke();
       });
     this.inFlight.add(task);
   }

@@ -40,8 +40,6 @@ export interface RunSweepOptions {
   /** Called once the folder is ready and finished jobs are known, before any job starts. */
   readonly onStart?: (info: RunStart) => void;
   readonly logger: Logger;
-  /** Seconds between fdatasync calls on the shard files. */
-  readonly syncSeconds?: number;
   /** Thread script, for callers running from sources (tests); default: the compiled one. */
   readonly threadEntry?: URL;
   /** File calls of the shard writer (tests inject a failing disk); default: node:fs. */

@@ -4,11 +4,14 @@ import type { ConsumedJob, JobHandler, JobVerdict, WorkConsumer } from '../share
 import { JobPayloadSchema } from '../shared/schemas/records.js';
 import type { JobRunner } from './job-runner.js';
 import { PoolBroken, PoolUnavailable } from './pool-errors.js';
+import type { ShardSinks } from './shard-sinks.js';
 
 /** With prefetch 'auto': hold extra jobs while the mean job takes less than this. */
 export const AUTO_PREFETCH_BELOW_MS = 100;
 /** With prefetch 'auto': extra jobs held per thread while jobs are short. */
 export const AUTO_PREFETCH_PER_THREAD = 4;
+/** Most jobs held beyond threads and prefetch for records waiting on a sync (tiny jobs on a slow disk). */
+export const MAX_SYNC_ALLOWANCE = 512;
 
 export interface QueueWorkerOptions {
   readonly runner: JobRunner;
@@ -21,6 +24,13 @@ export interface QueueWorkerOptions {
    * 'auto' (the default) prefetches only while recent jobs are short.
    */
   readonly prefetch?: number | 'auto';
+  /**
+   * The runner's shard sinks. Jobs whose record waits for a group commit
+   * still hold their queue lock (they are acknowledged after the sync), so
+   * the worker holds extra jobs for them, sized from how many waited at once
+   * recently: the threads then never wait for a sync.
+   */
+  readonly sinks?: ShardSinks;
   /** The pool can run nothing (e.g. threads fail to load): the worker should stop rather than fail every job. */
   readonly onFatal?: (reason: string) => void;
 }
@@ -28,28 +38,68 @@ export interface QueueWorkerOptions {
 /**
  * A worker's job handler for jobs of every sweep: checks the one payload
  * field used for a path, runs the job through the job runner (the record is
- * on disk before the verdict), and answers with a verdict. The record is also
- * the job's return value, for coordinators that share no disk with this machine.
+ * on disk, covered by a group commit, before the verdict), and answers with a
+ * verdict. The record is also the job's return value, for coordinators that
+ * share no disk with this machine.
  */
 export class QueueWorker {
   private readonly root: string;
   private consumer: WorkConsumer | undefined;
   /** Moving mean of recent jobs' simulation time (ms), for prefetch 'auto'. */
   private meanJobMs: number | undefined;
+  /** Jobs held for records waiting on a sync, beyond threads and prefetch. */
+  private syncAllowance: number;
+  /** Most jobs seen waiting for a sync at once since the last sync ended. */
+  private peakAwaiting = 0;
 
   constructor(private readonly options: QueueWorkerOptions) {
     this.root = resolve(options.resultsRoot);
+    // A first guess; the first syncs correct it.
+    this.syncAllowance = options.sinks === undefined ? 0 : options.runner.threads;
   }
 
-  /** Jobs to hold at the start: one per thread, plus a fixed prefetch ('auto' starts without extra jobs). */
+  /** Jobs to hold at the start: one per thread, a fixed prefetch ('auto' starts without extra jobs), the sync allowance. */
   get initialConcurrency(): number {
     const prefetch = this.options.prefetch;
-    return this.options.runner.threads + (typeof prefetch === 'number' ? prefetch : 0);
+    return this.options.runner.threads + (typeof prefetch === 'number' ? prefetch : 0) + this.syncAllowance;
   }
 
-  /** The consumer whose concurrency prefetch 'auto' adjusts. */
+  /** The consumer whose concurrency the worker adjusts (prefetch 'auto', sync allowance). */
   attach(consumer: WorkConsumer): void {
     this.consumer = consumer;
+    let before = this.options.sinks?.awaiting ?? 0;
+    this.options.sinks?.onAwaitingChange((awaiting) => {
+      const ended = awaiting < before;
+      before = awaiting;
+      this.peakAwaiting = Math.max(this.peakAwaiting, awaiting);
+      if (ended) this.adaptSyncAllowance(awaiting);
+    });
+  }
+
+  /**
+   * After a sync: allow twice the most jobs that waited at once, so a burst
+   * larger than the last one still leaves the threads fed; when every held
+   * job ended up waiting (the threads starved), this doubles the allowance
+   * each sync until they no longer do. Shrinks slowly, as syncs vary.
+   */
+  private adaptSyncAllowance(awaiting: number): void {
+    const wanted = Math.max(this.options.runner.threads, 2 * this.peakAwaiting, Math.floor(0.9 * this.syncAllowance));
+    this.syncAllowance = Math.min(MAX_SYNC_ALLOWANCE, wanted);
+    this.peakAwaiting = awaiting;
+    this.updateConcurrency();
+  }
+
+  private updateConcurrency(): void {
+    if (this.consumer === undefined) return;
+    const threads = this.options.runner.threads;
+    const prefetch = this.options.prefetch ?? 'auto';
+    const extra =
+      prefetch !== 'auto'
+        ? prefetch
+        : this.meanJobMs !== undefined && this.meanJobMs < AUTO_PREFETCH_BELOW_MS
+          ? AUTO_PREFETCH_PER_THREAD * threads
+          : 0;
+    this.consumer.concurrency = threads + extra + this.syncAllowance;
   }
 
   readonly handle: JobHandler = async (job: ConsumedJob): Promise<JobVerdict> => {
@@ -93,11 +143,8 @@ export class QueueWorker {
    */
   private adaptPrefetch(jobMs: number): void {
     if (this.options.prefetch !== undefined && this.options.prefetch !== 'auto') return;
-    if (this.consumer === undefined) return;
     this.meanJobMs = this.meanJobMs === undefined ? jobMs : 0.8 * this.meanJobMs + 0.2 * jobMs;
-    const threads = this.options.runner.threads;
-    this.consumer.concurrency =
-      threads + (this.meanJobMs < AUTO_PREFETCH_BELOW_MS ? AUTO_PREFETCH_PER_THREAD * threads : 0);
+    this.updateConcurrency();
   }
 
   /** The payload's sweep name when it is a plain folder name, else undefined. */

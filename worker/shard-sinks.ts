@@ -1,12 +1,12 @@
 import { ResultStore, type ShardFs, type ShardWriter } from '../shared/store/result-store.js';
+import { GroupCommit } from './group-commit.js';
 
 /**
  * When appended records must be on disk:
  * - 'each-job': before the job is reported done (a queue acknowledges it
- *   only then); jobs that finish in the same turn of the event loop share
- *   one fdatasync;
- * - 'later': whenever the owner calls syncAll() (the embedded runner does it
- *   every few seconds and at the end; a lost record there is simply run again).
+ *   only then), by group commit: one fdatasync, off the main thread, covers
+ *   every record appended since the previous one started;
+ * - 'later': whenever the owner calls syncAll() (a lost record is simply run again).
  */
 export type Durability = 'each-job' | 'later';
 
@@ -16,15 +16,20 @@ export interface ShardSinksOptions {
   /** This process's writer id (the shard file name in every sweep folder). */
   readonly writer: string;
   readonly durability: Durability;
-  /** File calls of the shard writers (tests inject a failing disk); default: node:fs. */
+  /** File calls of the shard writers (tests inject a failing disk or count syncs); default: node:fs. */
   readonly fs?: ShardFs;
 }
+
+/** Called whenever the number of jobs waiting for a sync changes: +1 per new waiter, once per sync when it ends. */
+export type AwaitingListener = (awaiting: number) => void;
 
 /** The shard writers of one process, one per sweep folder, opened on first use. */
 export class ShardSinks {
   readonly writer: string;
   private readonly writers = new Map<string, ShardWriter>();
-  private readonly pendingSyncs = new Map<ShardWriter, Promise<void>>();
+  private readonly commits = new Map<ShardWriter, GroupCommit>();
+  private readonly listeners = new Set<AwaitingListener>();
+  private waiting = 0;
 
   constructor(private readonly options: ShardSinksOptions) {
     this.writer = options.writer;
@@ -40,29 +45,42 @@ export class ShardSinks {
     return writer;
   }
 
-  /** Resolves once what was appended for `name` so far is as durable as the policy asks. */
+  /**
+   * Resolves once what was appended for `name` so far is as durable as the
+   * policy asks. With 'each-job' the caller waits for the group commit that
+   * covers its record; meanwhile it counts as awaiting a sync.
+   */
   durable(name: string): Promise<void> {
     if (this.options.durability === 'later') return Promise.resolve();
     const writer = this.writerFor(name);
-    let pending = this.pendingSyncs.get(writer);
-    if (pending === undefined) {
-      pending = new Promise<void>((done, fail) => {
-        setImmediate(() => {
-          this.pendingSyncs.delete(writer);
-          try {
-            writer.sync();
-            done();
-          } catch (error) {
-            fail(error instanceof Error ? error : new Error(String(error)));
-          }
-        });
-      });
-      this.pendingSyncs.set(writer, pending);
+    let commit = this.commits.get(writer);
+    if (commit === undefined) {
+      commit = new GroupCommit(writer, (waiters) => this.changeWaiting(-waiters));
+      this.commits.set(writer, commit);
     }
-    return pending;
+    const covered = commit.covering();
+    if (covered === undefined) return Promise.resolve();
+    this.changeWaiting(+1);
+    return covered;
   }
 
-  /** fdatasync every open shard; throws the first failure after trying them all. */
+  /** Jobs whose record is written but not yet covered by a finished sync. */
+  get awaiting(): number {
+    return this.waiting;
+  }
+
+  /** Calls `listener` whenever `awaiting` changes; returns the function that stops that. */
+  onAwaitingChange(listener: AwaitingListener): () => void {
+    this.listeners.add(listener);
+    return () => this.listeners.delete(listener);
+  }
+
+  private changeWaiting(by: number): void {
+    this.waiting += by;
+    for (const listener of this.listeners) listener(this.waiting);
+  }
+
+  /** fdatasync every open shard on this thread; throws the first failure after trying them all. */
   syncAll(): void {
     let first: unknown;
     for (const writer of this.writers.values()) {
@@ -75,6 +93,7 @@ export class ShardSinks {
     if (first !== undefined) throw first;
   }
 
+  /** Closes every shard (one still being synced is closed when its sync ends). */
   close(): void {
     for (const writer of this.writers.values()) {
       try {
@@ -84,5 +103,6 @@ export class ShardSinks {
       }
     }
     this.writers.clear();
+    this.commits.clear();
   }
 }

@@ -93,6 +93,18 @@ export class ThreadPool {
     });
   }
 
+  /**
+   * Take back the jobs waiting for a thread (none of them started): their
+   * run() promises reject with PoolClosed. Running jobs are untouched.
+   */
+  withdrawQueued(): void {
+    const waiting = this.queue;
+    this.queue = [];
+    const error = new PoolClosed('taken back before it started');
+    for (const task of waiting) task.reject(error);
+    this.notifyIfDrained();
+  }
+
   /** Finish running and queued jobs, then stop the threads. */
   async close(): Promise<void> {
     if (this.state === 'open') this.state = 'closing';

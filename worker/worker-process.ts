@@ -45,6 +45,7 @@ export async function runWorkerProcess(options: WorkerProcessOptions): Promise<v
     runner: new JobRunner({ pool, sinks, run }),
     resultsRoot: options.out,
     prefetch: options.prefetch,
+    sinks,
     onFatal: (reason) => {
       logger.error({ reason }, 'cannot run jobs; stopping');
       fatal = reason;

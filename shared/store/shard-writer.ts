@@ -12,8 +12,17 @@ export interface ShardWriter {
    */
   appendResult(record: ResultRecord): void;
   appendFailure(record: FailureRecord): void;
-  /** fdatasync both shard files. */
+  /** Lines appended so far (results and failures): a sync started now covers this many. */
+  readonly appended: number;
+  /** fdatasync both shard files, blocking this thread. */
   sync(): void;
+  /**
+   * fdatasync both shard files off this thread (libuv's pool); covers every
+   * line appended before the call. Rejects with ShardWriteError and poisons
+   * the writer as a failed write does.
+   */
+  syncAsync(): Promise<void>;
+  /** Closes the files; one with a syncAsync still running is closed once it ends. */
   close(): void;
 }
 
@@ -23,6 +32,8 @@ export interface ShardFs {
   openSync(path: string, flags: 'a'): number;
   writeSync(fd: number, buffer: Uint8Array, offset?: number): number;
   fdatasyncSync(fd: number): void;
+  /** fdatasync off the main thread; when absent, syncAsync() falls back to fdatasyncSync. */
+  fdatasync?(fd: number, done: (error: NodeJS.ErrnoException | null) => void): void;
   closeSync(fd: number): void;
 }
 
@@ -31,6 +42,7 @@ const NODE_FS: ShardFs = {
   openSync: (path, flags) => nodeFs.openSync(path, flags),
   writeSync: (fd, buffer, offset) => nodeFs.writeSync(fd, buffer, offset),
   fdatasyncSync: (fd) => nodeFs.fdatasyncSync(fd),
+  fdatasync: (fd, done) => nodeFs.fdatasync(fd, done),
   closeSync: (fd) => nodeFs.closeSync(fd),
 };
 
@@ -67,6 +79,9 @@ interface Poison {
 /** Appends whole lines to one file, opened lazily in append mode. */
 class AppendFile {
   private fd: number | undefined;
+  /** Asynchronous syncs running on `fd`: it is closed only once they end, so the number is never reused under one. */
+  private syncing = 0;
+  private closeWhenIdle: number | undefined;
   constructor(
     private readonly folder: string,
     private readonly path: string,
@@ -107,6 +122,44 @@ class AppendFile {
     }
   }
 
+  syncAsync(): Promise<void> {
+    const fd = this.fd;
+    if (fd === undefined) return Promise.resolve();
+    const fs = this.fs;
+    if (fs.fdatasync === undefined) {
+      try {
+        this.sync();
+        return Promise.resolve();
+      } catch (error) {
+        return Promise.reject(error as Error);
+      }
+    }
+    this.syncing++;
+    return new Promise<void>((done, reject) => {
+      fs.fdatasync?.(fd, (cause) => {
+        this.syncing--;
+        if (this.syncing === 0 && this.closeWhenIdle !== undefined) {
+          const closing = this.closeWhenIdle;
+          this.closeWhenIdle = undefined;
+          try {
+            this.fs.closeSync(closing);
+          } catch {
+            // Closed after a failed sync: the failure is reported below or was already.
+          }
+        }
+        if (cause === null) {
+          done();
+          return;
+        }
+        try {
+          this.fail('flushing', cause);
+        } catch (error) {
+          reject(error as Error);
+        }
+      });
+    });
+  }
+
   private fail(what: string, cause: unknown): never {
     const error = new ShardWriteError(
       `${what} the shard file ${this.path} failed (${describeCause(cause)}); it may end in a torn line, which readers skip, and nothing more is appended to it`,
@@ -121,7 +174,8 @@ class AppendFile {
     if (this.fd !== undefined) {
       const fd = this.fd;
       this.fd = undefined;
-      this.fs.closeSync(fd);
+      if (this.syncing > 0) this.closeWhenIdle = fd;
+      else this.fs.closeSync(fd);
     }
   }
 }
@@ -136,6 +190,7 @@ export function createShardWriter(
     throw new RangeError(`writer id "${writer}" may contain only a-z, 0-9, ".", "_", "-" (no ".."); use newWriterId()`);
   }
   const poison: Poison = { error: undefined };
+  let appended = 0;
   const results = new AppendFile(resultsDir, join(resultsDir, `${writer}.ndjson`), fs, poison);
   const failures = new AppendFile(failuresDir, join(failuresDir, `${writer}.ndjson`), fs, poison);
   let closed = false;
@@ -150,6 +205,7 @@ export function createShardWriter(
       if (!checked.success)
         throw new TypeError(`refusing to write a malformed result record: ${checked.error.message}`);
       results.appendLine(`${JSON.stringify(checked.data)}\n`);
+      appended++;
     },
     appendFailure(record: FailureRecord): void {
       open();
@@ -157,6 +213,10 @@ export function createShardWriter(
       if (!checked.success)
         throw new TypeError(`refusing to write a malformed failure record: ${checked.error.message}`);
       failures.appendLine(`${JSON.stringify(checked.data)}\n`);
+      appended++;
+    },
+    get appended(): number {
+      return appended;
     },
     sync(): void {
       // Flush both even if the first fails, then report the first failure.
@@ -169,6 +229,11 @@ export function createShardWriter(
         }
       }
       if (first !== undefined) throw first;
+    },
+    async syncAsync(): Promise<void> {
+      // Both run at once; the first failure is reported after both ended.
+      const settled = await Promise.allSettled([results.syncAsync(), failures.syncAsync()]);
+      for (const outcome of settled) if (outcome.status === 'rejected') throw outcome.reason;
     },
     close(): void {
       if (closed) return;

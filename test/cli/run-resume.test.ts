@@ -70,9 +70,11 @@ function byKey(records: Array<Record<string, unknown>>): Map<string, Array<Recor
 }
 
 describe('recallscape run, interrupted and resumed', () => {
-  it('resumes after SIGKILL without losing or repeating a finished job, with the metrics of an uninterrupted run', async () => {
+  it('resumes after SIGKILL, twice, without losing or repeating a finished job, with the metrics of an uninterrupted run', async () => {
     expect(modelKeys).toHaveLength(96);
     const killedResults = resultsOf('killed', 'bcpnn-resume');
+    const completeKeys = async (): Promise<Set<string>> =>
+      new Set((await shardRecords(killedResults)).map((r) => String(r['key'])));
     const first = startCli(['run', modelFile, '--out', 'killed', '--threads', '2'], dir);
     await waitFor(async () => (await shardLines(killedResults)).filter((l) => l.complete).length >= 6, 60_000, 20);
     first.child.kill('SIGKILL');
@@ -84,23 +86,32 @@ describe('recallscape run, interrupted and resumed', () => {
     expect(firstKeys.size).toBeGreaterThanOrEqual(6);
     expect(firstKeys.size).toBeLessThan(96);
 
+    // The resumed run is killed part way too: records still wait for their group commit then.
+    const resumed = startCli(['run', modelFile, '--out', 'killed', '--threads', '2'], dir);
+    await waitFor(async () => (await completeKeys()).size >= firstKeys.size + 6, 60_000, 20);
+    resumed.child.kill('SIGKILL');
+    expect((await resumed.done).signal).toBe('SIGKILL');
+    const beforeLast = await completeKeys();
+    expect(beforeLast.size).toBeLessThan(96);
+
     const second = await runCli(['run', modelFile, '--out', 'killed', '--threads', '2'], dir);
     expect(second.stderr).not.toContain('recallscape:');
     expect(second.code).toBe(0);
-    expect(second.stdout).toContain(`${firstKeys.size} had results before this run`);
+    expect(second.stdout).toContain(`${beforeLast.size} had results before this run`);
 
     const all = await shardRecords(killedResults);
     const grouped = byKey(all);
     // Every planned key has exactly one record: nothing lost, nothing run twice.
     expect([...grouped.keys()].sort()).toEqual(modelKeys);
     for (const records of grouped.values()) expect(records).toHaveLength(1);
-    // Two invocations wrote records, and the second ran none of the first one's jobs.
+    // Three invocations wrote records; the last ran exactly the jobs the two killed ones had not finished.
     const firstRun = String(firstRecords[0]!['run']);
     expect(new Set(firstRecords.map((r) => r['run']))).toEqual(new Set([firstRun]));
-    const secondRun = all.filter((r) => r['run'] !== firstRun);
-    expect(new Set(secondRun.map((r) => r['run'])).size).toBe(1);
-    expect(secondRun.length).toBe(96 - firstKeys.size);
-    for (const r of secondRun) expect(firstKeys.has(String(r['key']))).toBe(false);
+    expect(new Set(all.map((r) => r['run'])).size).toBe(3);
+    const lastRun = all.filter((r) => !beforeLast.has(String(r['key'])));
+    expect(new Set(lastRun.map((r) => r['run'])).size).toBe(1);
+    expect(lastRun.length).toBe(96 - beforeLast.size);
+    expect(lastRun.every((r) => r['run'] !== firstRun)).toBe(true);
 
     const fresh = await runCli(['run', modelFile, '--out', 'fresh', '--threads', '2'], dir);
     expect(fresh.code).toBe(0);

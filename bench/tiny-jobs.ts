@@ -1,0 +1,237 @@
+/**
+ * Tiny jobs (the no-op model) through the embedded runner and a queue
+ * worker, before group commit (bench/commit-baseline.ts) and now, measured
+ * alternately in one process so that the machine's load hits both alike.
+ * Figures per run: jobs/s from the first to the last finished job, and CPU
+ * time per job (whole process, every thread) over the jobs after the first
+ * 5%, which leaves start-up out. CPU time is the figure to trust on a shared
+ * machine: wall time also counts waiting for a core.
+ */
+import { spawn } from 'node:child_process';
+import { randomBytes } from 'node:crypto';
+import { mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { Writable } from 'node:stream';
+import { setTimeout as sleep } from 'node:timers/promises';
+import { fileURLToPath } from 'node:url';
+import type { Redis } from 'ioredis';
+import { queueSettings } from '../coordinator/queue-session.js';
+import { runSweep } from '../coordinator/run-sweep.js';
+import { submitSweep } from '../coordinator/submit-sweep.js';
+import { createLogger } from '../shared/logger.js';
+import { parseSweepText } from '../shared/sweep/load.js';
+import { runEmbeddedBaseline } from './commit-baseline.js';
+
+const CLI = fileURLToPath(new URL('../../bin/recallscape.js', import.meta.url));
+const BASELINE_WORKER = fileURLToPath(new URL('./baseline-worker.js', import.meta.url));
+/** Jobs before the CPU window opens: thread and module start-up stay outside it. */
+const WARM_SHARE = 0.05;
+/** Linux clock ticks per second (getconf CLK_TCK), the unit of /proc/<pid>/stat times. */
+const CLOCK_TICKS = 100;
+
+export type Version = 'before' | 'now';
+
+export interface TinyRun {
+  readonly jobs: number;
+  /** Jobs per second between the first and the last finished job. */
+  readonly rate: number;
+  /** CPU milliseconds per job of the whole process (all its threads) after the first 5% of jobs. */
+  readonly cpuMsPerJob: number;
+}
+
+const silent = createLogger({
+  name: 'bench',
+  level: 'warn',
+  destination: new Writable({ write: (_c, _e, done) => done() }),
+});
+
+/** A no-op sweep of about `jobs` jobs (a multiple of 100). */
+export function tinySweepYaml(name: string, jobs: number): string {
+  return `name: ${name}\nmodel: no-op\nseed: 3\nreplicates: ${Math.max(1, Math.round(jobs / 100))}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`;
+}
+
+const cpuMs = (): number => {
+  const { user, system } = process.cpuUsage();
+  return (user + system) / 1000;
+};
+
+/** The embedded runner on `jobs` no-op jobs in a fresh folder. */
+export async function embeddedTiny(version: Version, threads: number, jobs: number): Promise<TinyRun> {
+  const sweep = parseSweepText(tinySweepYaml('bench-tiny', jobs), 'tiny (bench)');
+  const root = await mkdtemp(join(tmpdir(), 'rs-bench-tiny-'));
+  const warm = Math.ceil(jobs * WARM_SHARE);
+  let firstAt = 0;
+  let lastAt = 0;
+  let finished = 0;
+  let warmCpu = 0;
+  let warmCount = 0;
+  const seen = (count: number): void => {
+    if (count === finished) return;
+    const now = performance.now();
+    if (finished === 0) firstAt = now;
+    if (warmCount === 0 && count >= warm) {
+      warmCpu = cpuMs();
+      warmCount = count;
+    }
+    finished = count;
+    lastAt = now;
+  };
+  try {
+    if (version === 'before') await runEmbeddedBaseline(sweep, root, threads, seen);
+    else
+      await runSweep({
+        sweep,
+        root,
+        threads,
+        logger: silent,
+        onProgress: (p) => seen(p.succeeded + p.failed),
+      });
+    const cpu = cpuMs() - warmCpu;
+    return {
+      jobs: finished,
+      rate: (finished - 1) / ((lastAt - firstAt) / 1000),
+      cpuMsPerJob: cpu / (finished - warmCount),
+    };
+  } finally {
+    await rm(root, { recursive: true, force: true });
+  }
+}
+
+/** User plus system CPU of a process and all its threads, in ms. */
+async function processCpuMs(pid: number): Promise<number> {
+  const stat = await readFile(`/proc/${pid}/stat`, 'utf8');
+  const fields = stat.slice(stat.lastIndexOf(')') + 2).split(' ');
+  // utime and stime are fields 14 and 15 of the line, 12 and 13 after the command name.
+  return ((Number(fields[11]) + Number(fields[12])) * 1000) / CLOCK_TICKS;
+}
+
+/** One worker process (`worker --threads n`, or the old one) serving `jobs` no-op jobs submitted before it starts. */
+export async function queueTiny(
+  version: Version,
+  threads: number,
+  jobs: number,
+  url: string,
+  client: Redis,
+): Promise<TinyRun> {
+  const root = await mkdtemp(join(tmpdir(), 'rs-bench-tinyq-'));
+  const tag = randomBytes(3).toString('hex');
+  const settings = queueSettings({
+    redis: url,
+    queue: `bench-tiny-${tag}`,
+    prefix: `rsbt${tag}`,
+    connectTimeout: '10000',
+  });
+  const file = join(root, 'tiny.yaml');
+  await writeFile(file, tinySweepYaml('bench-tiny', jobs));
+  const out = join(root, 'out');
+  try {
+    await submitSweep(file, out, settings, undefined);
+    const args =
+      version === 'before'
+        ? [BASELINE_WORKER, url, settings.queue.name, settings.queue.prefix, out, String(threads)]
+        : [
+            CLI,
+            'worker',
+            '--redis',
+            url,
+            '--threads',
+            String(threads),
+            '--out',
+            out,
+            '--queue',
+            settings.queue.name,
+            '--prefix',
+            settings.queue.prefix,
+          ];
+    const child = spawn(process.execPath, args, {
+      stdio: ['ignore', 'ignore', 'pipe'],
+      env: { ...process.env, RECALLSCAPE_LOG_LEVEL: 'info' },
+    });
+    const closed = new Promise((done) => child.once('close', done));
+    try {
+      await new Promise<void>((done, fail) => {
+        let text = '';
+        child.stderr?.on('data', (d: Buffer) => {
+          text += d.toString();
+          if (text.includes('worker ready')) done();
+        });
+        child.once('close', () => fail(new Error(`worker exited early: ${text.slice(-500)}`)));
+      });
+      const pid = child.pid as number;
+      const completedKey = `${settings.queue.prefix}:${settings.queue.name}:completed`;
+      const warm = Math.ceil(jobs * WARM_SHARE);
+      let warmCount = 0;
+      let warmCpu = 0;
+      for (;;) {
+        const done = await client.zcard(completedKey);
+        if (warmCount === 0 && done >= warm) {
+          warmCpu = await processCpuMs(pid);
+          warmCount = done;
+        }
+        if (done >= jobs) break;
+        await sleep(20);
+      }
+      const cpu = (await processCpuMs(pid)) - warmCpu;
+      // finishedOn scores: the rate between the first and last finished job.
+      const first = Number((await client.zrange(completedKey, 0, '0', 'WITHSCORES'))[1]);
+      const last = Number((await client.zrange(completedKey, -1, '-1', 'WITHSCORES'))[1]);
+      return { jobs, rate: (jobs - 1) / ((last - first) / 1000), cpuMsPerJob: cpu / (jobs - warmCount) };
+    } finally {
+      child.kill('SIGTERM');
+      await closed;
+    }
+  } finally {
+    await deleteKeys(client, settings.queue.prefix);
+    await rm(root, { recursive: true, force: true });
+  }
+}
+
+async function deleteKeys(client: Redis, prefix: string): Promise<void> {
+  let cursor = '0';
+  do {
+    const [next, keys] = await client.scan(cursor, 'MATCH', `${prefix}:*`, 'COUNT', 1000);
+    cursor = next;
+    if (keys.length > 0) await client.del(...keys);
+  } while (cursor !== '0');
+}
+
+const median = (values: readonly number[]): number => {
+  const sorted = [...values].sort((a, b) => a - b);
+  const mid = Math.floor(sorted.length / 2);
+  return sorted.length % 2 === 1
+    ? (sorted[mid] as number)
+    : ((sorted[mid - 1] as number) + (sorted[mid] as number)) / 2;
+};
+
+export interface Contender {
+  readonly label: string;
+  readonly measure: () => Promise<TinyRun>;
+}
+
+/**
+ * Runs every contender once per round, in turn, for `rounds` rounds; prints
+ * each one's median rate and CPU per job with their ranges, and returns the medians.
+ */
+export async function sideBySide(
+  contenders: readonly Contender[],
+  rounds: number,
+): Promise<Map<string, { rate: number; cpuMsPerJob: number }>> {
+  const runs = new Map<string, TinyRun[]>(contenders.map((c) => [c.label, []]));
+  for (let round = 0; round < rounds; round++) {
+    for (const contender of contenders) runs.get(contender.label)?.push(await contender.measure());
+  }
+  const medians = new Map<string, { rate: number; cpuMsPerJob: number }>();
+  for (const { label } of contenders) {
+    const list = runs.get(label) ?? [];
+    const rates = list.map((r) => r.rate);
+    const cpus = list.map((r) => r.cpuMsPerJob);
+    const m = { rate: median(rates), cpuMsPerJob: median(cpus) };
+    medians.set(label, m);
+    console.log(
+      `  ${label.padEnd(34)} ${m.rate.toFixed(0).padStart(5)} jobs/s (${Math.min(...rates).toFixed(0)}-${Math.max(...rates).toFixed(0)}), ` +
+        `CPU ${m.cpuMsPerJob.toFixed(3)} ms/job (${Math.min(...cpus).toFixed(3)}-${Math.max(...cpus).toFixed(3)}) = ${(1000 / m.cpuMsPerJob).toFixed(0)} jobs per CPU-second`,
+    );
+  }
+  return medians;
+}
