@@ -1,10 +1,10 @@
 import { type Command, Option } from 'commander';
 import type { Logger } from '../shared/logger.js';
-import { openWorkQueue } from '../shared/queue/backends.js';
+import { checkQueueUrl, openWorkQueue } from '../shared/queue/backends.js';
 import type { QueueSettings } from '../shared/queue/queue-settings.js';
 import { DEFAULT_QUEUE_NAME, DEFAULT_QUEUE_PREFIX, queueTarget } from '../shared/queue/queue-target.js';
 import type { WorkQueue } from '../shared/queue/work-queue.js';
-import { parseRedisUrl, REDIS_URL_ENV, resolveRedisUrl } from '../shared/redis-url.js';
+import { REDIS_URL_ENV, resolveRedisUrl } from '../shared/redis-url.js';
 import { parseWholeNumber } from './cli-support.js';
 
 export type { QueueSettings } from '../shared/queue/queue-settings.js';
@@ -42,7 +42,7 @@ export function queueSettings(options: QueueCliOptions): QueueSettings {
   const url = resolveRedisUrl(options.redis);
   return {
     url,
-    redis: parseRedisUrl(url),
+    masked: checkQueueUrl(url).masked,
     queue: queueTarget(options.queue, options.prefix),
     connectTimeoutMs: parseWholeNumber('--connect-timeout', options.connectTimeout, 100, 600_000),
   };

@@ -26,7 +26,7 @@ export async function submitSweep(
   return withQueue(settings, logger, async (queue) => {
     const result = await submitTo(queue, sweep, resultsRoot);
     logger?.info(
-      { sweep: sweep.spec.name, enqueued: result.enqueued, redis: settings.redis.masked, queue: settings.queue.name },
+      { sweep: sweep.spec.name, enqueued: result.enqueued, redis: settings.masked, queue: settings.queue.name },
       'sweep submitted',
     );
     return result;

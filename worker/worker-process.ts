@@ -90,7 +90,7 @@ export async function runWorkerProcess(options: WorkerProcessOptions): Promise<v
   await consumer.start();
   logger.info(
     {
-      redis: options.settings.redis.masked,
+      redis: options.settings.masked,
       queue: options.settings.queue.name,
       prefix: options.settings.queue.prefix,
       threads: options.threads,

@@ -1,25 +1,46 @@
+import { InputError } from '../errors.js';
 import type { Logger } from '../logger.js';
-import type { QueueBackend } from './queue-backend.js';
+import { maskRedisUrl } from '../redis-url.js';
+import { bullmqEntry } from './bullmq/bullmq-entry.js';
+import type { BackendEntry, QueueBackend } from './queue-backend.js';
 import type { QueueSettings } from './queue-settings.js';
 import type { ConsumerOptions, JobHandler, WorkConsumer } from './work-consumer.js';
 import type { WorkQueue } from './work-queue.js';
 
 /**
- * Queue backends by URL scheme, loaded on first use so commands that need no
- * queue never load one. A new backend is one file and one line here (and its
- * scheme accepted where the URL is checked).
+ * Every queue backend, chosen by the URL's scheme. A new backend is one file
+ * exporting its BackendEntry and one entry here; the first is the default
+ * whose checks explain URLs that name no scheme at all.
  */
-const BACKENDS: Readonly<Record<string, () => Promise<QueueBackend>>> = {
-  'redis:': async () => (await import('./bullmq/bullmq-backend.js')).bullmqBackend,
-  'rediss:': async () => (await import('./bullmq/bullmq-backend.js')).bullmqBackend,
-};
+const BACKENDS: readonly BackendEntry[] = [bullmqEntry];
+
+function schemeOf(url: string): string | undefined {
+  return /^([a-z][a-z0-9+.-]*:)\/\//i.exec(url)?.[1]?.toLowerCase();
+}
+
+function entryFor(url: string): BackendEntry | undefined {
+  const scheme = schemeOf(url);
+  return scheme === undefined ? undefined : BACKENDS.find((b) => b.schemes.includes(scheme));
+}
+
+/** Check a queue URL before anything connects: InputError (exit 2) naming `--redis`; the printable URL. */
+export function checkQueueUrl(url: string): { readonly masked: string } {
+  const entry = entryFor(url);
+  if (entry !== undefined) return entry.checkUrl(url);
+  const scheme = schemeOf(url);
+  const [first] = BACKENDS;
+  // No scheme at all: the default backend's check says what a URL looks like.
+  if (scheme === undefined || first === undefined) return (first as BackendEntry).checkUrl(url);
+  const known = BACKENDS.flatMap((b) => b.schemes.map((s) => s.replace(/:$/, '')));
+  const message = `unsupported scheme "${scheme.replace(/:$/, '')}"; use ${known.join(' or ')}`;
+  throw new InputError(`--redis: ${message} (got ${maskRedisUrl(url)})`, [{ path: '--redis', message }]);
+}
 
 async function backendFor(settings: QueueSettings): Promise<QueueBackend> {
-  const scheme = /^[a-z][a-z0-9+.-]*:/i.exec(settings.url)?.[0].toLowerCase() ?? '';
-  const load = Object.hasOwn(BACKENDS, scheme) ? BACKENDS[scheme] : undefined;
+  const entry = entryFor(settings.url);
   // The URL was checked when the settings were made; reaching this is a bug.
-  if (load === undefined) throw new RangeError(`no queue backend for "${scheme}" URLs`);
-  return load();
+  if (entry === undefined) throw new RangeError(`no queue backend for ${settings.masked}`);
+  return entry.load();
 }
 
 /** The coordinator's view of the queue the settings name. */

@@ -10,3 +10,17 @@ export interface QueueBackend {
   /** For a worker: stays connected (reconnecting) for as long as it runs. */
   openConsumer(settings: QueueSettings, handler: JobHandler, options: ConsumerOptions): Promise<WorkConsumer>;
 }
+
+/**
+ * How a backend is registered (shared/queue/backends.ts): the URL schemes it
+ * serves, a check of its URLs that runs before any connection (and must be
+ * cheap to load: it runs for every queue command), and the backend itself,
+ * loaded on first use.
+ */
+export interface BackendEntry {
+  /** Lower-case schemes with their colon, e.g. "redis:". */
+  readonly schemes: readonly string[];
+  /** Throws InputError naming `--redis` for a bad URL; returns the URL with secrets masked. */
+  checkUrl(url: string): { readonly masked: string };
+  load(): Promise<QueueBackend>;
+}

@@ -5,7 +5,6 @@ import { openWorkConsumer, openWorkQueue } from '../../shared/queue/backends.js'
 import { jobIdFor, jobIdPrefix } from '../../shared/queue/bullmq/job-ids.js';
 import type { QueueSettings } from '../../shared/queue/queue-settings.js';
 import type { JobHandler, WorkConsumer } from '../../shared/queue/work-consumer.js';
-import { parseRedisUrl } from '../../shared/redis-url.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
 import { deleteKeys, inspector, SHARED_REDIS, uniqueQueue, waitFor } from './helpers.js';
@@ -15,7 +14,7 @@ import { deleteKeys, inspector, SHARED_REDIS, uniqueQueue, waitFor } from './hel
 const queue = uniqueQueue();
 const settings: QueueSettings = {
   url: SHARED_REDIS,
-  redis: parseRedisUrl(SHARED_REDIS),
+  masked: SHARED_REDIS,
   queue: { name: queue.name, prefix: queue.prefix },
   connectTimeoutMs: 5_000,
 };

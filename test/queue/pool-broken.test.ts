@@ -3,7 +3,6 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createLogger } from '../../shared/logger.js';
 import { openWorkConsumer } from '../../shared/queue/backends.js';
 import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
-import { parseRedisUrl } from '../../shared/redis-url.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
 import { JobRunner } from '../../worker/job-runner.js';
@@ -54,7 +53,7 @@ describe('a worker whose thread pool is broken', () => {
     const consumer = await openWorkConsumer(
       {
         url: SHARED_REDIS,
-        redis: parseRedisUrl(SHARED_REDIS),
+        masked: SHARED_REDIS,
         queue: { name: queue.name, prefix: queue.prefix },
         connectTimeoutMs: 5_000,
       },

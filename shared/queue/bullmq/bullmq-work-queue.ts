@@ -2,7 +2,7 @@ import { randomBytes } from 'node:crypto';
 import { type JobType, Queue } from 'bullmq';
 import type { ChainableCommander, Redis } from 'ioredis';
 import type { Logger } from '../../logger.js';
-import type { RedisTarget } from '../../redis-url.js';
+import { parseRedisUrl, type RedisTarget } from '../../redis-url.js';
 import type { QueueSettings } from '../queue-settings.js';
 import type { QueueTarget } from '../queue-target.js';
 import type {
@@ -125,9 +125,9 @@ export class BullmqWorkQueue implements WorkQueue {
       await queue.waitUntilReady();
     } catch (error) {
       await closeRedis(client);
-      throw asServiceError(error, settings.redis);
+      throw asServiceError(error, parseRedisUrl(settings.url));
     }
-    return new BullmqWorkQueue(client, queue, settings.queue, settings.redis);
+    return new BullmqWorkQueue(client, queue, settings.queue, parseRedisUrl(settings.url));
   }
 
   /** Run a Redis operation; its failures become one ServiceError line. */
