@@ -72,7 +72,7 @@ export function registerFinish(program: Command): void {
       process.on('SIGTERM', onSignal);
 
       say(
-        `following sweep ${sweep.spec.name} in ${displayPath(store.dir)}/ through Redis at ${settings.redis.masked} ` +
+        `following sweep ${sweep.spec.name} in ${displayPath(store.dir)}/ through Redis at ${settings.masked} ` +
           `(queue ${settings.queue.name}), looking every ${formatDuration(intervalMs / 1000)}` +
           (deadline === undefined ? '' : ` until ${new Date(deadline).toISOString()}`),
       );
