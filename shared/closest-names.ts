@@ -32,3 +32,26 @@ export function closestNames(name: string, known: readonly string[], limit = 3):
     .slice(0, limit)
     .map((c) => c.k);
 }
+
+/**
+ * "did you mean X?" (or "X or Y") for the known names closest to `name`,
+ * or undefined when none is close. Every "did you mean" of the program comes
+ * from here, so they all read alike.
+ */
+export function didYouMean(name: string, known: readonly string[]): string | undefined {
+  const close = closestNames(name, known);
+  return close.length > 0 ? `did you mean ${close.join(' or ')}?` : undefined;
+}
+
+/**
+ * What to say after an unknown name: "did you mean X?" when a known name is
+ * close, else the list of known names after `label` ("allowed: a, b, c").
+ * Long lists are cut after `shown` names.
+ */
+export function unknownNameHint(name: string, known: readonly string[], label = 'allowed:', shown = 12): string {
+  const close = didYouMean(name, known);
+  if (close !== undefined) return close;
+  if (known.length === 0) return `${label} (none)`;
+  const listed = known.slice(0, shown).join(', ');
+  return `${label} ${listed}${known.length > shown ? ', ...' : ''}`;
+}

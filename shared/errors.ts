@@ -5,6 +5,8 @@
  * but kept its name, and `isErrorOf` recognises it by that name.
  */
 
+import { unknownNameHint } from './closest-names.js';
+
 /** One validation problem, kept as data: which field, and what is wrong. */
 export interface FieldIssue {
   /** Dotted path of the offending field, e.g. `vary.tauZPre.between`. */
@@ -17,9 +19,15 @@ export class InputError extends Error {
   static readonly errorName = 'InputError';
   override readonly name: string = InputError.errorName;
   readonly issues: readonly FieldIssue[];
-  constructor(message: string, issues: readonly FieldIssue[] = []) {
+  /**
+   * Set when the message is this headline followed by one line per issue
+   * (see invalidInput): a printer then shows each issue as `headline: path: message`.
+   */
+  readonly headline: string | undefined;
+  constructor(message: string, issues: readonly FieldIssue[] = [], headline?: string) {
     super(message);
     this.issues = issues;
+    this.headline = headline;
   }
 }
 
@@ -100,7 +108,7 @@ export function issuesFromZod(issues: readonly ZodIssueLike[], options: IssueOpt
       for (const key of issue.keys) {
         out.push({
           path: base === '' ? key : `${base}.${key}`,
-          message: `unknown field "${shorten(key)}"${allowed !== undefined ? `; allowed here: ${allowed.join(', ')}` : ''}`,
+          message: `unknown field "${shorten(key)}"${allowed !== undefined ? `; ${unknownNameHint(key, allowed, 'allowed here:', allowed.length)}` : ''}`,
         });
       }
       continue;
@@ -135,7 +143,7 @@ export function formatIssues(issues: readonly FieldIssue[]): string {
 /** An InputError whose message is a headline followed by one line per distinct issue. */
 export function invalidInput(headline: string, issues: readonly FieldIssue[]): InputError {
   const distinct = distinctIssues(issues);
-  return new InputError(`${headline}:\n${formatIssues(distinct)}`, distinct);
+  return new InputError(`${headline}:\n${formatIssues(distinct)}`, distinct, headline);
 }
 
 /**

@@ -1,5 +1,5 @@
 import type { z } from 'zod';
-import { closestNames } from './closest-names.js';
+import { unknownNameHint } from './closest-names.js';
 import { type FieldIssue, shorten } from './errors.js';
 import type { AnyModel } from './model.js';
 
@@ -16,11 +16,7 @@ export function isParamName(model: AnyModel, name: string): boolean {
 /** The issue for a name the model does not know, with the closest known names. */
 export function unknownParamIssue(path: string, name: string, model: AnyModel): FieldIssue {
   const known = paramNames(model);
-  const close = closestNames(name, known);
-  const hint =
-    close.length > 0
-      ? `did you mean ${close.join(' or ')}?`
-      : `known parameters: ${known.slice(0, 10).join(', ')}${known.length > 10 ? ', ...' : ''}`;
+  const hint = unknownNameHint(name, known, 'known parameters:', 10);
   return {
     path,
     message: `unknown parameter "${shorten(name)}" of model ${model.id}; ${known.length === 0 ? 'this model takes no parameters' : hint}`,

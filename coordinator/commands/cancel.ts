@@ -2,6 +2,7 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { cancelSweep } from '../cancel.js';
 import { action } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 
@@ -11,14 +12,7 @@ interface CancelOptions extends QueueCliOptions, ModelCliOptions {
 
 export function registerCancel(program: Command): void {
   addQueueOptions(
-    program
-      .command('cancel')
-      .argument('<dir>', 'the sweep folder (<results root>/<name>)')
-      .description(
-        "Remove the sweep's waiting jobs from the queue; running jobs finish and keep their results (`requeue` resumes)",
-      )
-      .option('--json', 'print the counts as one JSON object')
-      .addOption(modelsOption()),
+    defineCommand(program, 'cancel').option('--json', 'print the counts as one JSON object').addOption(modelsOption()),
   ).action(
     action(async (dir: string, options: CancelOptions) => {
       await useModelOptions(options);

@@ -1,6 +1,7 @@
 import type { Command } from 'commander';
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { demoSweep } from '../demo-sweep.js';
 import { executeSweep, shellWord } from './run.js';
 
@@ -11,11 +12,7 @@ interface DemoFlags {
 }
 
 export function registerDemo(program: Command): void {
-  program
-    .command('demo')
-    .description(
-      'Run the built-in demo sweep (recall of two overlapping sequences) on this machine, a couple of minutes on 2 cores',
-    )
+  defineCommand(program, 'demo')
     .option('--out <dir>', 'results root; the demo goes to <dir>/demo-overlap', 'results')
     .option('--threads <n>', 'worker threads (default: one per core)')
     .option('--replicates <n>', 'trials per point for a quicker look (default 64; results go to demo-overlap-<n>x)')

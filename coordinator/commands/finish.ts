@@ -4,6 +4,7 @@ import { openWorkQueue } from '../../shared/queue/backends.js';
 import { DEFAULT_QUEUE_NAME, DEFAULT_QUEUE_PREFIX } from '../../shared/queue/queue-target.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { completedPercent } from '../completed-percent.js';
 import { describeMissing, type MissingJobs } from '../finish-missing.js';
 import { buildClosingReport } from '../finish-report.js';
@@ -33,12 +34,7 @@ interface FinishFlags extends QueueCliOptions, ModelCliOptions {
 
 export function registerFinish(program: Command): void {
   addQueueOptions(
-    program
-      .command('finish')
-      .argument('<dir>', 'the sweep folder (<results root>/<name>), as submit made it')
-      .description(
-        'Follow a queued sweep to its end: gather results from Redis as they come, queue again what Redis lost, build the report',
-      )
+    defineCommand(program, 'finish')
       .option('--failed', 'first give the jobs in the failed set a fresh set of attempts (as `requeue --failed`)')
       .option('--until <time>', 'stop following at this time: a span (45m, 2h), a clock time (18:30) or a date-time')
       .option('--interval <ms>', 'pause between two looks at the queue and the results', '2000')

@@ -1,6 +1,7 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { gatherSweep } from '../gather.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
@@ -11,14 +12,7 @@ interface GatherOptions extends QueueCliOptions, ModelCliOptions {
 
 export function registerGather(program: Command): void {
   addQueueOptions(
-    program
-      .command('gather')
-      .argument('<dir>', 'the sweep folder (<results root>/<name>)')
-      .description(
-        'Copy records of finished jobs held in Redis into this folder, then free them in Redis (for workers without a shared disk)',
-      )
-      .option('--json', 'print the counts as one JSON object')
-      .addOption(modelsOption()),
+    defineCommand(program, 'gather').option('--json', 'print the counts as one JSON object').addOption(modelsOption()),
   ).action(
     action(async (dir: string, options: GatherOptions) => {
       await useModelOptions(options);

@@ -1,5 +1,6 @@
 import type { Command } from 'commander';
-import { action, EXIT_FAILURE } from '../cli-support.js';
+import { action, EXIT_FAILURE, printError } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { inspectJob } from '../summarize/inspect-job.js';
 
@@ -9,12 +10,7 @@ interface InspectFlags extends ModelCliOptions {
 }
 
 export function registerInspect(program: Command): void {
-  program
-    .command('inspect')
-    .description(
-      'Re-run one job of a sweep deterministically, check it against its stored result (exit 1 if they differ), and draw its recall trace as SVG',
-    )
-    .argument('<dir>', 'sweep folder (the one holding sweep.json)')
+  defineCommand(program, 'inspect')
     .requiredOption('--job <key>', 'job key, or a unique prefix of one')
     .option('--out <file.svg>', 'where to write the trace (default: DIR/report/inspect-<key>.svg)')
     .addOption(modelsOption())
@@ -43,9 +39,9 @@ export function registerInspect(program: Command): void {
         process.stdout.write(`${lines.join('\n')}\n`);
         if (result.stored === 'different') {
           // A job is a pure function of its payload: a different result means the sweep cannot be reproduced.
-          process.stderr.write(
-            `recallscape: not reproducible: re-running job ${result.key} gave other metrics than its stored record ` +
-              `(the model is not deterministic, or the record was produced by other code)\n`,
+          printError(
+            `not reproducible: re-running job ${result.key} gave other metrics than its stored record ` +
+              `(the model is not deterministic, or the record was produced by other code)`,
           );
           process.exitCode = EXIT_FAILURE;
         }

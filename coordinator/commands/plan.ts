@@ -3,6 +3,7 @@ import { ResultStore } from '../../shared/store/result-store.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, formatPlan, loadSweepForCommand, type PlanCores, planSweep } from '../plan-sweep.js';
 import { displayPath } from '../shell-text.js';
@@ -37,12 +38,7 @@ async function existingResults(
 }
 
 export function registerPlan(program: Command): void {
-  program
-    .command('plan')
-    .description(
-      'Check a sweep file and show its jobs, a sample of its points and an estimate of core-hours; runs nothing else',
-    )
-    .argument('<file>', 'sweep file (YAML or JSON)')
+  defineCommand(program, 'plan')
     .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
     .option('--yes', 'plan even when the sweep has more jobs than the limit')
     .option(

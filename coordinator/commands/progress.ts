@@ -6,6 +6,7 @@ import { openWorkQueue } from '../../shared/queue/backends.js';
 import type { WorkQueue } from '../../shared/queue/work-queue.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { completedPercent } from '../completed-percent.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { formatDuration } from '../progress-display.js';
@@ -21,12 +22,7 @@ const FOLLOW_INTERVAL_MS = 2_000;
 
 export function registerProgress(program: Command): void {
   addQueueOptions(
-    program
-      .command('progress')
-      .argument('<dir>', 'the sweep folder (<results root>/<name>)')
-      .description(
-        'How far a sweep is: finished jobs from the result files, waiting/running/failed jobs from the queue, rate and time left',
-      )
+    defineCommand(program, 'progress')
       .option('--follow', 'redraw a live progress bar every 2 s until the sweep is finished (Ctrl-C stops watching)')
       .option('--json', 'print the figures as one JSON object')
       .addOption(modelsOption()),

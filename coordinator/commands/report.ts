@@ -1,7 +1,8 @@
 import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { MAX_BINS, MIN_BINS } from '../../shared/sweep/bins.js';
-import { action, parseWholeNumber } from '../cli-support.js';
+import { action, parseWholeNumber, printWarning } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { completedPercent } from '../completed-percent.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { displayPath } from '../shell-text.js';
@@ -44,12 +45,7 @@ function parseFormats(text: string | undefined): ReportFormat[] | undefined {
 }
 
 export function registerReport(program: Command): void {
-  program
-    .command('report')
-    .description(
-      'Summarise a sweep folder into tables, phase diagrams and index.html (in DIR/report/); works while the sweep is still running',
-    )
-    .argument('<dir>', 'sweep folder (the one holding sweep.json)')
+  defineCommand(program, 'report')
     .option(
       '--x <param>',
       'varied parameter on the horizontal axis (default: report.x of the sweep, else the first varied parameter)',
@@ -101,13 +97,13 @@ export function registerReport(program: Command): void {
           ...(flags.log === undefined ? {} : { log: parseNameList(flags.log) }),
         });
         for (const w of result.warnings.slice(0, MAX_PRINTED_WARNINGS)) {
-          process.stderr.write(`recallscape: warning: ${w.kind}: ${w.message}\n`);
+          printWarning(`${w.kind}: ${w.message}`);
         }
         const printed = Math.min(MAX_PRINTED_WARNINGS, result.warnings.length);
         if (result.warningCount > printed) {
           // The true remainder: the builder keeps only the first few hundred warnings but counts them all.
           const where = result.indexHtml === null ? '' : ` (index.html lists the first ${result.warnings.length})`;
-          process.stderr.write(`recallscape: warning: ... ${result.warningCount - printed} more${where}\n`);
+          printWarning(`... ${result.warningCount - printed} more${where}`);
         }
         const lines = [
           `completed ${result.completedJobs} of ${result.plannedJobs} jobs (${completedPercent(result.completedJobs, result.plannedJobs)})` +

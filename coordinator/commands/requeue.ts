@@ -1,6 +1,7 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 import { requeueSweep } from '../requeue.js';
@@ -12,12 +13,7 @@ interface RequeueOptions extends QueueCliOptions, ModelCliOptions {
 
 export function registerRequeue(program: Command): void {
   addQueueOptions(
-    program
-      .command('requeue')
-      .argument('<dir>', 'the sweep folder (<results root>/<name>)')
-      .description(
-        'Resume a sweep: queue every job that has no result and is not in the queue (also after Redis lost everything)',
-      )
+    defineCommand(program, 'requeue')
       .option('--failed', 'also give jobs in the failed set a fresh set of attempts')
       .option('--json', 'print the counts as one JSON object')
       .addOption(modelsOption()),

@@ -2,7 +2,8 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
-import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
+import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber, printError } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { createProgressDisplay } from '../progress-display.js';
@@ -37,7 +38,7 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
   const logger = createLogger({ name: options.loggerName });
   const out = process.stdout;
   const display = createProgressDisplay({ stream: out });
-  const signals = stopOnSignals((line) => process.stderr.write(`recallscape: ${line}\n`));
+  const signals = stopOnSignals(printError);
   let result: RunSweepResult;
   try {
     // An adaptive sweep (refine) runs pass after pass until its design is complete.
@@ -109,10 +110,7 @@ interface RunFlags extends ModelCliOptions {
 }
 
 export function registerRun(program: Command): void {
-  program
-    .command('run')
-    .description('Run every job of a sweep file that has no result yet, on this machine; run it again to resume')
-    .argument('<file>', 'sweep file (YAML or JSON)')
+  defineCommand(program, 'run')
     .option('--out <dir>', 'results root; results go to <dir>/<sweep name>', 'results')
     .option('--threads <n>', 'worker threads (default: one per core)')
     .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))

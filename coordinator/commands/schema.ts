@@ -3,6 +3,7 @@ import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { InputError } from '../../shared/errors.js';
 import { sweepJsonSchema } from '../../shared/sweep/json-schema.js';
 import { action } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 
 interface SchemaOptions {
   readonly out?: string;
@@ -10,9 +11,7 @@ interface SchemaOptions {
 
 /** `recallscape schema [--out FILE]`: the JSON Schema of the sweep file, for editors. */
 export function registerSchema(program: Command): void {
-  program
-    .command('schema')
-    .description('print the JSON Schema of the sweep file (for editor validation), or write it to a file')
+  defineCommand(program, 'schema')
     .option('--out <file>', 'write the schema to this file instead of stdout')
     .action(
       action(async (options: SchemaOptions) => {

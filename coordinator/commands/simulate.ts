@@ -7,13 +7,14 @@ import { DEFAULT_MODEL_ID, requireModel } from '../../shared/models/registry.js'
 import { isParamName, unknownParamIssue } from '../../shared/param-names.js';
 import { MAX_SEED } from '../../shared/random.js';
 import { runModelAsync } from '../../worker/run-model.js';
-import { action } from '../cli-support.js';
+import { action, repeatable } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 
 interface SimulateOptions extends ModelCliOptions {
   readonly model: string;
   readonly params?: string;
-  readonly set: string[];
+  readonly set?: string[];
   readonly seed: string;
   readonly trace?: string;
 }
@@ -93,17 +94,10 @@ async function writeAtomically(path: string, text: string): Promise<void> {
 }
 
 export function registerSimulate(program: Command): void {
-  program
-    .command('simulate')
-    .description('Run one trial of a model and print its metrics as one JSON object')
+  defineCommand(program, 'simulate')
     .option('--model <id>', 'model to run', DEFAULT_MODEL_ID)
     .option('--params <file>', 'JSON object of parameters (explicit "sequences" go here)')
-    .option(
-      '--set <name=value>',
-      'set one parameter (repeatable; applied after --params)',
-      (v: string, acc: string[]) => [...acc, v],
-      [] as string[],
-    )
+    .option('--set <name=value>', 'set one parameter (repeatable; applied after --params)', repeatable)
     .option('--seed <n>', 'seed of the trial (non-negative integer)', '1')
     .option('--trace <file>', 'write the match of every stored pattern at every recall step as CSV')
     .addOption(modelsOption())
@@ -124,7 +118,7 @@ export function registerSimulate(program: Command): void {
           else Object.defineProperty(raw, name, { value, enumerable: true, writable: true, configurable: true });
         };
         for (const name of Object.keys(fromFile)) put(`--params ${name}`, name, fromFile[name]);
-        for (const assignment of options.set) {
+        for (const assignment of options.set ?? []) {
           const [name, value] = parseAssignment(assignment);
           put(`--set ${name}`, name, value);
         }

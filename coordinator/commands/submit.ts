@@ -2,6 +2,7 @@ import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { createLogger } from '../../shared/logger.js';
 import { action, parseWholeNumber } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
@@ -16,10 +17,7 @@ interface SubmitOptions extends QueueCliOptions, ModelCliOptions {
 
 export function registerSubmit(program: Command): void {
   addQueueOptions(
-    program
-      .command('submit')
-      .argument('<file>', 'sweep file (YAML or JSON)')
-      .description('Queue every job of a sweep that has no result yet, for workers on any machine; safe to repeat')
+    defineCommand(program, 'submit')
       .option('--out <dir>', 'results root; the sweep gets the folder <dir>/<name>', 'results')
       .option('--json', 'print the counts as one JSON object')
       .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))

@@ -1,5 +1,6 @@
 import type { Command } from 'commander';
 import { action } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { completedPercent } from '../completed-percent.js';
 import { listSweeps, type SweepEntry } from '../list-sweeps.js';
 import { displayPath, shellWord } from '../shell-text.js';
@@ -9,12 +10,7 @@ interface SweepsOptions {
 }
 
 export function registerSweeps(program: Command): void {
-  program
-    .command('sweeps')
-    .description(
-      'List the sweeps under a results root: jobs done of planned, failing jobs, last activity, and whether the report is up to date',
-    )
-    .argument('[root]', 'results root (the --out folder of run and submit), or one sweep folder', 'results')
+  defineCommand(program, 'sweeps')
     .option('--json', 'print the list as one JSON object')
     .action(
       action(async (root: string, options: SweepsOptions) => {

@@ -4,6 +4,7 @@ import { DEFAULT_LOCK_MS, DEFAULT_MAX_STALLED, DEFAULT_STALL_CHECK_MS } from '..
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { runWorkerProcess } from '../../worker/worker-process.js';
 import { action, parseWholeNumber } from '../cli-support.js';
+import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
 
@@ -20,9 +21,7 @@ interface WorkerOptions extends QueueCliOptions, ModelCliOptions {
 
 export function registerWorker(program: Command): void {
   addQueueOptions(
-    program
-      .command('worker')
-      .description('Serve queued jobs of any sweep until stopped (Ctrl-C or SIGTERM finishes running jobs first)')
+    defineCommand(program, 'worker')
       .option('--threads <n>', 'simulations run at once, one thread each (default: one per core)')
       .option('--out <dir>', 'results root; results of sweep S go to <dir>/S/results/<worker name>.ndjson', 'results')
       .option('--name <id>', 'worker name: its result files are <id>-<pid>-<random>.ndjson (default: the host name)')

@@ -183,7 +183,8 @@ export function renderReportPage(input: PageInput): string {
     parts.push(
       `<h2>Warnings while reading results</h2><div class="warnings" id="warnings"><p>${report.warningCount} problem(s) in the result files; the affected lines were skipped.</p><ul>`,
     );
-    for (const w of report.warnings) parts.push(`<li>${e(w.kind)}: ${e(w.file)} line ${w.line}: ${e(w.message)}</li>`);
+    // The message names its file and line already.
+    for (const w of report.warnings) parts.push(`<li>${e(w.kind)}: ${e(w.message)}</li>`);
     if (report.warningCount > report.warnings.length)
       parts.push(`<li>... and ${report.warningCount - report.warnings.length} more</li>`);
     parts.push('</ul></div>');

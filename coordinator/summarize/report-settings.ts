@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { didYouMean, unknownNameHint } from '../../shared/closest-names.js';
 import { InputError } from '../../shared/errors.js';
 import { BINS_RULE, BinsSchema } from '../../shared/sweep/bins.js';
 import type { Range } from '../../shared/sweep/ranges.js';
@@ -69,7 +70,7 @@ export function resolveSettings(
     if (!varied.includes(name))
       reject(
         `--${axis}`,
-        `"${name}" is not a varied parameter of this sweep; allowed: ${allowed}${axis === 'facet' ? `, or ${NO_FACET}` : ''}`,
+        `"${name}" is not a varied parameter of this sweep; ${didYouMean(name, axis === 'facet' ? [...varied, NO_FACET] : varied) ?? `allowed: ${allowed}${axis === 'facet' ? `, or ${NO_FACET}` : ''}`}`,
       );
     const clash = explicit.get(name);
     if (clash !== undefined) reject(`--${axis}`, `"${name}" is already --${clash}; each axis needs its own parameter`);
@@ -100,7 +101,7 @@ export function resolveSettings(
   for (const f of choices.formats ?? REPORT_FORMATS) {
     const name = f.trim().toLowerCase();
     if (!(REPORT_FORMATS as readonly string[]).includes(name))
-      reject('--format', `unknown format "${f}"; allowed: ${REPORT_FORMATS.join(', ')}`);
+      reject('--format', `unknown format "${f}"; ${unknownNameHint(name, REPORT_FORMATS)}`);
     formats.add(name as ReportFormat);
   }
   if (formats.size === 0) reject('--format', `name at least one of ${REPORT_FORMATS.join(', ')}`);
@@ -127,7 +128,10 @@ export function resolveSettings(
 export function checkMetric(metric: string, known: readonly string[], fromOption: boolean): void {
   if (known.includes(metric)) return;
   const option = fromOption ? '--metric' : 'report.metric';
-  reject(option, `no scalar metric "${metric}" in the results; allowed: ${known.join(', ')}`);
+  reject(
+    option,
+    `no scalar metric "${metric}" in the results; ${unknownNameHint(metric, known, 'allowed:', known.length)}`,
+  );
 }
 
 /**

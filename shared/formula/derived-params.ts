@@ -1,4 +1,4 @@
-import { closestNames } from '../closest-names.js';
+import { didYouMean } from '../closest-names.js';
 import type { FieldIssue } from '../errors.js';
 import { evaluateFormula, type FormulaScope } from './evaluate-formula.js';
 import { formulaOrder } from './formula-order.js';
@@ -40,9 +40,9 @@ export type CompileResult =
   | { readonly success: true; readonly derived: CompiledDerived }
   | { readonly success: false; readonly issues: readonly FieldIssue[] };
 
-function didYouMean(name: string, known: readonly string[]): string {
-  const close = closestNames(name, known);
-  return close.length > 0 ? `; did you mean ${close.join(' or ')}?` : '';
+function closeNameHint(name: string, known: readonly string[]): string {
+  const hint = didYouMean(name, known);
+  return hint === undefined ? '' : `; ${hint}`;
 }
 
 /** Parse every formula, check its names, and order them. Reports every problem found. */
@@ -55,7 +55,7 @@ export function compileDerived(raw: Readonly<Record<string, string>>, context: D
   for (const [name, text] of Object.entries(raw)) {
     const path = `derived.${name}`;
     if (!known.has(name)) {
-      issues.push({ path, message: `unknown parameter "${name}"${didYouMean(name, context.known)}` });
+      issues.push({ path, message: `unknown parameter "${name}"${closeNameHint(name, context.known)}` });
       continue;
     }
     if (fixed.has(name) || varied.has(name)) {
@@ -74,7 +74,7 @@ export function compileDerived(raw: Readonly<Record<string, string>>, context: D
     const unknown = uses.filter((u) => !known.has(u));
     if (unknown.length > 0) {
       for (const u of unknown) {
-        issues.push({ path, message: `unknown name "${u}" in the formula${didYouMean(u, context.known)}` });
+        issues.push({ path, message: `unknown name "${u}" in the formula${closeNameHint(u, context.known)}` });
       }
       continue;
     }

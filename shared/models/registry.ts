@@ -1,4 +1,5 @@
-import { InputError } from '../errors.js';
+import { unknownNameHint } from '../closest-names.js';
+import { InputError, shorten } from '../errors.js';
 import type { AnyModel } from '../model.js';
 import { bcpnnSequences } from './bcpnn-sequences/index.js';
 import { cpuBurnModel } from './utility/cpu-burn.js';
@@ -15,6 +16,17 @@ export const DEFAULT_MODEL_ID = 'bcpnn-sequences';
 
 export function listModels(): readonly AnyModel[] {
   return MODELS;
+}
+
+/**
+ * Models that exist for the test suite and the benchmarks (no-op, cpu-burn):
+ * they run when named, but lists shown to people leave them out.
+ */
+const FOR_TESTS: ReadonlySet<string> = new Set([noOpModel.id, cpuBurnModel.id]);
+
+/** Ids of the models a person would choose from (built-in and registered, without the test models). */
+export function modelIds(): string[] {
+  return MODELS.filter((m) => !FOR_TESTS.has(m.id)).map((m) => m.id);
 }
 
 /** Add a model found at run time (this thread only: every thread registers its own). */
@@ -37,9 +49,9 @@ export function findModel(id: string): AnyModel | undefined {
 export function requireModel(id: string, field = 'model'): AnyModel {
   const model = byId.get(id);
   if (model === undefined) {
-    const known = MODELS.map((m) => m.id).join(', ');
-    throw new InputError(`${field}: unknown model "${id}"; known models: ${known}`, [
-      { path: field, message: `unknown model "${id}"; known models: ${known}` },
+    const hint = unknownNameHint(id, modelIds(), 'known models:');
+    throw new InputError(`${field}: unknown model "${shorten(id)}"; ${hint}`, [
+      { path: field, message: `unknown model "${shorten(id)}"; ${hint}` },
     ]);
   }
   return model;

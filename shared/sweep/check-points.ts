@@ -185,30 +185,48 @@ export function checkPoints(
   pointCount: number,
   leading: readonly Point[] = [],
 ): PointCheck {
-  const issues: FieldIssue[] = [];
+  // One problem found at many points (a bad fixed value fails every point) is
+  // one issue: grouped by field and message, told once with its first point.
+  const groups = new Map<string, { issue: FieldIssue; position: number; point: Point; count: number }>();
   let checked = 0;
   let failing = 0;
+  // Failing points with a problem beyond those of the first SHOWN_POINTS failing points.
+  let untold = 0;
   for (const [position, point] of pointsToCheck(sweep, pointCount, checkBudget(sweep), leading)) {
     checked++;
     const found = pointIssues(sweep, model, point);
     if (found.length === 0) continue;
     failing++;
-    if (failing > SHOWN_POINTS) continue;
+    let hidden = false;
     for (const issue of found) {
-      issues.push({
-        path: issue.path,
-        message: `at point ${position + 1} (${describePoint(point)}): ${issue.message}`,
-      });
+      const key = `${issue.path}\u0000${issue.message}`;
+      const group = groups.get(key);
+      if (group !== undefined) group.count++;
+      else if (failing <= SHOWN_POINTS) groups.set(key, { issue, position, point, count: 1 });
+      else hidden = true;
     }
+    if (hidden) untold++;
   }
-  if (failing > SHOWN_POINTS) {
+  const issues: FieldIssue[] = [];
+  for (const { issue, position, point, count } of groups.values()) {
+    const where =
+      count === checked
+        ? checked === 1
+          ? ''
+          : checked === pointCount
+            ? `at every point: `
+            : `at every point checked: `
+        : `at point ${position + 1} (${describePoint(point)})${count > 1 ? ` and ${count - 1} more` : ''}: `;
+    issues.push({ path: issue.path, message: `${where}${issue.message}` });
+  }
+  if (untold > 0) {
     const of =
       checked === pointCount
         ? `${failing} of ${pointCount} points`
         : `${failing} of the ${checked} points checked (of ${pointCount})`;
     issues.push({
       path: 'vary',
-      message: `${of} are invalid for model ${model.id}; the first ${SHOWN_POINTS} are shown`,
+      message: `${of} are invalid for model ${model.id}; the problems of the first ${SHOWN_POINTS} are shown`,
     });
   }
   return { checked, issues };

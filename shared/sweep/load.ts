@@ -1,9 +1,10 @@
 import { z } from 'zod';
+import { unknownNameHint } from '../closest-names.js';
 import { type FieldIssue, InputError, invalidInput, issuesFromZod, shorten } from '../errors.js';
 import { type DerivedSetup, derivedSetup } from '../formula/derive-point.js';
 import { compileDerived } from '../formula/derived-params.js';
 import type { AnyModel } from '../model.js';
-import { findModel, listModels } from '../models/registry.js';
+import { findModel, modelIds } from '../models/registry.js';
 import { isParamName, paramNames, unknownParamIssue } from '../param-names.js';
 import { refineIssues } from '../refine/validate.js';
 import { DEFAULT_SAMPLER, type SamplerDescriptor, samplerFor, samplersAccepting } from '../samplers/index.js';
@@ -182,10 +183,8 @@ function parseFields(raw: unknown): SweepSpec {
 function resolveModel(spec: SweepSpec): AnyModel {
   const model = findModel(spec.model);
   if (model !== undefined) return model;
-  const known = listModels()
-    .map((m) => m.id)
-    .join(', ');
-  throw new Refusal([{ path: 'model', message: `unknown model "${shorten(spec.model)}"; known models: ${known}` }]);
+  const hint = unknownNameHint(spec.model, modelIds(), 'known models:');
+  throw new Refusal([{ path: 'model', message: `unknown model "${shorten(spec.model)}"; ${hint}` }]);
 }
 
 /**
@@ -227,7 +226,7 @@ function checkNames(
     if (!varied.has(name)) {
       issues.push({
         path: `report.${axis}`,
-        message: `"${shorten(name)}" is not a varied parameter; use one of: ${variedNames.join(', ') || '(none: vary has no parameters)'}`,
+        message: `"${shorten(name)}" is not a varied parameter; ${variedNames.length === 0 ? 'vary has no parameters' : unknownNameHint(name, variedNames, 'use one of:', variedNames.length)}`,
       });
     } else if (used.has(name)) {
       issues.push({

@@ -34,7 +34,7 @@ describe.concurrent('hostile sweep files on the command line', () => {
     const result = await runCli(['plan', 's.yaml', '--calibrate', '0'], cwd);
     expect(result.code).toBe(2);
     expect(result.stderr).toBe(
-      'recallscape: s.yaml is not a valid sweep file:\n  vary.patternOverlap.steps: steps must be a whole number from 1 to 100000\n',
+      'recallscape: s.yaml is not a valid sweep file: vary.patternOverlap.steps: steps must be a whole number from 1 to 100000\n',
     );
     expect(result.stdout).toBe('');
     expect(await readdir(cwd)).toEqual(['s.yaml']);
@@ -44,7 +44,7 @@ describe.concurrent('hostile sweep files on the command line', () => {
     const cwd = await folderWith('deep', 'd.json', `{"name": "d", "fixed": {"sequences": ${nest(3000)}}}`);
     const result = await runCli(['run', 'd.json', '--out', 'out', '--threads', '1'], cwd);
     expect(result.code).toBe(2);
-    expect(result.stderr).toContain('recallscape: d.json is not a valid sweep file:\n  fixed.sequences.0.0.');
+    expect(result.stderr).toContain('recallscape: d.json is not a valid sweep file: fixed.sequences.0.0.');
     expect(result.stderr).toContain('nested more than 32 levels deep');
     expect(result.stderr).not.toMatch(STACK_LINE);
     expect(await readdir(cwd)).toEqual(['d.json']);
@@ -55,8 +55,12 @@ describe.concurrent('hostile sweep files on the command line', () => {
     // Nothing listens on port 1: reaching Redis would fail with exit 1, not 2.
     const result = await runCli(['submit', 'n.yaml', '--redis', 'redis://127.0.0.1:1', '--out', 'out'], cwd);
     expect(result.code).toBe(2);
-    expect(result.stderr).toContain('  fixed.noise: must be a finite number, got NaN\n');
-    expect(result.stderr).toContain('  fixed.gain: must be a finite number, got Infinity\n');
+    expect(result.stderr).toContain(
+      'recallscape: n.yaml is not a valid sweep file: fixed.noise: must be a finite number, got NaN\n',
+    );
+    expect(result.stderr).toContain(
+      'recallscape: n.yaml is not a valid sweep file: fixed.gain: must be a finite number, got Infinity\n',
+    );
     expect(await readdir(cwd)).toEqual(['n.yaml']);
   });
 
@@ -66,9 +70,8 @@ describe.concurrent('hostile sweep files on the command line', () => {
     expect(result.code).toBe(2);
     const lines = result.stderr.split('\n').filter((l) => l !== '');
     expect(lines).toEqual([
-      'recallscape: o.yaml is not a valid sweep file:',
-      '  name: use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit, with no "/" and no ".."',
-      '  seed: seed must be a whole number from 0 to 2^53 - 1',
+      'recallscape: o.yaml is not a valid sweep file: name: use 1 to 100 of a-z, 0-9, ".", "_", "-", starting with a letter or digit, with no "/" and no ".."',
+      'recallscape: o.yaml is not a valid sweep file: seed: seed must be a whole number from 0 to 2^53 - 1',
     ]);
   });
 

@@ -262,7 +262,7 @@ describe('refusals at load time, at derived.<name>', () => {
     expect(rejection(text).issues[0]).toEqual({
       path: 'derived.recallDuration',
       message:
-        "at point 1 (the only point): the formula read hypercolumns = 10 (the model's default), but the model resolves hypercolumns to 3 here; set hypercolumns in fixed or vary",
+        "the formula read hypercolumns = 10 (the model's default), but the model resolves hypercolumns to 3 here; set hypercolumns in fixed or vary",
     });
   });
 });
