@@ -9,6 +9,14 @@ export interface QueueSide extends SweepQueueCounts {
   readonly finishedNotGathered: number;
 }
 
+/**
+ * Where a sweep stands: every job has a result (`finished`), jobs are queued
+ * or running (`running`), or jobs are missing and none is queued or running
+ * (`stopped`: cancelled, or Redis lost them; `requeue` resumes). Null when
+ * the queue was not asked (files only).
+ */
+export type SweepState = 'finished' | 'running' | 'stopped';
+
 export interface ProgressSnapshot {
   readonly name: string;
   readonly hash: string;
@@ -19,9 +27,10 @@ export interface ProgressSnapshot {
   /** Jobs finished anywhere: on disk, or completed in Redis and not yet gathered. */
   readonly finished: number;
   readonly queue: QueueSide | null;
-  /** Finished jobs per minute over the latest stretch of work (up to 10 minutes), or null if unknown. */
+  readonly state: SweepState | null;
+  /** Finished jobs per minute over the latest stretch of work (up to 10 minutes), or null if unknown or stopped. */
   readonly perMinute: number | null;
-  /** Seconds until every planned job is finished at that rate, or null. */
+  /** Seconds until every planned job is finished at that rate, or null (unknown, or stopped). */
   readonly etaSeconds: number | null;
   /** Failed attempts recorded in failures/ shards, by kind. */
   readonly failuresByKind: Partial<Record<FailureKind, number>>;
@@ -100,8 +109,11 @@ export async function sweepProgress(
   }
   for (const key of doneKeys) failingKeys.delete(key);
   const finished = doneKeys.size;
-  const perMinute = ratePerMinute(finishTimes);
   const left = Math.max(0, planned - finished);
+  const moving = queueSide === null ? null : queueSide.waiting + queueSide.active + queueSide.delayed > 0;
+  const state: SweepState | null = left === 0 ? 'finished' : moving === null ? null : moving ? 'running' : 'stopped';
+  // A stopped sweep has no rate and no time left: nothing is being done.
+  const perMinute = state === 'stopped' ? null : ratePerMinute(finishTimes);
   const etaSeconds = left === 0 ? 0 : perMinute === null ? null : (left / perMinute) * 60;
   return {
     name: sweep.spec.name,
@@ -111,6 +123,7 @@ export async function sweepProgress(
     onDisk,
     finished,
     queue: queueSide,
+    state,
     perMinute,
     etaSeconds,
     failuresByKind,

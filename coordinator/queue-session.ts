@@ -17,10 +17,21 @@ export interface QueueCliOptions {
   readonly connectTimeout: string;
 }
 
-export const DEFAULT_CONNECT_TIMEOUT_MS = 10_000;
+/**
+ * How long a command run by a person keeps trying to reach Redis: long enough
+ * for a few retries over a slow network, short enough that an unreachable
+ * Redis is reported in a couple of seconds.
+ */
+export const DEFAULT_CONNECT_TIMEOUT_MS = 1_500;
+/** A worker waits longer at start: it is often started alongside Redis (a compose file, a boot script). */
+export const WORKER_CONNECT_TIMEOUT_MS = 10_000;
 
 /** Add --redis, --queue, --prefix and --connect-timeout to a command. */
-export function addQueueOptions(command: Command, redisRequired = true): Command {
+export function addQueueOptions(
+  command: Command,
+  redisRequired = true,
+  connectTimeoutMs = DEFAULT_CONNECT_TIMEOUT_MS,
+): Command {
   return command
     .addOption(
       new Option(
@@ -32,9 +43,21 @@ export function addQueueOptions(command: Command, redisRequired = true): Command
     .addOption(new Option('--prefix <prefix>', 'prefix of every Redis key of the queue').default(DEFAULT_QUEUE_PREFIX))
     .addOption(
       new Option('--connect-timeout <ms>', 'how long to keep trying to reach Redis before giving up').default(
-        String(DEFAULT_CONNECT_TIMEOUT_MS),
+        String(connectTimeoutMs),
       ),
     );
+}
+
+/**
+ * The queue options to repeat in a command printed for the user (--queue and
+ * --prefix when not the defaults). Never the URL: it may hold a password, and
+ * the environment variable is the advised way to give it.
+ */
+export function queueFlags(options: Pick<QueueCliOptions, 'queue' | 'prefix'>): string[] {
+  return [
+    ...(options.queue === DEFAULT_QUEUE_NAME ? [] : ['--queue', options.queue]),
+    ...(options.prefix === DEFAULT_QUEUE_PREFIX ? [] : ['--prefix', options.prefix]),
+  ];
 }
 
 /** Check every queue option without touching the network (bad input -> exit 2 before anything happens). */

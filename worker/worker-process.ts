@@ -33,7 +33,7 @@ export interface WorkerProcessOptions {
 export async function runWorkerProcess(options: WorkerProcessOptions): Promise<void> {
   // Linux gives a new thread its creator's nice value, so this must come before the pool exists.
   if (options.nice !== undefined) lowerPriority(options.nice);
-  const logger = createLogger({ name: 'worker' });
+  const logger = createLogger({ name: 'worker', style: 'service' });
   let stopping = false;
   let fatal: string | undefined;
   let wake: () => void = () => undefined;

@@ -4,6 +4,7 @@ import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { openWorkQueue } from '../../shared/queue/backends.js';
 import type { WorkQueue } from '../../shared/queue/work-queue.js';
+import { REDIS_URL_ENV } from '../../shared/redis-url.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action } from '../cli-support.js';
 import { defineCommand } from '../command-list.js';
@@ -11,7 +12,8 @@ import { completedPercent } from '../completed-percent.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { formatDuration } from '../progress-display.js';
 import { type ProgressSnapshot, sweepProgress } from '../queue-progress.js';
-import { addQueueOptions, optionalQueueSettings, type QueueCliOptions } from '../queue-session.js';
+import { addQueueOptions, optionalQueueSettings, type QueueCliOptions, queueFlags } from '../queue-session.js';
+import { displayPath, shellWord } from '../shell-text.js';
 
 interface ProgressOptions extends QueueCliOptions, ModelCliOptions {
   readonly follow?: boolean;
@@ -36,12 +38,27 @@ export function registerProgress(program: Command): void {
       const logger = createLogger({ name: 'progress' });
       const queue: WorkQueue | undefined = settings === undefined ? undefined : await openWorkQueue(settings, logger);
       const snapshot = (): Promise<ProgressSnapshot> => sweepProgress(store, sweep, queue);
+      // The command that starts a stopped sweep again, with this command's queue options.
+      const resume = (s: ProgressSnapshot): string =>
+        [
+          'recallscape',
+          'requeue',
+          displayPath(s.dir),
+          ...queueFlags(options),
+          ...(s.queue !== null && s.queue.failed > 0 ? ['--failed'] : []),
+        ]
+          .map(shellWord)
+          .join(' ');
       try {
         if (options.follow === true) {
-          await follow(snapshot);
+          await follow(snapshot, resume);
         } else {
           const s = await snapshot();
-          process.stdout.write(options.json === true ? `${JSON.stringify(s)}\n` : describe(s));
+          process.stdout.write(
+            options.json === true
+              ? `${JSON.stringify({ ...s, ...(s.state === 'stopped' ? { resume: resume(s) } : {}) })}\n`
+              : describe(s, resume(s)),
+          );
         }
       } finally {
         await queue?.close();
@@ -50,11 +67,12 @@ export function registerProgress(program: Command): void {
   );
 }
 
-export function describe(s: ProgressSnapshot): string {
+export function describe(s: ProgressSnapshot, resume: string): string {
+  const dir = shellWord(displayPath(s.dir));
   const lines = [`sweep     ${s.name} (hash ${s.hash.slice(0, 16)})`, `planned   ${s.planned}`];
   let finished = `finished  ${s.finished} (${completedPercent(s.finished, s.planned)})`;
   if (s.queue !== null && s.queue.finishedNotGathered > 0) {
-    finished += `: ${s.onDisk} on disk, ${s.queue.finishedNotGathered} only in Redis (\`recallscape gather ${s.dir}\` copies them here)`;
+    finished += `: ${s.onDisk} on disk, ${s.queue.finishedNotGathered} only in Redis (\`recallscape gather ${dir}\` copies them here)`;
   }
   lines.push(finished);
   if (s.queue !== null) {
@@ -62,16 +80,23 @@ export function describe(s: ProgressSnapshot): string {
       `queue     waiting ${s.queue.waiting}, active ${s.queue.active}, delayed ${s.queue.delayed} (retry backoff), failed ${s.queue.failed}`,
     );
   } else {
-    lines.push('queue     (not asked: give --redis URL to see waiting and running jobs)');
+    lines.push(`queue     (not asked: set ${REDIS_URL_ENV} or give --redis URL to see waiting and running jobs)`);
   }
-  const rate = s.perMinute === null ? 'unknown yet' : `${s.perMinute.toFixed(s.perMinute >= 100 ? 0 : 1)} jobs/min`;
-  const eta = s.etaSeconds === null ? '?' : formatDuration(s.etaSeconds);
-  lines.push(`rate      ${rate}, time left ~${eta}`);
+  if (s.state === 'stopped') {
+    // Nothing is moving: a rate and a time left would suggest otherwise.
+    const missing = s.planned - s.finished;
+    lines.push(`state     stopped: nothing is queued or running, and ${missing} job(s) have no result`);
+    lines.push(`resume    ${resume}`);
+  } else {
+    const rate = s.perMinute === null ? 'unknown yet' : `${s.perMinute.toFixed(s.perMinute >= 100 ? 0 : 1)} jobs/min`;
+    const eta = s.etaSeconds === null ? '?' : formatDuration(s.etaSeconds);
+    lines.push(`rate      ${rate}, time left ~${eta}`);
+  }
   const kinds = Object.entries(s.failuresByKind).map(([kind, n]) => `${kind} ${n}`);
   lines.push(
     kinds.length === 0
       ? 'failures  none recorded here'
-      : `failures  ${kinds.join(', ')} attempts; ${s.failingJobs} job(s) still without a result${s.queue !== null && s.queue.failed > 0 ? ` (\`recallscape requeue ${s.dir} --failed\` retries them)` : ''}`,
+      : `failures  ${kinds.join(', ')} attempts; ${s.failingJobs} job(s) still without a result${s.queue !== null && s.queue.failed > 0 && s.state !== 'stopped' ? ` (\`recallscape requeue ${dir} --failed\` retries them)` : ''}`,
   );
   if (s.warnings > 0) lines.push(`warnings  ${s.warnings} damaged or conflicting lines in the result files`);
   return `${lines.join('\n')}\n`;
@@ -82,12 +107,18 @@ export function followLine(s: ProgressSnapshot): string {
   const q = s.queue;
   const queue =
     q === null ? '' : ` | waiting ${q.waiting} | active ${q.active} | delayed ${q.delayed} | failed ${q.failed}`;
+  if (s.state === 'stopped') {
+    return `finished ${s.finished}/${s.planned} (${completedPercent(s.finished, s.planned)})${queue} | stopped: nothing queued or running`;
+  }
   const rate = s.perMinute === null ? '?' : s.perMinute.toFixed(1);
   const eta = s.etaSeconds === null ? '?' : formatDuration(s.etaSeconds);
   return `finished ${s.finished}/${s.planned} (${completedPercent(s.finished, s.planned)})${queue} | ${rate} jobs/min | left ~${eta}`;
 }
 
-async function follow(snapshot: () => Promise<ProgressSnapshot>): Promise<void> {
+async function follow(
+  snapshot: () => Promise<ProgressSnapshot>,
+  resume: (s: ProgressSnapshot) => string,
+): Promise<void> {
   let stop = false;
   const onSignal = (): void => {
     stop = true;
@@ -123,7 +154,8 @@ async function follow(snapshot: () => Promise<ProgressSnapshot>): Promise<void> 
         if (first) bar.start(s.planned, s.finished, payload);
         else bar.update(s.finished, payload);
       }
-      if (s.finished >= s.planned || stop) break;
+      // A stopped sweep will not move on by itself: watching it would never end.
+      if (s.finished >= s.planned || s.state === 'stopped' || stop) break;
       for (let waited = 0; waited < FOLLOW_INTERVAL_MS && !stop; waited += 200) await sleep(200);
       if (stop) break;
     }
@@ -131,5 +163,5 @@ async function follow(snapshot: () => Promise<ProgressSnapshot>): Promise<void> 
     bar?.stop();
     process.removeListener('SIGINT', onSignal);
   }
-  if (last !== undefined) process.stdout.write(describe(last));
+  if (last !== undefined) process.stdout.write(describe(last, resume(last)));
 }

@@ -1,11 +1,13 @@
 import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { createLogger } from '../../shared/logger.js';
+import { REDIS_URL_ENV } from '../../shared/redis-url.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
-import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
+import { addQueueOptions, type QueueCliOptions, queueFlags, queueSettings } from '../queue-session.js';
+import { shellWord } from '../shell-text.js';
 import { type SubmitResult, submitSweep } from '../submit-sweep.js';
 
 interface SubmitOptions extends QueueCliOptions, ModelCliOptions {
@@ -40,13 +42,24 @@ export function registerSubmit(program: Command): void {
       const logger = createLogger({ name: 'submit' });
       const result = await submitSweep(sweep, options.out, settings, logger);
       process.stdout.write(
-        options.json === true ? `${JSON.stringify(result)}\n` : describe(result, settings.queue.name),
+        options.json === true
+          ? `${JSON.stringify(result)}\n`
+          : describe(result, settings.queue.name, workerCommand(options)),
       );
     }),
   );
 }
 
-function describe(r: SubmitResult, queue: string): string {
+/**
+ * The command that starts a worker for this sweep. The Redis URL is not in it:
+ * it goes in the environment variable, as docs/operations.md advises (a URL
+ * on the command line, password and all, is visible in process lists).
+ */
+function workerCommand(options: SubmitOptions): string {
+  return ['recallscape', 'worker', '--out', options.out, ...queueFlags(options)].map(shellWord).join(' ');
+}
+
+function describe(r: SubmitResult, queue: string, worker: string): string {
   const lines = [
     `sweep      ${r.name}`,
     `hash       ${r.hash}`,
@@ -61,6 +74,6 @@ function describe(r: SubmitResult, queue: string): string {
     );
   lines.push(`added      ${r.enqueued} to queue "${queue}"`);
   if (r.enqueued + r.inQueue > 0)
-    lines.push(`next       start workers: recallscape worker --redis URL --out <results root>`);
+    lines.push(`next       start workers where ${REDIS_URL_ENV} names this Redis: ${worker}`);
   return `${lines.join('\n')}\n`;
 }

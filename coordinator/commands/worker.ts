@@ -6,7 +6,7 @@ import { runWorkerProcess } from '../../worker/worker-process.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
-import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';
+import { addQueueOptions, type QueueCliOptions, queueSettings, WORKER_CONNECT_TIMEOUT_MS } from '../queue-session.js';
 
 interface WorkerOptions extends QueueCliOptions, ModelCliOptions {
   readonly threads?: string;
@@ -40,6 +40,8 @@ export function registerWorker(program: Command): void {
       .option('--max-stalled <n>', 'times a job may lose its worker before it is failed', String(DEFAULT_MAX_STALLED))
       .addOption(modelsOption())
       .addOption(modelTimeoutOption()),
+    true,
+    WORKER_CONNECT_TIMEOUT_MS,
   ).action(
     action(async (options: WorkerOptions) => {
       await useModelOptions(options);

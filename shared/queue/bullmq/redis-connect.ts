@@ -100,6 +100,7 @@ export async function connectRedis(options: ConnectOptions): Promise<RedisConnec
     try {
       await client.connect();
       await client.ping();
+      await warnIfPasswordUnused(client, target, options.logger);
       adoptLongLivedSettings(client, target, options);
       options.logger?.debug({ redis: target.masked, attempt }, 'connected to Redis');
       return { client, target };
@@ -114,6 +115,29 @@ export async function connectRedis(options: ConnectOptions): Promise<RedisConnec
     await sleep(wait);
   }
   throw new ServiceError(verdict.message);
+}
+
+/**
+ * A password given to a Redis that asks for none is accepted silently: the
+ * user would believe the queue is protected when anyone who reaches the port
+ * can use it. AUTH with the password alone tells (Redis answers "AUTH
+ * <password> called without any password configured", or "no password is
+ * set" before Redis 6). A named ACL user is left alone: that form of AUTH
+ * succeeds for a user without a password and says nothing.
+ */
+async function warnIfPasswordUnused(client: Redis, target: RedisTarget, logger: Logger | undefined): Promise<void> {
+  if (target.password === undefined || target.username !== undefined) return;
+  try {
+    await client.call('AUTH', target.password);
+  } catch (error) {
+    const text = error instanceof Error ? error.message : String(error);
+    if (/without any password configured|no password is set/i.test(text)) {
+      logger?.warn(
+        { redis: target.masked },
+        `Redis at ${target.masked} has no password, so the one in the URL protects nothing: the queue is NOT protected, anyone who reaches the port can read and change it; set requirepass (or an ACL user) in Redis, or keep it on a private network`,
+      );
+    }
+  }
 }
 
 /** ioredis 6 types its options with a reply-mapping generic that exactOptionalPropertyTypes rejects when spread. */
