@@ -1,5 +1,5 @@
 import type { QueueEntry, WorkQueue } from '../shared/queue/work-queue.js';
-import { expandJobs, toPayload } from '../shared/sweep/expand.js';
+import { expandJobs, type PlannedJob, toPayload } from '../shared/sweep/expand.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
 
 export interface EnqueueOptions {
@@ -7,6 +7,8 @@ export interface EnqueueOptions {
   readonly chunkSize?: number;
   /** Also put jobs that sit in the failed set back in the queue (fresh attempts). */
   readonly retryFailed?: boolean;
+  /** The jobs to consider instead of every job of the sweep (an adaptive sweep's current design). */
+  readonly jobs?: Iterable<PlannedJob>;
 }
 
 export interface EnqueueReport {
@@ -64,7 +66,7 @@ export async function enqueueMissing(
     inFlight.add(tracked);
   };
   let chunk: QueueEntry[] = [];
-  for (const job of expandJobs(sweep)) {
+  for (const job of options.jobs ?? expandJobs(sweep)) {
     report.planned++;
     if (done.has(job.key)) {
       report.done++;

@@ -6,6 +6,7 @@ import type { ResultStore } from '../shared/store/result-store.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
 import { type MissingJobs, missingJobs } from './finish-missing.js';
 import { gatherFrom } from './gather.js';
+import { plannedNow } from './planned-jobs.js';
 import { type ProgressSnapshot, sweepProgress } from './queue-progress.js';
 import { requeueIn } from './requeue.js';
 
@@ -106,7 +107,10 @@ export async function finishSweep(options: FinishOptions): Promise<FinishResult>
   const stopRequested = (): boolean => options.signal?.aborted === true;
   const result = async (end: FinishEnd): Promise<FinishResult> => {
     // Without a queue snapshot (Redis gone), the files still say what is recorded.
-    const last = snapshot === null || end === 'unreachable' ? await sweepProgress(store, sweep) : snapshot;
+    const last =
+      snapshot === null || end === 'unreachable'
+        ? await sweepProgress(store, sweep, undefined, (await plannedNow(store, sweep)).count)
+        : snapshot;
     return { end, snapshot, missing: missingJobs(last), gathered, queued, retried, rejected, redisMessage };
   };
 
@@ -153,9 +157,11 @@ export async function finishSweep(options: FinishOptions): Promise<FinishResult>
     gathered += g.copied;
     rejected = g.rejected;
     if (g.copied > 0 || g.removed > 0) emit({ kind: 'gathered', copied: g.copied, removed: g.removed });
-    let s = await sweepProgress(store, sweep, q);
+    // A plain sweep plans every job; an adaptive one the trials its results so far call for.
+    const plan = await plannedNow(store, sweep);
+    let s = await sweepProgress(store, sweep, q, plan.count);
     snapshot = s;
-    if (s.onDisk >= s.planned) {
+    if (plan.final && s.onDisk >= s.planned) {
       emit({ kind: 'progress', snapshot: s });
       return 'complete';
     }
@@ -174,7 +180,7 @@ export async function finishSweep(options: FinishOptions): Promise<FinishResult>
       const wasFirst = first;
       first = false;
       if (r.enqueued > 0 || r.retried > 0 || wasFirst) {
-        s = await sweepProgress(store, sweep, q);
+        s = await sweepProgress(store, sweep, q, r.planned);
         snapshot = s;
       } else if (moving === 0 && side.finishedNotGathered <= g.rejected) {
         // Nothing runs, nothing was lost, nothing finished since the gather: only failed jobs

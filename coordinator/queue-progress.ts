@@ -70,8 +70,10 @@ export async function sweepProgress(
   store: ResultStore,
   sweep: LoadedSweep,
   queue?: WorkQueue,
+  /** Jobs planned, when not every job of the sweep (an adaptive sweep's design so far). */
+  plannedJobs?: number,
 ): Promise<ProgressSnapshot> {
-  const planned = countJobs(sweep);
+  const planned = plannedJobs ?? countJobs(sweep);
   let warnings = 0;
   const onWarning = (_w: StoreWarning): void => {
     warnings++;

@@ -3,6 +3,7 @@ import type { WorkQueue } from '../shared/queue/work-queue.js';
 import { ResultStore } from '../shared/store/result-store.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
 import { type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
+import { plannedNow } from './planned-jobs.js';
 import { type QueueSettings, withQueue } from './queue-session.js';
 
 export interface RequeueResult extends EnqueueReport {
@@ -25,7 +26,8 @@ export async function requeueSweep(
 
 /**
  * The resume command: the result files say what is done, everything else
- * that the queue does not hold goes back in. Works the same after a crash,
+ * that the queue does not hold goes back in (for an adaptive sweep: of the
+ * design the results so far call for). Works the same after a crash,
  * after `cancel`, or after Redis lost all its data.
  */
 export async function requeueIn(
@@ -36,7 +38,11 @@ export async function requeueIn(
   logger: Logger | undefined,
 ): Promise<RequeueResult> {
   const done = await store.completedKeys();
-  const report = await enqueueMissing(queue, sweep, done, { retryFailed });
+  const planned = await plannedNow(store, sweep);
+  const report = await enqueueMissing(queue, sweep, done, {
+    retryFailed,
+    ...(planned.jobs === undefined ? {} : { jobs: planned.jobs }),
+  });
   logger?.info({ sweep: sweep.spec.name, enqueued: report.enqueued, retried: report.retried }, 'sweep requeued');
   return { ...report, name: sweep.spec.name, hash: sweep.hash, dir: store.dir };
 }

@@ -3,6 +3,7 @@ import type { WorkQueue } from '../shared/queue/work-queue.js';
 import { ResultStore } from '../shared/store/result-store.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
+import { plannedNow } from './planned-jobs.js';
 import { type QueueSettings, withQueue } from './queue-session.js';
 
 export interface SubmitResult extends EnqueueReport {
@@ -41,6 +42,8 @@ export async function submitTo(queue: WorkQueue, sweep: LoadedSweep, resultsRoot
   const store = ResultStore.at(resultsRoot, sweep.spec.name);
   await store.prepare(sweep);
   const done = await store.completedKeys();
-  const report = await enqueueMissing(queue, sweep, done);
+  // An adaptive sweep queues its design so far (at first its starting grid); `finish` queues the next trials.
+  const planned = await plannedNow(store, sweep);
+  const report = await enqueueMissing(queue, sweep, done, planned.jobs === undefined ? {} : { jobs: planned.jobs });
   return { ...report, name: sweep.spec.name, hash: sweep.hash, dir: store.dir };
 }

@@ -72,7 +72,7 @@ export function registerFinish(program: Command): void {
           `(queue ${settings.queue.name}), looking every ${formatDuration(intervalMs / 1000)}` +
           (deadline === undefined ? '' : ` until ${new Date(deadline).toISOString()}`),
       );
-      const lines = progressLines(say);
+      const lines = progressLines(say, sweep.spec.refine !== undefined);
       let result: FinishResult;
       try {
         result = await finishSweep({
@@ -193,7 +193,10 @@ function resumeCommand(dir: string, flags: FinishFlags): string {
 }
 
 /** Progress as plain lines: events at once, figures when they changed, at most every LINE_EVERY_MS. */
-function progressLines(say: (line: string) => void): { onEvent: (e: FinishEvent) => void; flush: () => void } {
+function progressLines(
+  say: (line: string) => void,
+  adaptive: boolean,
+): { onEvent: (e: FinishEvent) => void; flush: () => void } {
   let lastLine = '';
   let lastAt = 0;
   let pending: ProgressSnapshot | null = null;
@@ -218,7 +221,10 @@ function progressLines(say: (line: string) => void): { onEvent: (e: FinishEvent)
           break;
         case 'queued':
           if (e.retried > 0) say(`gave ${e.retried} failed job(s) a fresh set of attempts`);
-          if (e.queued > 0) {
+          if (e.queued > 0 && adaptive) {
+            // New trials of the design and trials Redis lost look the same from here: neither is recorded nor queued.
+            say(`queued ${e.queued} trial(s) of the adaptive design that had no record and were not in the queue`);
+          } else if (e.queued > 0) {
             say(
               e.first
                 ? `queued ${e.queued} job(s) that had no record and were not in the queue`

@@ -1,5 +1,4 @@
 import type { Command } from 'commander';
-import { InputError } from '../../shared/errors.js';
 import { createLogger } from '../../shared/logger.js';
 import { REDIS_URL_ENV } from '../../shared/redis-url.js';
 import { action, parseWholeNumber } from '../cli-support.js';
@@ -32,13 +31,6 @@ export function registerSubmit(program: Command): void {
       // Bad files and oversized sweeps are refused before Redis or the disk is touched.
       const maxJobs = parseWholeNumber('--max-jobs', options.maxJobs, 1);
       const sweep = await loadSweepForCommand(file, { maxJobs, yes: options.yes === true });
-      if (sweep.spec.refine !== undefined) {
-        // Its trials depend on results; submitting the starting grid alone would look finished when it is not.
-        throw new InputError(
-          `${file}: an adaptive sweep (refine) runs with recallscape run; submit does not carry out its rounds`,
-          [{ path: 'refine', message: 'adaptive sweeps run with recallscape run' }],
-        );
-      }
       const logger = createLogger({ name: 'submit' });
       const result = await submitSweep(sweep, options.out, settings, logger);
       process.stdout.write(
@@ -46,6 +38,12 @@ export function registerSubmit(program: Command): void {
           ? `${JSON.stringify(result)}\n`
           : describe(result, settings.queue.name, workerCommand(options)),
       );
+      if (sweep.spec.refine !== undefined && options.json !== true) {
+        // Only the design so far is queued: its later trials depend on the results.
+        process.stdout.write(
+          `adaptive   these are the trials decided so far; \`recallscape finish ${result.dir}\` queues the rest as results come in\n`,
+        );
+      }
     }),
   );
 }

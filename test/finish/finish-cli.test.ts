@@ -298,6 +298,67 @@ describe('recallscape finish', () => {
   });
 });
 
+describe('recallscape finish on an adaptive sweep', () => {
+  it('drives the design over the queue with two workers to the same points and replicates as the embedded run', async () => {
+    const queue = uniqueQueue();
+    try {
+      // One row of six starting points, batches of 8 up to 32 replicates, two rounds of refinement.
+      const file = join(root, 'adaptive.yaml');
+      await writeFile(
+        file,
+        `name: adaptive-queue
+model: bcpnn-sequences
+seed: 11
+fixed: { hypercolumns: 6, minicolumns: 12, sequenceLength: 6, sequenceCount: 2, noise: 2, overlapLength: 2 }
+vary:
+  patternOverlap: { from: 0, to: 1, steps: 6 }
+refine:
+  replicates: { start: 8, max: 32 }
+  rounds: 2
+report: { x: patternOverlap }
+`,
+      );
+      const embedded = await runCli(['run', file, '--out', join(root, 'adaptive-embedded'), '--threads', '1']);
+      expect(embedded.code, embedded.stderr).toBe(0);
+
+      const out = join(root, 'adaptive-queue');
+      const submitted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags]);
+      expect(submitted.code, submitted.stderr).toBe(0);
+      // The starting design: 6 points x 8 replicates, as the sweep text says.
+      expect(JSON.parse(submitted.stdout)).toMatchObject({ planned: 48, enqueued: 48 });
+      // Two workers on disks of their own: the design can only grow from what finish gathers.
+      const a = worker(SHARED_REDIS, join(root, 'adaptive-a'), queue.flags);
+      const b = worker(SHARED_REDIS, join(root, 'adaptive-b'), queue.flags);
+      await Promise.all([ready(a), ready(b)]);
+      const dir = join(out, 'adaptive-queue');
+      const followed = await runCli(
+        ['finish', dir, '--redis', SHARED_REDIS, '--interval', '300', '--json', ...queue.flags],
+        { timeoutMs: 300_000 },
+      );
+      expect(followed.code, followed.stderr).toBe(0);
+      expect(JSON.parse(followed.stdout)).toMatchObject({ end: 'complete' });
+      expect(followed.stderr).toMatch(/queued \d+ trial\(s\) of the adaptive design/);
+
+      const trials = async (folder: string): Promise<{ trials: string[]; lines: number }> => {
+        const records = await readNdjson(join(folder, 'results'));
+        return {
+          trials: records.map((r) => `${JSON.stringify(r['point'])}#${String(r['replicate'])}`).sort(),
+          lines: records.length,
+        };
+      };
+      const reference = await trials(join(root, 'adaptive-embedded', 'adaptive-queue'));
+      const distributed = await trials(dir);
+      // More than the starting grid ran, or the test would not show the loop at work.
+      expect(reference.trials.length).toBeGreaterThan(48);
+      expect(distributed.trials).toEqual(reference.trials);
+      expect(distributed.lines).toBe(distributed.trials.length);
+      expect(existsSync(join(dir, 'report', 'index.html'))).toBe(true);
+    } finally {
+      await deleteKeys(SHARED_REDIS, queue.prefix);
+    }
+  });
+});
+
 describe('recallscape run and its report', () => {
   it('ends with the report, as demo does, and --no-report leaves it out', async () => {
     const file = join(root, 'reported.yaml');
