@@ -14,10 +14,7 @@ import { runSweep } from '../coordinator/run-sweep.js';
 import { createLogger } from '../shared/logger.js';
 import { countJobs } from '../shared/sweep/expand.js';
 import { parseSweepText } from '../shared/sweep/load.js';
-import { embeddedTiny, sideBySide } from './tiny-jobs.js';
-
-/** No-op jobs per run of the before/now comparison (RECALLSCAPE_BENCH_TINY_JOBS changes it). */
-const TINY_JOBS = Number(process.env['RECALLSCAPE_BENCH_TINY_JOBS'] ?? 5_000);
+import { compareTinyJobs } from './tiny-jobs.js';
 
 interface Measurement {
   readonly threads: number;
@@ -96,31 +93,5 @@ export async function run(): Promise<void> {
   console.log(
     `2-thread / 1-thread: ${(two.overall / one.overall).toFixed(2)}x overall, ${(two.steady / one.steady).toFixed(2)}x steady (goal >= 1.8x on 2 idle cores)`,
   );
-  await tinyBeforeAndNow();
-}
-
-/**
- * Tiny jobs before group commit (one job per thread, records synced every
- * 5 s) and now (two per thread, each job counted once its group commit
- * ended), alternating, 3 rounds.
- */
-async function tinyBeforeAndNow(): Promise<void> {
-  for (const threads of [1, 2]) {
-    console.log(
-      `tiny jobs (no-op model, ${TINY_JOBS} per run), ${threads} thread${threads === 1 ? '' : 's'}, median of 3 rounds:`,
-    );
-    const m = await sideBySide(
-      [
-        { label: 'embedded before group commit', measure: () => embeddedTiny('before', threads, TINY_JOBS) },
-        { label: 'embedded now', measure: () => embeddedTiny('now', threads, TINY_JOBS) },
-      ],
-      3,
-    );
-    const before = m.get('embedded before group commit');
-    const now = m.get('embedded now');
-    if (before !== undefined && now !== undefined)
-      console.log(
-        `  now / before: ${(now.rate / before.rate).toFixed(2)}x jobs/s, ${(before.cpuMsPerJob / now.cpuMsPerJob).toFixed(2)}x jobs per CPU-second`,
-      );
-  }
+  await compareTinyJobs(undefined);
 }

@@ -27,13 +27,11 @@ import { gatherSweep } from '../coordinator/gather.js';
 import { type QueueSettings, queueSettings } from '../coordinator/queue-session.js';
 import { submitSweep } from '../coordinator/submit-sweep.js';
 import { REDIS_URL_ENV } from '../shared/redis-url.js';
-import { embeddedTiny, queueTiny, sideBySide } from './tiny-jobs.js';
+import { compareTinyJobs } from './tiny-jobs.js';
 
 const CLI = fileURLToPath(new URL('../../bin/recallscape.js', import.meta.url));
 const SUBMIT_JOBS = 100_000;
 const RUN_JOBS = Number(process.env['RECALLSCAPE_BENCH_QUEUE_JOBS'] ?? 10_000);
-/** No-op jobs per run of the group commit comparison (RECALLSCAPE_BENCH_TINY_JOBS changes it). */
-const TINY_JOBS = Number(process.env['RECALLSCAPE_BENCH_TINY_JOBS'] ?? 5_000);
 
 function freePort(): Promise<number> {
   return new Promise((done, fail) => {
@@ -188,49 +186,6 @@ async function throughput(
 
 let baseline = 0;
 
-/**
- * Group commit, side by side in this run: one worker process before it
- * (fdatasync on the main thread before each acknowledgement) and now, and the
- * embedded runner now, on the same no-op jobs, alternating, 3 rounds.
- */
-async function groupCommit(url: string, client: Redis): Promise<void> {
-  for (const threads of [1, 2]) {
-    console.log(
-      `  tiny jobs (no-op model, ${TINY_JOBS} per run), one worker process with ${threads} thread${threads === 1 ? '' : 's'} / the embedded runner with as many, median of 3 rounds:`,
-    );
-    const m = await sideBySide(
-      [
-        {
-          label: 'queue worker before group commit',
-          measure: () => queueTiny('before', threads, TINY_JOBS, url, client),
-        },
-        { label: 'queue worker now', measure: () => queueTiny('now', threads, TINY_JOBS, url, client) },
-        { label: 'embedded before group commit', measure: () => embeddedTiny('before', threads, TINY_JOBS) },
-        { label: 'embedded now', measure: () => embeddedTiny('now', threads, TINY_JOBS) },
-      ],
-      3,
-    );
-    const [qb, qn, eb, en] = [
-      'queue worker before group commit',
-      'queue worker now',
-      'embedded before group commit',
-      'embedded now',
-    ].map((label) => m.get(label) ?? { rate: Number.NaN, cpuMsPerJob: Number.NaN }) as [
-      { rate: number; cpuMsPerJob: number },
-      { rate: number; cpuMsPerJob: number },
-      { rate: number; cpuMsPerJob: number },
-      { rate: number; cpuMsPerJob: number },
-    ];
-    console.log(
-      `  queue worker now / before: ${(qn.rate / qb.rate).toFixed(2)}x jobs/s, ${(qb.cpuMsPerJob / qn.cpuMsPerJob).toFixed(2)}x jobs per CPU-second; ` +
-        `embedded now / before: ${(en.rate / eb.rate).toFixed(2)}x jobs/s, ${(eb.cpuMsPerJob / en.cpuMsPerJob).toFixed(2)}x jobs per CPU-second (goal >= 2x)`,
-    );
-    console.log(
-      `  queue worker now / embedded now: ${(qn.rate / en.rate).toFixed(2)} jobs/s, ${(en.cpuMsPerJob / qn.cpuMsPerJob).toFixed(2)} jobs per CPU-second (goal within 0.9-1.1)`,
-    );
-  }
-}
-
 /** Median time of a 300-byte append plus fdatasync in `dir`, the durability cost a worker pays per job. */
 async function syncLatency(dir: string): Promise<number> {
   const fd = openSync(join(dir, 'sync-probe'), 'a');
@@ -311,7 +266,7 @@ export async function run(): Promise<void> {
       await throughput(server.url, client, 1, prefetch, root, small);
       await throughput(server.url, client, 2, prefetch, root, small);
     }
-    await groupCommit(server.url, client);
+    await compareTinyJobs({ url: server.url, client });
   } finally {
     await deleteQueue(client, prefix).catch(() => undefined);
     client.disconnect();

@@ -20,6 +20,7 @@ import { queueSettings } from '../coordinator/queue-session.js';
 import { runSweep } from '../coordinator/run-sweep.js';
 import { submitSweep } from '../coordinator/submit-sweep.js';
 import { createLogger } from '../shared/logger.js';
+import { countJobs } from '../shared/sweep/expand.js';
 import { parseSweepText } from '../shared/sweep/load.js';
 import { runEmbeddedBaseline } from './commit-baseline.js';
 
@@ -46,8 +47,18 @@ const silent = createLogger({
   destination: new Writable({ write: (_c, _e, done) => done() }),
 });
 
-/** A no-op sweep of about `jobs` jobs (a multiple of 100). */
-export function tinySweepYaml(name: string, jobs: number): string {
+/** The two kinds of tiny job: all overhead, and a trial of the real model that costs about a millisecond. */
+export type JobKind = 'no-op' | 'tiny model';
+
+export const KIND_HELP: Record<JobKind, string> = {
+  'no-op': 'no-op model: every millisecond is overhead',
+  'tiny model': 'bcpnn-sequences, 4 x 4 units, one sequence of 3 patterns: about 1 ms of CPU per trial',
+};
+
+/** A sweep of `kind` with about `jobs` jobs. */
+export function tinySweepYaml(name: string, jobs: number, kind: JobKind = 'no-op'): string {
+  if (kind === 'tiny model')
+    return `name: ${name}\nmodel: bcpnn-sequences\nseed: 3\nreplicates: ${jobs}\nfixed: { hypercolumns: 4, minicolumns: 4, sequenceLength: 3, sequenceCount: 1 }\n`;
   return `name: ${name}\nmodel: no-op\nseed: 3\nreplicates: ${Math.max(1, Math.round(jobs / 100))}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`;
 }
 
@@ -57,8 +68,13 @@ const cpuMs = (): number => {
 };
 
 /** The embedded runner on `jobs` no-op jobs in a fresh folder. */
-export async function embeddedTiny(version: Version, threads: number, jobs: number): Promise<TinyRun> {
-  const sweep = parseSweepText(tinySweepYaml('bench-tiny', jobs), 'tiny (bench)');
+export async function embeddedTiny(
+  version: Version,
+  threads: number,
+  jobs: number,
+  kind: JobKind = 'no-op',
+): Promise<TinyRun> {
+  const sweep = parseSweepText(tinySweepYaml('bench-tiny', jobs, kind), 'tiny (bench)');
   const root = await mkdtemp(join(tmpdir(), 'rs-bench-tiny-'));
   const warm = Math.ceil(jobs * WARM_SHARE);
   let firstAt = 0;
@@ -113,6 +129,7 @@ export async function queueTiny(
   jobs: number,
   url: string,
   client: Redis,
+  kind: JobKind = 'no-op',
 ): Promise<TinyRun> {
   const root = await mkdtemp(join(tmpdir(), 'rs-bench-tinyq-'));
   const tag = randomBytes(3).toString('hex');
@@ -123,7 +140,9 @@ export async function queueTiny(
     connectTimeout: '10000',
   });
   const file = join(root, 'tiny.yaml');
-  await writeFile(file, tinySweepYaml('bench-tiny', jobs));
+  const yaml = tinySweepYaml('bench-tiny', jobs, kind);
+  const planned = countJobs(parseSweepText(yaml, 'tiny (bench)'));
+  await writeFile(file, yaml);
   const out = join(root, 'out');
   try {
     await submitSweep(file, out, settings, undefined);
@@ -160,7 +179,7 @@ export async function queueTiny(
       });
       const pid = child.pid as number;
       const completedKey = `${settings.queue.prefix}:${settings.queue.name}:completed`;
-      const warm = Math.ceil(jobs * WARM_SHARE);
+      const warm = Math.ceil(planned * WARM_SHARE);
       let warmCount = 0;
       let warmCpu = 0;
       for (;;) {
@@ -169,14 +188,18 @@ export async function queueTiny(
           warmCpu = await processCpuMs(pid);
           warmCount = done;
         }
-        if (done >= jobs) break;
+        if (done >= planned) break;
         await sleep(20);
       }
       const cpu = (await processCpuMs(pid)) - warmCpu;
       // finishedOn scores: the rate between the first and last finished job.
       const first = Number((await client.zrange(completedKey, 0, '0', 'WITHSCORES'))[1]);
       const last = Number((await client.zrange(completedKey, -1, '-1', 'WITHSCORES'))[1]);
-      return { jobs, rate: (jobs - 1) / ((last - first) / 1000), cpuMsPerJob: cpu / (jobs - warmCount) };
+      return {
+        jobs: planned,
+        rate: (planned - 1) / ((last - first) / 1000),
+        cpuMsPerJob: cpu / (planned - warmCount),
+      };
     } finally {
       child.kill('SIGTERM');
       await closed;
@@ -234,4 +257,65 @@ export async function sideBySide(
     );
   }
   return medians;
+}
+
+/** Jobs per run of each kind (RECALLSCAPE_BENCH_TINY_JOBS scales both: it sets the no-op count). */
+function jobsPerRun(kind: JobKind): number {
+  const noOp = Number(process.env['RECALLSCAPE_BENCH_TINY_JOBS'] ?? 2_000);
+  return kind === 'no-op' ? noOp : Math.max(100, Math.round(noOp * 0.75));
+}
+
+const ROUNDS = 3;
+
+type Figures = { rate: number; cpuMsPerJob: number };
+const ratio = (a: number, b: number): string => (a / b).toFixed(2);
+
+/**
+ * Group commit, before and now, side by side in this run, for both kinds of
+ * tiny job and 1 and 2 threads. With `queue` (a Redis URL and a client on
+ * it): one worker process and the embedded runner with as many threads,
+ * each before and now; without it, the embedded runner alone.
+ */
+export async function compareTinyJobs(queue: { url: string; client: Redis } | undefined): Promise<void> {
+  const indent = queue === undefined ? '' : '  ';
+  for (const kind of ['no-op', 'tiny model'] as const) {
+    const jobs = jobsPerRun(kind);
+    for (const threads of [1, 2]) {
+      console.log(
+        `${indent}tiny jobs (${KIND_HELP[kind]}), ${jobs} per run, ${threads} thread${threads === 1 ? '' : 's'}` +
+          `${queue === undefined ? '' : ' in one worker process and in the embedded runner'}; median (range) of ${ROUNDS} rounds, before and now alternating:`,
+      );
+      const contenders: Contender[] = [];
+      if (queue !== undefined)
+        contenders.push(
+          {
+            label: 'queue worker before group commit',
+            measure: () => queueTiny('before', threads, jobs, queue.url, queue.client, kind),
+          },
+          { label: 'queue worker now', measure: () => queueTiny('now', threads, jobs, queue.url, queue.client, kind) },
+        );
+      contenders.push(
+        { label: 'embedded before group commit', measure: () => embeddedTiny('before', threads, jobs, kind) },
+        { label: 'embedded now', measure: () => embeddedTiny('now', threads, jobs, kind) },
+      );
+      const m = await sideBySide(contenders, ROUNDS);
+      const get = (label: string): Figures => m.get(label) ?? { rate: Number.NaN, cpuMsPerJob: Number.NaN };
+      const eb = get('embedded before group commit');
+      const en = get('embedded now');
+      const lines = [
+        `embedded now / before: ${ratio(en.rate, eb.rate)}x jobs/s, ${ratio(eb.cpuMsPerJob, en.cpuMsPerJob)}x jobs per CPU-second`,
+      ];
+      if (queue !== undefined) {
+        const qb = get('queue worker before group commit');
+        const qn = get('queue worker now');
+        lines.unshift(
+          `queue worker now / before: ${ratio(qn.rate, qb.rate)}x jobs/s, ${ratio(qb.cpuMsPerJob, qn.cpuMsPerJob)}x jobs per CPU-second (goal >= 2x)`,
+        );
+        lines.push(
+          `queue worker now / embedded now: ${ratio(qn.rate, en.rate)} in jobs/s, ${ratio(en.cpuMsPerJob, qn.cpuMsPerJob)} in jobs per CPU-second (goal 0.9 to 1.1)`,
+        );
+      }
+      for (const line of lines) console.log(`${indent}  ${line}`);
+    }
+  }
 }
