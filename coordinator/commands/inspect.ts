@@ -6,13 +6,15 @@ import { inspectJob } from '../summarize/inspect-job.js';
 
 interface InspectFlags extends ModelCliOptions {
   readonly job: string;
-  readonly out?: string;
+  readonly file?: string;
+  readonly json?: boolean;
 }
 
 export function registerInspect(program: Command): void {
   defineCommand(program, 'inspect')
     .requiredOption('--job <key>', 'job key, or a unique prefix of one')
-    .option('--out <file.svg>', 'where to write the trace (default: DIR/report/inspect-<key>.svg)')
+    .option('--file <file.svg>', 'where to write the trace (default: DIR/report/inspect-<key>.svg)')
+    .option('--json', 'print the outcome as one JSON object')
     .addOption(modelsOption())
     .addOption(modelTimeoutOption())
     .action(
@@ -21,8 +23,9 @@ export function registerInspect(program: Command): void {
         const result = await inspectJob({
           dir,
           job: flags.job,
-          ...(flags.out === undefined ? {} : { out: flags.out }),
+          ...(flags.file === undefined ? {} : { out: flags.file }),
         });
+        if (flags.json === true) process.stdout.write(`${JSON.stringify(result)}\n`);
         const lines = [
           `job ${result.key} (replicate ${result.replicate}, seed ${result.seed})`,
           `point: ${JSON.stringify(result.point)}`,
@@ -36,7 +39,7 @@ export function registerInspect(program: Command): void {
             ? `trace: this model records no trace, so nothing was drawn`
             : `trace: ${result.panels} recall panel(s) drawn to ${result.svgPath}`,
         ];
-        process.stdout.write(`${lines.join('\n')}\n`);
+        if (flags.json !== true) process.stdout.write(`${lines.join('\n')}\n`);
         if (result.stored === 'different') {
           // A job is a pure function of its payload: a different result means the sweep cannot be reproduced.
           printError(

@@ -5,7 +5,14 @@ import { defaultThreadCount } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { defineCommand } from '../command-list.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
-import { DEFAULT_JOB_LIMIT, formatPlan, loadSweepForCommand, type PlanCores, planSweep } from '../plan-sweep.js';
+import {
+  DEFAULT_JOB_LIMIT,
+  formatPlan,
+  loadSweepForCommand,
+  type PlanCores,
+  planSweep,
+  wallSeconds,
+} from '../plan-sweep.js';
 import { displayPath } from '../shell-text.js';
 
 /** Timing jobs run by default to turn operations into core-hours. */
@@ -17,6 +24,7 @@ interface PlanFlags extends ModelCliOptions {
   readonly calibrate: string;
   readonly out: string;
   readonly cores?: string;
+  readonly json?: boolean;
 }
 
 /** Most cores an estimate is made for: far beyond any cluster, small enough to stay exact. */
@@ -55,6 +63,7 @@ export function registerPlan(program: Command): void {
       '--cores <n>',
       "estimate the wall-clock time for this many cores, e.g. all workers' threads (default: this machine's)",
     )
+    .option('--json', 'print the plan as one JSON object')
     .addOption(modelsOption())
     .action(
       action(async (file: string, flags: PlanFlags) => {
@@ -71,6 +80,11 @@ export function registerPlan(program: Command): void {
         const plan = await planSweep(sweep, { calibrate, ...(done === undefined ? {} : { done }) });
         const where =
           results === null ? {} : done === undefined ? { otherSweepDir: results.dir } : { resultsDir: results.dir };
+        if (flags.json === true) {
+          const wall = wallSeconds(plan, cores.count);
+          process.stdout.write(`${JSON.stringify({ ...plan, cores, wallSeconds: wall, ...where })}\n`);
+          return;
+        }
         process.stdout.write(formatPlan(plan, { cores, ...where }));
       }),
     );

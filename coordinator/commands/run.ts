@@ -26,6 +26,8 @@ export interface ExecuteOptions {
   readonly loggerName: string;
   /** Build the report when the run ends (not when stopped by a signal); otherwise end with the hint to build it. */
   readonly report: boolean;
+  /** Print the summary as one JSON object on stdout; the lines for a person go to stderr. */
+  readonly json?: boolean;
 }
 
 /**
@@ -36,7 +38,8 @@ export interface ExecuteOptions {
  */
 export async function executeSweep(options: ExecuteOptions): Promise<RunSweepResult> {
   const logger = createLogger({ name: options.loggerName });
-  const out = process.stdout;
+  // With --json, stdout carries only the summary object: a script reads it whole.
+  const out = options.json === true ? process.stderr : process.stdout;
   const display = createProgressDisplay({ stream: out });
   const signals = stopOnSignals(printError);
   let result: RunSweepResult;
@@ -92,10 +95,22 @@ export async function executeSweep(options: ExecuteOptions): Promise<RunSweepRes
   }
   out.write(`${lines.join('\n')}\n`);
   // Failed jobs do not hold the report back: it marks their cells as incomplete.
+  let reportDir: string | null = null;
   if (options.report && result.stopped === null) {
     // Loaded here: the renderers take a while to load, and a run should start at once.
     const { buildClosingReport } = await import('../finish-report.js');
-    await buildClosingReport(result.dir, (text) => out.write(text));
+    const { report } = await buildClosingReport(result.dir, (text) => out.write(text));
+    reportDir = report.reportDir;
+  }
+  if (options.json === true) {
+    const { writer: _writer, run: _run, ...figures } = result;
+    const summary = {
+      name: options.sweep.spec.name,
+      ...figures,
+      resume: result.missing > 0 ? options.resumeCommand : null,
+      reportDir,
+    };
+    process.stdout.write(`${JSON.stringify(summary)}\n`);
   }
   return result;
 }
@@ -107,6 +122,7 @@ interface RunFlags extends ModelCliOptions {
   readonly yes?: boolean;
   /** False with --no-report. */
   readonly report: boolean;
+  readonly json?: boolean;
 }
 
 export function registerRun(program: Command): void {
@@ -116,6 +132,7 @@ export function registerRun(program: Command): void {
     .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
     .option('--yes', 'run even when the sweep has more jobs than the limit')
     .option('--no-report', 'do not build the report at the end (`recallscape report DIR` builds it any time)')
+    .option('--json', 'print the closing summary as one JSON object on stdout (progress and messages go to stderr)')
     .addOption(modelsOption())
     .addOption(modelTimeoutOption())
     .action(
@@ -142,6 +159,7 @@ export function registerRun(program: Command): void {
           resumeCommand: words.map(shellWord).join(' '),
           loggerName: 'run',
           report: flags.report,
+          json: flags.json === true,
         });
       }),
     );

@@ -6,30 +6,30 @@ import { action } from '../cli-support.js';
 import { defineCommand } from '../command-list.js';
 
 interface SchemaOptions {
-  readonly out?: string;
+  readonly file?: string;
 }
 
-/** `recallscape schema [--out FILE]`: the JSON Schema of the sweep file, for editors. */
+/** `recallscape schema [--file FILE]`: the JSON Schema of the sweep file, for editors. */
 export function registerSchema(program: Command): void {
   defineCommand(program, 'schema')
-    .option('--out <file>', 'write the schema to this file instead of stdout')
+    .option('--file <file>', 'write the schema to this file instead of stdout')
     .action(
       action(async (options: SchemaOptions) => {
         const text = `${JSON.stringify(sweepJsonSchema(), null, 2)}\n`;
-        if (options.out === undefined) {
+        if (options.file === undefined) {
           process.stdout.write(text);
           return;
         }
         // Temporary file + rename: a reader never sees half a schema, and a failure leaves nothing behind.
         try {
-          await writeFileAtomic(options.out, text, { createFolder: false });
+          await writeFileAtomic(options.file, text, { createFolder: false });
         } catch (error) {
           const code = (error as NodeJS.ErrnoException).code;
-          throw new InputError(`--out ${options.out}: cannot write the schema there (${code ?? String(error)})`, [
-            { path: '--out', message: `cannot write ${options.out}` },
+          throw new InputError(`--file ${options.file}: cannot write the schema there (${code ?? String(error)})`, [
+            { path: '--file', message: `cannot write ${options.file}` },
           ]);
         }
-        process.stdout.write(`wrote ${options.out}\n`);
+        process.stdout.write(`wrote ${options.file}\n`);
       }),
     );
 }

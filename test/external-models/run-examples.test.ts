@@ -123,7 +123,7 @@ describe('the example models through recallscape run and report', () => {
     const key = String(records.find((r) => r.point['patterns'] === 9)?.['key']);
     const svg = join(out, 'inspect.svg');
     const inspect = await runCli(
-      ['inspect', join(out, 'hopfield-load'), '--job', key, '--models', 'examples/models', '--out', svg],
+      ['inspect', join(out, 'hopfield-load'), '--job', key, '--models', 'examples/models', '--file', svg],
       ROOT,
     );
     expect(inspect.code, inspect.stderr).toBe(0);

@@ -204,7 +204,7 @@ vary:
     expect(svg).not.toContain('(shared)');
   });
 
-  it('draws a job without a stored result and says so, writing where --out says', async () => {
+  it('draws a job without a stored result and says so, writing where --file says', async () => {
     const records = (await readFile(join(bcpnn.dir, 'results', 'test-writer-1.ndjson'), 'utf8'))
       .trim()
       .split('\n')
@@ -214,7 +214,7 @@ vary:
     const out = join(bcpnn.root, 'trace.svg');
     const missing = [...expandJobs(bcpnn.sweep)].map((j) => j.key).find((k) => !done.has(k)) ?? '';
     expect(missing).toMatch(/^[0-9a-f]{32}$/);
-    const result = await runCli(['inspect', bcpnn.dir, '--job', missing, '--out', out], bcpnn.root);
+    const result = await runCli(['inspect', bcpnn.dir, '--job', missing, '--file', out], bcpnn.root);
     expect(result.code).toBe(0);
     expect(result.stdout).toContain('stored record: none yet');
     expect(existsSync(out)).toBe(true);
@@ -242,7 +242,7 @@ vary:
       `${JSON.stringify({ ...stored, metrics: { ...stored.metrics, success: !stored.metrics['success'] } })}\n`,
     );
     const out = join(bcpnn.root, 'differs.svg');
-    const result = await runCli(['inspect', bcpnn.dir, '--job', stored.key, '--out', out], bcpnn.root);
+    const result = await runCli(['inspect', bcpnn.dir, '--job', stored.key, '--file', out], bcpnn.root);
     expect(result.code).toBe(1);
     expect(result.stderr).toContain(
       `recallscape: not reproducible: re-running job ${stored.key} gave other metrics than its stored record`,

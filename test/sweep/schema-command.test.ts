@@ -42,11 +42,11 @@ describe('recallscape schema', () => {
     expect(ranges.map((r) => Object.keys(r.properties ?? {})[0])).toEqual(['list', 'from', 'between', 'among']);
   });
 
-  it('writes the schema to a file with --out and prints where', async () => {
+  it('writes the schema to a file with --file and prints where', async () => {
     const dir = await mkdtemp(join(tmpdir(), 'rs-schema-'));
     try {
       const out = join(dir, 'sweep.schema.json');
-      const { stdout } = await run(process.execPath, [CLI, 'schema', '--out', out]);
+      const { stdout } = await run(process.execPath, [CLI, 'schema', '--file', out]);
       expect(stdout).toBe(`wrote ${out}\n`);
       const written = JSON.parse(await readFile(out, 'utf8')) as JsonSchema;
       expect(written.required).toEqual(['name']);
@@ -56,26 +56,26 @@ describe('recallscape schema', () => {
     }
   });
 
-  it('exits with code 2 when --out cannot be written', async () => {
-    const error = await run(process.execPath, [CLI, 'schema', '--out', '/nonexistent-folder/x.json']).then(
+  it('exits with code 2 when --file cannot be written', async () => {
+    const error = await run(process.execPath, [CLI, 'schema', '--file', '/nonexistent-folder/x.json']).then(
       () => undefined,
       (e: unknown) => e as { code: number; stderr: string },
     );
     expect(error?.code).toBe(2);
-    expect(error?.stderr).toContain('--out /nonexistent-folder/x.json');
+    expect(error?.stderr).toContain('--file /nonexistent-folder/x.json');
   });
 
-  it('exits with code 2 when --out names a folder and leaves no temporary file behind', async () => {
+  it('exits with code 2 when --file names a folder and leaves no temporary file behind', async () => {
     const dir = await mkdtemp(join(tmpdir(), 'rs-schema-'));
     try {
       const folder = join(dir, 'a-folder');
       await mkdir(folder);
-      const error = await run(process.execPath, [CLI, 'schema', '--out', folder]).then(
+      const error = await run(process.execPath, [CLI, 'schema', '--file', folder]).then(
         () => undefined,
         (e: unknown) => e as { code: number; stderr: string },
       );
       expect(error?.code).toBe(2);
-      expect(error?.stderr).toContain(`--out ${folder}`);
+      expect(error?.stderr).toContain(`--file ${folder}`);
       expect(error?.stderr).not.toMatch(/\n\s+at /);
       // Only the folder itself: no hidden .a-folder.*.tmp next to it, nothing inside it.
       expect(await readdir(dir)).toEqual(['a-folder']);
