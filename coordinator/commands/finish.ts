@@ -54,7 +54,7 @@ export function registerFinish(program: Command): void {
       const say = (line: string): void => {
         (flags.json === true ? process.stderr : process.stdout).write(`${line}\n`);
       };
-      const resume = resumeCommand(dir, flags);
+      const resume = resumeCommand(dir, flags, settings.url === settings.masked ? settings.url : 'URL');
 
       const stop = new AbortController();
       const onSignal = (signal: NodeJS.Signals): void => {
@@ -181,15 +181,19 @@ function unfinishedLines(result: FinishResult, name: string, dir: string, planne
   return lines;
 }
 
-/** The command that picks up where this one stopped (never with the Redis URL: it may hold a password). */
-function resumeCommand(dir: string, flags: FinishFlags): string {
+/**
+ * The command that picks up where this one stopped. A Redis URL given on the
+ * command line is repeated only when it holds no secret; otherwise it reads
+ * `--redis URL`.
+ */
+function resumeCommand(dir: string, flags: FinishFlags, redisWord: string): string {
   const words = ['recallscape', 'finish', displayPath(dir)];
+  if (flags.redis !== undefined) words.push('--redis', redisWord);
   if (flags.queue !== DEFAULT_QUEUE_NAME) words.push('--queue', flags.queue);
   if (flags.prefix !== DEFAULT_QUEUE_PREFIX) words.push('--prefix', flags.prefix);
   if (flags.models !== undefined) words.push('--models', flags.models);
   if (!flags.report) words.push('--no-report');
-  const command = words.map(shellWord).join(' ');
-  return flags.redis === undefined ? command : `${command} --redis URL`;
+  return words.map(shellWord).join(' ');
 }
 
 /** Progress as plain lines: events at once, figures when they changed, at most every LINE_EVERY_MS. */
