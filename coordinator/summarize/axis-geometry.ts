@@ -80,3 +80,47 @@ export function axisGeometry(axis: Axis, length: number): AxisGeometry {
   };
   return { edges, centres, even: false, at };
 }
+
+/**
+ * Pixel position of a number on a grid axis of numbers: linear between the
+ * centres of the values around it (in log space on a log axis), so an
+ * interpolated crossing lands where it lies between the two values. Null for
+ * an axis that is not all numbers, or a value outside its values.
+ */
+export function valuePixel(axis: Axis, geometry: AxisGeometry, value: number): number | null {
+  if (axis.kind !== 'values' || !axis.values.every((v) => typeof v === 'number')) return null;
+  const values = axis.values as readonly number[];
+  const t = (v: number): number => (axis.log ? Math.log(v) : v);
+  for (let i = 0; i < values.length; i++) {
+    const a = values[i] as number;
+    if (value === a) return geometry.centres[i] ?? null;
+    const b = values[i + 1];
+    if (b !== undefined && value > a && value < b) {
+      const ca = geometry.centres[i] as number;
+      const cb = geometry.centres[i + 1] as number;
+      return ca + ((t(value) - t(a)) / (t(b) - t(a))) * (cb - ca);
+    }
+  }
+  return null;
+}
+
+/**
+ * Cell edges of one row when each cell reaches halfway (by pixel, i.e. by
+ * value or by ratio as the axis is drawn) to the nearest cell present in the
+ * same row, the outer ones to the ends of the plot: a refined row gets narrow
+ * cells, a row that was not refined keeps wide ones. `present` lists the
+ * row's cell indices in increasing order; the result gives [start, end] per index.
+ */
+export function rowCellSpans(geometry: AxisGeometry, present: readonly number[]): Map<number, [number, number]> {
+  const spans = new Map<number, [number, number]>();
+  const end = geometry.edges[geometry.edges.length - 1] ?? 0;
+  present.forEach((index, k) => {
+    const previous = present[k - 1];
+    const next = present[k + 1];
+    const centre = geometry.centres[index] as number;
+    const start = previous === undefined ? 0 : (centre + (geometry.centres[previous] as number)) / 2;
+    const stop = next === undefined ? end : (centre + (geometry.centres[next] as number)) / 2;
+    spans.set(index, [start, stop]);
+  });
+  return spans;
+}

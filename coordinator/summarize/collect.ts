@@ -1,4 +1,5 @@
 import type { ParamInfo } from '../../shared/model.js';
+import { AdaptiveJobs } from '../../shared/refine/design-jobs.js';
 import type { FailureKind, Point } from '../../shared/schemas/records.js';
 import { computedParams, countJobs } from '../../shared/sweep/expand.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
@@ -171,8 +172,12 @@ export async function collectReport(source: ReportSource, options: ReportOptions
     for (const key of groups.keys()) pointIndex.set(key, pointIndex.size);
     // Records of points the sweep does not plan (an edited sweep) still count, with planned = 0.
     const unplanned = new Map<string, Point>();
+    // An adaptive sweep plans what its design asks for given the results: keep each trial's border metric.
+    const refineMetric = spec.refine?.metric;
+    const refineOutcomes = new Map<string, Readonly<Record<string, unknown>>>();
     const aggregation = await aggregateRecords(source.records({ onWarning }), (record) => {
       if (failedKeys.size > 0) failedKeys.delete(record.key);
+      if (refineMetric !== undefined) refineOutcomes.set(record.key, { [refineMetric]: record.metrics[refineMetric] });
       const key = keyOf(record.point);
       if (!groups.has(key) && !unplanned.has(key)) {
         unplanned.set(key, valuesOf(record.point));
@@ -181,6 +186,21 @@ export async function collectReport(source: ReportSource, options: ReportOptions
       recorder?.add(record, pointIndex.get(key) ?? null, groups.get(key)?.values ?? unplanned.get(key) ?? record.point);
       return key;
     });
+    let plannedJobs: number | null = null;
+    if (refineMetric !== undefined) {
+      const design = new AdaptiveJobs(sweep).design(refineOutcomes);
+      plannedJobs = design.trials;
+      // The design's points in its order (starting grid, then midpoints as found), with its replicates.
+      const planned = new Map<string, OpenGroup>();
+      for (const { point, replicates } of design.points) {
+        const key = keyOf(point);
+        const group = planned.get(key) ?? { values: valuesOf(point), planned: 0, summary: new GroupSummary() };
+        group.planned += replicates;
+        planned.set(key, group);
+      }
+      groups.clear();
+      for (const [key, group] of planned) groups.set(key, group);
+    }
     for (const [key, summary] of aggregation.groups) {
       const group = groups.get(key);
       if (group !== undefined) group.summary = summary;
@@ -210,7 +230,7 @@ export async function collectReport(source: ReportSource, options: ReportOptions
       metric,
       pooled: names.filter((n) => n !== settings.x && n !== settings.y && n !== settings.facet),
       diagramKind: diagramKindOf(spec, settings),
-      plannedJobs: countJobs(sweep),
+      plannedJobs: plannedJobs ?? countJobs(sweep),
       completedJobs: aggregation.records,
       failedJobs: failedKeys.size,
       failuresByKind: [...attemptsByKind.entries()].sort((a, b) => b[1] - a[1]),

@@ -1,5 +1,5 @@
 import { type Axis, cellLabel } from './axis.js';
-import { type AxisGeometry, axisGeometry } from './axis-geometry.js';
+import { type AxisGeometry, axisGeometry, rowCellSpans, valuePixel } from './axis-geometry.js';
 import type { CellData, CellGrid } from './cell-grid.js';
 import { colourScale } from './colour-scale.js';
 import { isoLines, isoRegion } from './contour.js';
@@ -38,6 +38,24 @@ export interface PhaseDiagramInput {
   readonly describeCell: (cell: CellData) => string;
   /** The command that re-runs the trial with this key, for tooltips; omitted: no such line. */
   readonly inspectCommand?: (key: string) => string;
+  /**
+   * Cells sized within their own row (adaptive sweeps): a cell reaches halfway
+   * to the nearest cell of its row that has a point, and cells without a point
+   * in a row are not drawn, so refined rows show narrow cells.
+   */
+  readonly rowCells?: boolean;
+  /**
+   * The border as estimated per row (index y) instead of contoured over the
+   * cells: its crossing and interval along x, null where the row has none.
+   */
+  readonly rowBorders?: ReadonlyArray<RowCrossing | null>;
+}
+
+/** Where a row's rate crosses the border level along x, with the interval of the crossing (null: open). */
+export interface RowCrossing {
+  readonly x: number | null;
+  readonly lo: number | null;
+  readonly hi: number | null;
 }
 
 export interface RenderedSvg {
@@ -133,19 +151,36 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     cx: number,
     cy: number,
   ): { x: number | string; y: number | string; w: number | string; h: number | string } => {
-    if (xg.even && yg.even) return { x: left + cx * cellW, y: top + (ny - 1 - cy) * cellH, w: cellW, h: cellH };
-    const x0 = xg.edges[cx] as number;
-    const x1 = xg.edges[cx + 1] as number;
+    const span = rowSpans.get(cy)?.get(cx);
+    if (span === undefined && xg.even && yg.even)
+      return { x: left + cx * cellW, y: top + (ny - 1 - cy) * cellH, w: cellW, h: cellH };
+    const [x0, x1] = span ?? [xg.edges[cx] as number, xg.edges[cx + 1] as number];
     const y0 = yg.edges[cy] as number;
     const y1 = yg.edges[cy + 1] as number;
     return { x: px(left + x0), y: px(top + plotH - y1), w: px(x1 - x0), h: px(y1 - y0) };
   };
 
-  const incompleteCells = grid.cells.filter((c) => c.n > 0 && c.n < c.planned);
-  const emptyCount = grid.cells.filter((c) => c.n === 0).length;
+  // Row-sized cells: only the cells with a point in their row are drawn, each up to halfway to its neighbours there.
+  const rowSpans = new Map<number, Map<number, [number, number]>>();
+  if (input.rowCells === true) {
+    for (let y = 0; y < ny; y++) {
+      const present = grid.cells.filter((c) => c.y === y && (c.n > 0 || c.planned > 0)).map((c) => c.x);
+      rowSpans.set(
+        y,
+        rowCellSpans(
+          xg,
+          present.sort((a, b) => a - b),
+        ),
+      );
+    }
+  }
+  const drawn = input.rowCells === true ? grid.cells.filter((c) => rowSpans.get(c.y)?.has(c.x) === true) : grid.cells;
+  const incompleteCells = drawn.filter((c) => c.n > 0 && c.n < c.planned);
+  const emptyCount = drawn.filter((c) => c.n === 0).length;
   const values = grid.cells.map((c) => c.value);
-  const borderLines = input.border === null ? [] : isoLines(values, nx, ny, input.border);
   const level = input.border;
+  const rowBorders = input.rowBorders;
+  const borderLines = level === null || rowBorders !== undefined ? [] : isoLines(values, nx, ny, level);
   // The band: where lo <= level <= hi, i.e. min(level - lo, hi - level) >= 0.
   const bandRings =
     level === null || !input.isRate || borderLines.length === 0
@@ -156,14 +191,24 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
           ny,
           0,
         );
+  const rowDrawing = rowBorders === undefined || level === null ? null : rowBorderDrawing(rowBorders, xAxis, xg, yg);
 
+  const borderDrawn = borderLines.length > 0 || (rowDrawing?.lines.length ?? 0) > 0;
+  const bandDrawn = bandRings.length > 0 || (rowDrawing?.bands.length ?? 0) > 0;
   const marks: LegendMark[] = [];
-  if (borderLines.length > 0 && level !== null)
+  if (borderDrawn && level !== null)
     marks.push({ kind: 'border', text: input.isRate ? `${Math.round(level * 100)}% border` : `border at ${level}` });
-  if (bandRings.length > 0) marks.push({ kind: 'band', text: '95% interval holds 50%' });
+  if (bandDrawn)
+    marks.push({
+      kind: 'band',
+      text:
+        rowDrawing !== null
+          ? '95% interval of the crossing'
+          : `95% interval holds ${Math.round((level ?? 0.5) * 100)}%`,
+    });
   if (incompleteCells.length > 0) marks.push({ kind: 'incomplete' });
   if (emptyCount > 0) {
-    const unplanned = grid.cells.filter((c) => c.n === 0 && c.planned === 0).length;
+    const unplanned = drawn.filter((c) => c.n === 0 && c.planned === 0).length;
     const text = unplanned === 0 ? 'no trials yet' : unplanned === emptyCount ? 'no point sampled here' : 'no trials';
     marks.push({ kind: 'empty', text });
   }
@@ -186,7 +231,7 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
   });
 
   out.push(`<g class="cells">`);
-  for (const cell of grid.cells) {
+  for (const cell of drawn) {
     const box = cellBox(cell.x, cell.y);
     const empty = cell.n === 0;
     const classes = ['cell', empty ? 'empty' : 'filled', !empty && cell.n < cell.planned ? 'incomplete' : 'complete'];
@@ -227,6 +272,27 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     `<rect x="${left}" y="${top}" width="${plotW}" height="${plotH}" fill="none" stroke="#222222" stroke-width="1"/>`,
   );
 
+  if (rowDrawing !== null && level !== null) {
+    if (rowDrawing.bands.length > 0) {
+      out.push(`<g class="band" clip-path="url(#${id}-clip)" pointer-events="none">`);
+      const d = rowDrawing.bands
+        .map(
+          ([x0, x1, y0, y1]) =>
+            `M${px(left + x0)},${px(top + plotH - y1)}H${px(left + x1)}V${px(top + plotH - y0)}H${px(left + x0)}Z`,
+        )
+        .join('');
+      out.push(...bandPaths(d));
+      out.push('</g>');
+    }
+    if (rowDrawing.lines.length > 0) {
+      out.push(`<g class="border" clip-path="url(#${id}-clip)" pointer-events="none">`);
+      const d = rowDrawing.lines
+        .map((line) => line.map(([x, y], i) => `${i === 0 ? 'M' : 'L'}${px(left + x)},${px(top + plotH - y)}`).join(''))
+        .join('');
+      out.push(...borderPaths(d, level));
+      out.push('</g>');
+    }
+  }
   if (bandRings.length > 0) {
     out.push(`<g class="band" clip-path="url(#${id}-clip)" pointer-events="none">`);
     out.push(...bandPaths(pathData(bandRings, at, true)));
@@ -276,11 +342,11 @@ export function renderPhaseDiagram(input: PhaseDiagramInput): RenderedSvg {
     svg: out.join('\n'),
     width,
     height,
-    cellCount: grid.cells.length,
+    cellCount: drawn.length,
     incompleteCount: incompleteCells.length,
-    emptyCount: grid.cells.filter((c) => c.n === 0 && c.planned > 0).length,
-    borderDrawn: borderLines.length > 0,
-    bandDrawn: bandRings.length > 0,
+    emptyCount: drawn.filter((c) => c.n === 0 && c.planned > 0).length,
+    borderDrawn,
+    bandDrawn,
   };
 }
 
@@ -322,4 +388,47 @@ function shownLabels(
     if (fits) last = { centre, half };
   });
   return shown;
+}
+
+/**
+ * A border estimated per row, in plot pixels (x from the left, y from the
+ * bottom): a line through each row's crossing at the row's middle, run to the
+ * row's outer edges where it starts and ends, broken where a row has no
+ * crossing; and per row a band from the interval's ends (an open end runs to
+ * the plot's edge).
+ */
+function rowBorderDrawing(
+  rows: ReadonlyArray<RowCrossing | null>,
+  xAxis: Axis,
+  xg: AxisGeometry,
+  yg: AxisGeometry,
+): { lines: Array<Array<[number, number]>>; bands: Array<[number, number, number, number]> } {
+  const width = xg.edges[xg.edges.length - 1] ?? 0;
+  const lines: Array<Array<[number, number]>> = [];
+  const bands: Array<[number, number, number, number]> = [];
+  let line: Array<[number, number]> = [];
+  const finish = (): void => {
+    if (line.length > 0) lines.push(line);
+    line = [];
+  };
+  rows.forEach((row, y) => {
+    const y0 = yg.edges[y] ?? 0;
+    const y1 = yg.edges[y + 1] ?? y0;
+    const x = row?.x === null || row === null ? null : valuePixel(xAxis, xg, row.x);
+    if (row !== null && (row.x !== null || row.lo !== null || row.hi !== null)) {
+      const lo = row.lo === null ? 0 : (valuePixel(xAxis, xg, row.lo) ?? 0);
+      const hi = row.hi === null ? width : (valuePixel(xAxis, xg, row.hi) ?? width);
+      if (hi > lo) bands.push([lo, hi, y0, y1]);
+    }
+    if (x === null) {
+      if (line.length > 0) line.push([line[line.length - 1]![0], y0]);
+      finish();
+      return;
+    }
+    if (line.length === 0) line.push([x, y0]);
+    line.push([x, (y0 + y1) / 2]);
+  });
+  if (line.length > 0) line.push([line[line.length - 1]![0], yg.edges[yg.edges.length - 1] ?? 0]);
+  finish();
+  return { lines, bands };
 }

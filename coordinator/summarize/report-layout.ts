@@ -30,10 +30,18 @@ export interface CellLayoutInput {
   readonly facetBins: number;
   /** Parameters drawn on a log axis on request (ranges with `scale: log` and geometric lists are anyway). */
   readonly log?: ReadonlySet<string>;
+  /** Points whose numeric values join the grid's own on value axes (an adaptive sweep's midpoints). */
+  readonly occurring?: ReadonlyArray<Readonly<Record<string, unknown>>>;
 }
 
 /** Axis of one varied parameter: its values (grid and discrete ranges), or bins of a continuous range. */
-function axisFor(vary: Readonly<Record<string, Range>>, param: string, bins: number, logAsked: boolean): Axis {
+function axisFor(
+  vary: Readonly<Record<string, Range>>,
+  param: string,
+  bins: number,
+  logAsked: boolean,
+  occurring: ReadonlyArray<Readonly<Record<string, unknown>>> = [],
+): Axis {
   const range = vary[param];
   if (range === undefined) throw new TypeError(`no range for ${param}`);
   if ('between' in range) {
@@ -43,6 +51,10 @@ function axisFor(vary: Readonly<Record<string, Range>>, param: string, bins: num
   }
   const values: AxisValue[] = 'among' in range ? [...range.among] : gridValues(range);
   const log = logAsked || ('from' in range && range.scale === 'log') || geometricList(values);
+  for (const point of occurring) {
+    const v = point[param];
+    if (typeof v === 'number') values.push(v);
+  }
   return valueAxis(param, values, log);
 }
 
@@ -53,9 +65,11 @@ function axisFor(vary: Readonly<Record<string, Range>>, param: string, bins: num
  */
 export function buildCellLayout(input: CellLayoutInput): CellLayout {
   const asked = (p: string): boolean => input.log?.has(p) ?? false;
-  const xAxis = input.x === null ? null : axisFor(input.vary, input.x, input.bins, asked(input.x));
-  const yAxis = input.y === null ? null : axisFor(input.vary, input.y, input.bins, asked(input.y));
-  const facetAxis = input.facet === null ? null : axisFor(input.vary, input.facet, input.facetBins, asked(input.facet));
+  const extra = input.occurring;
+  const xAxis = input.x === null ? null : axisFor(input.vary, input.x, input.bins, asked(input.x), extra);
+  const yAxis = input.y === null ? null : axisFor(input.vary, input.y, input.bins, asked(input.y), extra);
+  const facetAxis =
+    input.facet === null ? null : axisFor(input.vary, input.facet, input.facetBins, asked(input.facet), extra);
   return {
     xAxis,
     yAxis,

@@ -126,7 +126,7 @@ describe('buildReport on a finished grid sweep', () => {
 
   it('writes only the formats asked for', async () => {
     const result = await buildReport({ dir: folder.dir, formats: ['csv'] });
-    expect(result.files.map((f) => f.split('/').pop())).toEqual(['points.csv', 'trials.csv']);
+    expect(result.files.map((f) => f.split('/').pop())).toEqual(['points.csv', 'trials.csv', 'border.csv']);
     expect(result.indexHtml).toBeNull();
   });
 

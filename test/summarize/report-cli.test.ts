@@ -25,6 +25,7 @@ describe('recallscape report', () => {
     expect(result.stdout).toContain('completed 44 of 88 jobs (50.0%)');
     const names = (await readdir(join(folder.dir, 'report'))).sort();
     expect(names).toEqual([
+      'border.csv',
       'index.html',
       'phase-success.png',
       'phase-success.svg',

@@ -8,6 +8,7 @@ import { renderPhaseDiagram } from '../phase-diagram.js';
 import { svgToPng } from '../png.js';
 import { buildCellLayout, type CellLayout } from '../report-layout.js';
 import { MAX_FACET_BINS } from '../report-settings.js';
+import { rowBorders } from '../row-borders.js';
 import { diagramFigure, diagramSection, slug } from './figure.js';
 import type { ChartOutput, ReportChart } from './report-chart.js';
 
@@ -44,6 +45,8 @@ export const phaseDiagrams: ReportChart = {
         if (yAxis !== null) parts.push(onAxis(yAxis, cell.y, info));
         return parts.join(', ');
       };
+      const adaptive = spec.refine !== undefined;
+      const level = borderLevel(report);
       const inspectCommand = (key: string): string => `recallscape inspect ${shellWord(report.dir)} --job ${key}`;
       for (const grid of grids) {
         const facetText = facetAxis === null ? null : onAxis(facetAxis, grid.facet, info);
@@ -66,9 +69,10 @@ export const phaseDiagrams: ReportChart = {
           valueLabel,
           isRate,
           domain,
-          border: isRate ? 0.5 : null,
+          border: isRate ? level : null,
           describeCell,
           inspectCommand,
+          ...(adaptive ? { rowCells: true, rowBorders: isRate ? rowBorders(grid, xAxis, level) : [] } : {}),
         });
         incompleteCells += rendered.incompleteCount;
         emptyCells += rendered.emptyCount;
@@ -120,7 +124,14 @@ export function cellLayoutOf(report: CollectedReport): CellLayout {
     bins: settings.bins,
     facetBins: Math.min(settings.bins, MAX_FACET_BINS),
     log: settings.log,
+    // An adaptive sweep's midpoints are values of their own on the axes.
+    ...(report.sweep.spec.refine === undefined ? {} : { occurring: report.groups.map((g) => g.values) }),
   });
+}
+
+/** The rate level of the border: the adaptive sweep's own, else 50%. */
+export function borderLevel(report: CollectedReport): number {
+  return report.sweep.spec.refine?.level ?? 0.5;
 }
 
 /** Legend and title name of the shown metric. */

@@ -1,3 +1,4 @@
+import { borderTable } from './border-table.js';
 import { phaseDiagrams } from './phase-diagrams.js';
 import type { ReportChart } from './report-chart.js';
 import { scatterDiagrams } from './scatter-diagrams.js';
@@ -9,4 +10,10 @@ import { trialTable } from './trial-table.js';
  * written and listed. Add a chart here and nowhere else; `pageRank` places
  * its section on the page.
  */
-export const REPORT_CHARTS: readonly ReportChart[] = [summaryTable, trialTable, phaseDiagrams, scatterDiagrams];
+export const REPORT_CHARTS: readonly ReportChart[] = [
+  summaryTable,
+  trialTable,
+  phaseDiagrams,
+  borderTable,
+  scatterDiagrams,
+];
