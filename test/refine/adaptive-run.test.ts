@@ -77,10 +77,4 @@ describe('recallscape run on an adaptive sweep', () => {
     expect(plan.stdout).toMatch(/jobs\s+48 to 672 \(adaptive/);
     expect(plan.stdout).toContain('worst case');
   });
-
-  it('refuses to submit an adaptive sweep to the queue, naming refine', async () => {
-    const submit = await runCli(['submit', file, '--redis', 'redis://127.0.0.1:6379', '--out', 'queued'], dir);
-    expect(submit.code).toBe(2);
-    expect(submit.stderr).toContain('adaptive sweep (refine)');
-  });
 });
