@@ -130,6 +130,7 @@ export async function queueTiny(
   url: string,
   client: Redis,
   kind: JobKind = 'no-op',
+  workerOptions: readonly string[] = [],
 ): Promise<TinyRun> {
   const root = await mkdtemp(join(tmpdir(), 'rs-bench-tinyq-'));
   const tag = randomBytes(3).toString('hex');
@@ -162,6 +163,7 @@ export async function queueTiny(
             settings.queue.name,
             '--prefix',
             settings.queue.prefix,
+            ...workerOptions,
           ];
     const child = spawn(process.execPath, args, {
       stdio: ['ignore', 'ignore', 'pipe'],
