@@ -1,8 +1,9 @@
+import { hostname } from 'node:os';
 import { setTimeout as sleep } from 'node:timers/promises';
 import { isErrorOf, ServiceError } from '../shared/errors.js';
 import type { Logger } from '../shared/logger.js';
 import type { WorkQueue } from '../shared/queue/work-queue.js';
-import type { ResultStore } from '../shared/store/result-store.js';
+import { newWriterId, type ResultStore } from '../shared/store/result-store.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
 import { type MissingJobs, missingJobs } from './finish-missing.js';
 import { gatherFrom } from './gather.js';
@@ -102,6 +103,8 @@ export async function finishSweep(options: FinishOptions): Promise<FinishResult>
   let redisMessage: string | null = null;
   let troubleSince: number | null = null;
   let first = true;
+  // One shard for every record this follow gathers, not one per look.
+  const gatherWriter = newWriterId(`gather-${hostname()}`);
 
   // A function, not a property read: the signal changes while this runs.
   const stopRequested = (): boolean => options.signal?.aborted === true;
@@ -153,7 +156,7 @@ export async function finishSweep(options: FinishOptions): Promise<FinishResult>
 
   /** One look: gather, measure, requeue what is nowhere; an end, or null to look again. */
   async function lookOnce(q: WorkQueue): Promise<FinishEnd | null> {
-    const g = await gatherFrom(q, store, sweep, logger);
+    const g = await gatherFrom(q, store, sweep, logger, gatherWriter);
     gathered += g.copied;
     rejected = g.rejected;
     if (g.copied > 0 || g.removed > 0) emit({ kind: 'gathered', copied: g.copied, removed: g.removed });

@@ -45,6 +45,8 @@ export async function gatherFrom(
   store: ResultStore,
   sweep: LoadedSweep,
   logger: Logger | undefined,
+  /** Shard to append to; a caller that gathers again and again (finish) keeps one file instead of one per call. */
+  writerId: string = newWriterId(`gather-${hostname()}`),
 ): Promise<GatherResult> {
   // Listed first, then worked through: removing while paging would shift the pages.
   const keys: string[] = [];
@@ -68,7 +70,7 @@ export async function gatherFrom(
         if (onDisk.has(record.data.key)) {
           alreadyOnDisk++;
         } else {
-          writer ??= store.openWriter(newWriterId(`gather-${hostname()}`));
+          writer ??= store.openWriter(writerId);
           writer.appendResult(record.data);
           onDisk.add(record.data.key);
           copied++;

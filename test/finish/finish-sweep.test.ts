@@ -128,6 +128,8 @@ describe('following a queued sweep to its end', () => {
     const lines = await recordLines();
     expect(lines).toHaveLength(PLANNED);
     expect(new Set(lines.map((l) => l.key))).toEqual(new Set(jobs.map((j) => j.key)));
+    // Records gathered over several looks go to one shard file, not one per look.
+    expect(await readdir(join(store.dir, 'results'))).toHaveLength(1);
     // Redis keeps nothing of a finished sweep.
     expect(queue.all().filter((j) => j.sweepHash === sweep.hash)).toEqual([]);
   });
