@@ -27,8 +27,8 @@ export interface QueueWorkerOptions {
   /**
    * The runner's shard sinks. Jobs whose record waits for a group commit
    * still hold their queue lock (they are acknowledged after the sync), so
-   * the worker holds extra jobs for them, sized from how many waited at once
-   * recently: the threads then never wait for a sync.
+   * while it prefetches, the worker holds extra jobs for them, sized from how
+   * many waited at once recently: the threads then never wait for a sync.
    */
   readonly sinks?: ShardSinks;
   /** The pool can run nothing (e.g. threads fail to load): the worker should stop rather than fail every job. */
@@ -61,7 +61,18 @@ export class QueueWorker {
   /** Jobs to hold at the start: one per thread, a fixed prefetch ('auto' starts without extra jobs), the sync allowance. */
   get initialConcurrency(): number {
     const prefetch = this.options.prefetch;
-    return this.options.runner.threads + (typeof prefetch === 'number' ? prefetch : 0) + this.syncAllowance;
+    return this.options.runner.threads + this.withAllowance(typeof prefetch === 'number' ? prefetch : 0);
+  }
+
+  /**
+   * Extra jobs beyond one per thread: the prefetch, plus the sync allowance
+   * while anything is prefetched at all. Without prefetch (long jobs, or
+   * `--prefetch 0`) a thread may wait for one sync per job, a few ms against
+   * a job of 0.1 s or more, and no job waits in this process behind a
+   * running one while other workers may be idle.
+   */
+  private withAllowance(prefetch: number): number {
+    return prefetch > 0 ? prefetch + this.syncAllowance : 0;
   }
 
   /** The consumer whose concurrency the worker adjusts (prefetch 'auto', sync allowance). */
@@ -99,7 +110,7 @@ export class QueueWorker {
         : this.meanJobMs !== undefined && this.meanJobMs < AUTO_PREFETCH_BELOW_MS
           ? AUTO_PREFETCH_PER_THREAD * threads
           : 0;
-    this.consumer.concurrency = threads + extra + this.syncAllowance;
+    this.consumer.concurrency = threads + this.withAllowance(extra);
   }
 
   readonly handle: JobHandler = async (job: ConsumedJob): Promise<JobVerdict> => {
