@@ -14,7 +14,7 @@ export const EXIT_INPUT = 2;
 export function parseWholeNumber(option: string, raw: string, min: number, max = Number.MAX_SAFE_INTEGER): number {
   const value = Number(raw);
   if (!/^\s*\d+\s*$/.test(raw) || !Number.isSafeInteger(value) || value < min || value > max) {
-    const message = `${option} must be a whole number from ${min} to ${max}, got "${raw}"`;
+    const message = `${option}: must be a whole number from ${min} to ${max}, got "${raw}"`;
     throw new InputError(message, [{ path: option, message }]);
   }
   return value;

@@ -81,7 +81,7 @@ function parsePrefetch(raw: string): number {
   try {
     return parseWholeNumber('--prefetch', raw, 0, 1000);
   } catch {
-    const message = `--prefetch must be "auto" or a whole number from 0 to 1000, got "${raw}"`;
+    const message = `--prefetch: must be "auto" or a whole number from 0 to 1000, got "${raw}"`;
     throw new InputError(message, [{ path: '--prefetch', message }]);
   }
 }

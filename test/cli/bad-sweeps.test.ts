@@ -142,7 +142,7 @@ describe.concurrent('bad sweep files on the command line', () => {
     await writeFile(join(cwd, 'sweep.yaml'), 'name: b\nmodel: no-op\n');
     const result = await runCli(['run', 'sweep.yaml', '--out', 'out', '--threads', 'two'], cwd);
     expect(result.code).toBe(2);
-    expect(result.stderr).toContain('--threads must be a whole number from 1');
+    expect(result.stderr).toContain('--threads: must be a whole number from 1');
     expect(await readdir(cwd)).toEqual(['sweep.yaml']);
   });
 });

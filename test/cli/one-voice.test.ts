@@ -84,6 +84,14 @@ describe('errors of the argument parser', () => {
   });
 });
 
+describe('bad option values', () => {
+  it('names the option first, as every other message does', async () => {
+    const result = await runCli(['run', 'small.yaml', '--threads', 'two'], dir);
+    expect(result.code).toBe(2);
+    expect(onlyLine(result)).toBe('recallscape: --threads: must be a whole number from 1 to 1024, got "two"');
+  });
+});
+
 describe('errors in sweep files', () => {
   it('reports a missing file once', async () => {
     const result = await runCli(['plan', 'missing.yaml'], dir);

@@ -113,7 +113,7 @@ describe('parseWholeNumber', () => {
       }
       expect(caught, raw).toMatchObject({
         name: 'InputError',
-        message: `--threads must be a whole number from 1 to 1024, got "${raw}"`,
+        message: `--threads: must be a whole number from 1 to 1024, got "${raw}"`,
         issues: [{ path: '--threads' }],
       });
     }

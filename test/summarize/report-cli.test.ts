@@ -71,7 +71,7 @@ describe('recallscape report', () => {
   it('exits with 2 for --bins out of range, naming the option and the allowed range', async () => {
     const result = await runCli(['report', folder.dir, '--bins', '1'], folder.root);
     expect(result.code).toBe(2);
-    expect(result.stderr).toBe('recallscape: --bins must be a whole number from 2 to 200, got "1"\n');
+    expect(result.stderr).toBe('recallscape: --bins: must be a whole number from 2 to 200, got "1"\n');
   });
 
   it('exits with 2 for --log naming a parameter the sweep does not vary, or one with a value of 0', async () => {
