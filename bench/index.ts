@@ -14,6 +14,7 @@ const SECTIONS: readonly Section[] = [
   { name: 'validation', load: () => import('./validation.js') },
   { name: 'external', load: () => import('./external.js') },
   { name: 'startup', load: () => import('./startup.js') },
+  { name: 'adaptive', load: () => import('./adaptive.js') },
 ];
 
 const wanted = process.argv.slice(2);
