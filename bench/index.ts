@@ -15,6 +15,7 @@ const SECTIONS: readonly Section[] = [
   { name: 'external', load: () => import('./external.js') },
   { name: 'startup', load: () => import('./startup.js') },
   { name: 'adaptive', load: () => import('./adaptive.js') },
+  { name: 'integrity', load: () => import('./integrity.js') },
 ];
 
 const wanted = process.argv.slice(2);

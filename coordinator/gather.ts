@@ -2,6 +2,7 @@ import { hostname } from 'node:os';
 import type { Logger } from '../shared/logger.js';
 import type { WorkQueue } from '../shared/queue/work-queue.js';
 import { ResultRecordSchema } from '../shared/schemas/records.js';
+import { recordIdentityCheck } from '../shared/store/record-identity.js';
 import { newWriterId, ResultStore, type ShardWriter } from '../shared/store/result-store.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
 import { type QueueSettings, withQueue } from './queue-session.js';
@@ -51,7 +52,13 @@ export async function gatherFrom(
   // Listed first, then worked through: removing while paging would shift the pages.
   const keys: string[] = [];
   for await (const page of queue.finishedJobs(sweep.hash)) for (const job of page) keys.push(job.key);
-  const onDisk = await store.completedKeys();
+  const onDisk = await store.completedKeys({
+    onWarning: (w) => logger?.warn({ file: w.file, line: w.line, kind: w.kind }, w.message),
+  });
+  // A return value is whatever Redis holds: it must be the record of the job it is filed under.
+  const check = recordIdentityCheck(sweep);
+  let misnamed = 0;
+  let firstMisnamed = '';
   let writer: ShardWriter | undefined;
   let copied = 0;
   let alreadyOnDisk = 0;
@@ -65,6 +72,12 @@ export async function gatherFrom(
         if (!record.success || record.data.key !== key || record.data.sweepHash !== sweep.hash) {
           rejected++;
           logger?.warn({ key }, 'a finished job does not carry a record of this sweep; left in the queue');
+          continue;
+        }
+        const wrong = check(record.data);
+        if (wrong !== undefined) {
+          rejected++;
+          if (misnamed++ === 0) firstMisnamed = `${key}: ${wrong}`;
           continue;
         }
         if (onDisk.has(record.data.key)) {
@@ -83,6 +96,12 @@ export async function gatherFrom(
     }
   } finally {
     writer?.close();
+  }
+  if (misnamed > 0) {
+    logger?.warn(
+      { sweep: sweep.spec.name, count: misnamed, first: firstMisnamed },
+      `${misnamed} finished job(s) carry a record whose key, seed or point is not what this sweep gives; not copied, left in the queue`,
+    );
   }
   logger?.info({ sweep: sweep.spec.name, found: keys.length, copied, removed }, 'results gathered');
   return {

@@ -37,7 +37,10 @@ export async function requeueIn(
   retryFailed: boolean,
   logger: Logger | undefined,
 ): Promise<RequeueResult> {
-  const done = await store.completedKeys();
+  // Records set aside by the store (damaged lines, keys that are not their content's) are said once per file.
+  const done = await store.completedKeys({
+    onWarning: (w) => logger?.warn({ file: w.file, line: w.line, kind: w.kind }, w.message),
+  });
   const planned = await plannedNow(store, sweep);
   const report = await enqueueMissing(queue, sweep, done, {
     retryFailed,

@@ -7,6 +7,7 @@ import { InputError, SweepMismatchError } from '../errors.js';
 import { type FailureRecord, FailureRecordSchema, type ResultRecord, ResultRecordSchema } from '../schemas/records.js';
 import { type LoadedSweep, type StoredSweep, StoredSweepSchema, SWEEP_FORMAT, sweepFromStored } from '../sweep/load.js';
 import { CODE_VERSION } from '../version.js';
+import { type RecordCheck, recordIdentityCheck } from './record-identity.js';
 import { fnv1a32, type ScanOptions, scanShards } from './shard-reader.js';
 import { createShardWriter, type ShardFs, type ShardWriter } from './shard-writer.js';
 
@@ -32,6 +33,8 @@ export class ResultStore {
   readonly reportDir: string;
   readonly sweepFile: string;
   private storedHash: string | undefined;
+  /** The sweep as loaded by prepare() or readSweep(): readers check every record's identity against it. */
+  private loaded: LoadedSweep | undefined;
 
   private constructor(dir: string) {
     this.dir = resolve(dir);
@@ -132,6 +135,7 @@ export class ResultStore {
       }
     }
     this.storedHash = sweep.hash;
+    this.loaded = sweep;
     await mkdir(this.resultsDir, { recursive: true });
     await mkdir(this.failuresDir, { recursive: true });
   }
@@ -157,6 +161,7 @@ export class ResultStore {
       );
     }
     const loaded = sweepFromStored(stored, this.sweepFile);
+    this.loaded = loaded;
     return { ...loaded, codeVersion: stored.codeVersion, createdAt: stored.createdAt };
   }
 
@@ -189,11 +194,15 @@ export class ResultStore {
   }
 
   private async *unique(seen: Map<string, number>, options: ScanOptions): AsyncGenerator<ResultRecord> {
+    // Every reader (report, resume, requeue, gather, progress) sets aside records
+    // whose key or seed is not their content's: whoever can write to the queue
+    // or to a shard must not be able to file a result under a real job's key.
     for await (const { record, file, line } of scanShards(
       this.resultsDir,
       ResultRecordSchema,
       await this.hash(),
       options,
+      await this.identityCheck(options),
     )) {
       const fp = fingerprint(record);
       const before = seen.get(record.key);
@@ -208,6 +217,27 @@ export class ResultStore {
           message: `${file}:${line}: job ${record.key} has a second record with different seed, point or metrics (results are corrupt or the model is not deterministic); the first one seen is kept`,
         });
       }
+    }
+  }
+
+  /**
+   * The identity check for this folder's records. A sweep this build cannot
+   * rebuild (another model version, a model folder that moved) can still be
+   * listed: its records are then read unchecked, with one warning saying so.
+   */
+  private async identityCheck(options: ScanOptions): Promise<RecordCheck | undefined> {
+    if (this.loaded !== undefined) return recordIdentityCheck(this.loaded);
+    try {
+      return recordIdentityCheck(await this.readSweep());
+    } catch (error) {
+      if (!(error instanceof Error)) throw error;
+      options.onWarning?.({
+        kind: 'mismatch',
+        file: this.sweepFile,
+        line: 0,
+        message: `${this.sweepFile}: this build cannot rebuild the sweep (${error.message.slice(0, 300)}), so record keys are not checked against it`,
+      });
+      return undefined;
     }
   }
 

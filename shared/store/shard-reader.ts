@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import type { z } from 'zod';
 
 export interface StoreWarning {
-  readonly kind: 'torn-line' | 'bad-line' | 'conflict' | 'foreign';
+  readonly kind: 'torn-line' | 'bad-line' | 'conflict' | 'foreign' | 'mismatch';
   readonly file: string;
   readonly line: number;
   readonly message: string;
@@ -115,19 +115,25 @@ export interface ScannedRecord<T> {
  * Valid records of one sweep from every shard of a folder. A line that is not
  * a valid record is a 'bad-line' warning, or a 'torn-line' warning when it is
  * the unterminated last line of its file; records of another sweep are
- * skipped with one 'foreign' warning per file.
+ * skipped with one 'foreign' warning per file. With `check`, records of the
+ * sweep that it finds wrong (a key that is not their content's) are set
+ * aside with one 'mismatch' warning per file, naming the file and the count.
  */
 export async function* scanShards<S extends z.ZodType<{ sweepHash: string }>>(
   folder: string,
   schema: S,
   sweepHash: string,
   options: ScanOptions,
+  check?: (record: z.output<S>) => string | undefined,
 ): AsyncGenerator<ScannedRecord<z.output<S>>> {
   const warn = options.onWarning ?? (() => undefined);
   for (const file of await listShards(folder)) {
     let foreign = 0;
     let firstForeign = 0;
     let foreignHash = '';
+    let mismatched = 0;
+    let firstMismatch = 0;
+    let mismatchReason = '';
     for await (const raw of readLines(file)) {
       if (raw.text === null) {
         const where = `${file}:${raw.line} (byte offset ${raw.offset})`;
@@ -174,7 +180,24 @@ export async function* scanShards<S extends z.ZodType<{ sweepHash: string }>>(
         foreign++;
         continue;
       }
+      const wrong = check?.(record);
+      if (wrong !== undefined) {
+        if (mismatched === 0) {
+          firstMismatch = raw.line;
+          mismatchReason = wrong;
+        }
+        mismatched++;
+        continue;
+      }
       yield { record, file, line: raw.line };
+    }
+    if (mismatched > 0) {
+      warn({
+        kind: 'mismatch',
+        file,
+        line: firstMismatch,
+        message: `${file}: ${mismatched} record(s) whose key, seed or point is not what this sweep gives for their content set aside (first at line ${firstMismatch}: ${mismatchReason}); their jobs count as not done`,
+      });
     }
     if (foreign > 0) {
       warn({
