@@ -17,7 +17,7 @@ import { Queue } from 'bullmq';
 import { Redis } from 'ioredis';
 import { openWorkQueue } from '../shared/queue/backends.js';
 import { jobIdPrefix } from '../shared/queue/bullmq/job-ids.js';
-import { parseRedisUrl, REDIS_URL_ENV } from '../shared/redis-url.js';
+import { REDIS_URL_ENV } from '../shared/redis-url.js';
 import { type ResultRecord, ResultRecordSchema } from '../shared/schemas/records.js';
 import { recordIdentityCheck } from '../shared/store/record-identity.js';
 import { ResultStore } from '../shared/store/result-store.js';
@@ -138,7 +138,7 @@ async function cancelCosts(): Promise<void> {
   const tag = randomBytes(4).toString('hex');
   const settings = {
     url,
-    redis: parseRedisUrl(url),
+    masked: url,
     queue: { name: `bench-cancel-${tag}`, prefix: `rsb${tag}` },
     connectTimeoutMs: 5_000,
   };
