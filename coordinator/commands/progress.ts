@@ -10,6 +10,7 @@ import { action } from '../cli-support.js';
 import { defineCommand } from '../command-list.js';
 import { completedPercent } from '../completed-percent.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
+import { plannedNow } from '../planned-jobs.js';
 import { formatDuration } from '../progress-display.js';
 import { type ProgressSnapshot, sweepProgress } from '../queue-progress.js';
 import { addQueueOptions, optionalQueueSettings, type QueueCliOptions, queueFlags } from '../queue-session.js';
@@ -37,7 +38,14 @@ export function registerProgress(program: Command): void {
       const sweep = await store.readSweep();
       const logger = createLogger({ name: 'progress' });
       const queue: WorkQueue | undefined = settings === undefined ? undefined : await openWorkQueue(settings, logger);
-      const snapshot = (): Promise<ProgressSnapshot> => sweepProgress(store, sweep, queue);
+      // An adaptive sweep plans what its design asks for so far, not its starting grid.
+      const snapshot = async (): Promise<ProgressSnapshot> =>
+        sweepProgress(
+          store,
+          sweep,
+          queue,
+          sweep.spec.refine === undefined ? undefined : (await plannedNow(store, sweep)).count,
+        );
       // The command that starts a stopped sweep again, with this command's queue options.
       const resume = (s: ProgressSnapshot): string =>
         [

@@ -83,4 +83,12 @@ describe('the report of a finished adaptive sweep', () => {
     expect(lo).toBeLessThanOrEqual(border!);
     expect(hi).toBeGreaterThanOrEqual(border!);
   });
+
+  it('is counted by progress against its design, not its starting grid', async () => {
+    const records = await shardRecords(join(folder(), 'results'));
+    const progress = await runCli(['progress', folder()], dir);
+    expect(progress.code).toBe(0);
+    expect(progress.stdout).toContain(`planned   ${records.length}\n`);
+    expect(progress.stdout).toContain(`finished  ${records.length} (100.0%)`);
+  });
 });
