@@ -1,5 +1,4 @@
 import { setTimeout as sleep } from 'node:timers/promises';
-import cliProgress from 'cli-progress';
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { openWorkQueue } from '../../shared/queue/backends.js';
@@ -132,10 +131,10 @@ async function follow(
     stop = true;
   };
   process.once('SIGINT', onSignal);
-  // A live bar on a terminal; elsewhere one plain line per redraw.
+  // A live bar on a terminal; elsewhere one plain line per redraw (cli-progress loads only for the bar).
   const bar =
     process.stdout.isTTY === true
-      ? new cliProgress.SingleBar({
+      ? new (await import('cli-progress')).default.SingleBar({
           format:
             'finished [{bar}] {percentage}% {value}/{total} | waiting {waiting} | active {active} | failed {failed} | {rate}/min | left ~{timeLeft}',
           barCompleteChar: '#',
