@@ -28,6 +28,13 @@ export function recordIdentityCheck(sweep: LoadedSweep): RecordCheck {
   // Adaptive sweeps add replicates beyond `replicates` (up to refine.replicates.max).
   const maxReplicates =
     spec.refine === undefined ? spec.replicates : Math.max(spec.replicates, spec.refine.replicates.max);
+  // Without computed parameters a valid point's parameters are the sweep's base (model
+  // defaults + fixed, validated when the sweep loaded) with the point's values over them:
+  // what the model's schema gives, at a small part of its cost (schemas check, they do
+  // not transform). A point the schema would refuse never reaches a shard through a
+  // worker, which validates before it runs.
+  const paramsOf = (point: ResultRecord['point']): Record<string, unknown> | undefined =>
+    sweep.derived === undefined ? { ...sweep.baseParams, ...point } : resolveParams(sweep, point);
   const cache = new Map<string, { readonly params: Record<string, unknown>; readonly prefix: string } | null>();
   return (record) => {
     if (record.model !== model.id || record.modelVersion !== model.version) {
@@ -42,7 +49,7 @@ export function recordIdentityCheck(sweep: LoadedSweep): RecordCheck {
     const text = JSON.stringify(record.point);
     let entry = cache.get(text);
     if (entry === undefined) {
-      const params = resolveParams(sweep, record.point);
+      const params = paramsOf(record.point);
       entry = params === undefined ? null : { params, prefix: jobKeyPrefix(model.id, model.version, params) };
       if (cache.size >= POINT_CACHE) cache.clear();
       cache.set(text, entry);
