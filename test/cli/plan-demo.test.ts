@@ -54,7 +54,8 @@ describe('recallscape run into a folder of another sweep', () => {
     const first = await runCli(['run', 'echo.yaml', '--out', 'out', '--threads', '1'], dir);
     expect(first.code).toBe(0);
     expect(first.stdout).toContain('every job has a result');
-    expect(first.stdout).toContain('recallscape report out/echo');
+    // run ends with the report (no --no-report).
+    expect(first.stdout).toContain('report: out/echo/report/');
     const before = await shardLines(join(dir, 'out', 'echo', 'results'));
     const sweepJson = await readFile(join(dir, 'out', 'echo', 'sweep.json'), 'utf8');
 
