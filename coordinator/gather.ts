@@ -1,6 +1,8 @@
 import { hostname } from 'node:os';
 import type { Logger } from '../shared/logger.js';
-import type { WorkQueue } from '../shared/queue/work-queue.js';
+import { looksLikeBatch, unpackBatch } from '../shared/queue/batch-payload.js';
+import { unpackResults } from '../shared/queue/batch-result.js';
+import type { FinishedValue, WorkQueue } from '../shared/queue/work-queue.js';
 import { ResultRecordSchema } from '../shared/schemas/records.js';
 import { recordIdentityCheck } from '../shared/store/record-identity.js';
 import { newWriterId, ResultStore, type ShardWriter } from '../shared/store/result-store.js';
@@ -9,20 +11,28 @@ import { type QueueSettings, withQueue } from './queue-session.js';
 
 export interface GatherResult {
   readonly name: string;
-  /** Finished jobs of this sweep found in the queue. */
+  /** Finished trials of this sweep found in the queue. */
   readonly found: number;
   /** Records written to this folder's shards by this call. */
   readonly copied: number;
   /** Records that were already on disk (shared disk, or an earlier gather). */
   readonly alreadyOnDisk: number;
-  /** Return values that are not a record of this sweep: left in the queue and reported. */
+  /** Finished queue jobs whose return value is not the records of their trials: left in the queue and reported. */
   readonly rejected: number;
-  /** Finished jobs removed from the queue after their record was safely on disk. */
+  /** Finished queue jobs (of one or more trials) removed after their records were safely on disk. */
   readonly removed: number;
   readonly writer: string | null;
 }
 
+/** Queue jobs read per step. */
 const CHUNK = 500;
+
+/** Trial keys a finished job ran: a batch's trials, or the job's own key for a one-trial job. */
+function trialKeysOf(finished: FinishedValue): ReadonlySet<string> | undefined {
+  if (!looksLikeBatch(finished.data)) return new Set([finished.key]);
+  const batch = unpackBatch(finished.data);
+  return batch.ok ? new Set(batch.payloads.map((p) => p.key)) : undefined;
+}
 
 /** `gather DIR`: the sweep of the folder, gathered from the queue the settings name. */
 export async function gatherSweep(
@@ -51,11 +61,17 @@ export async function gatherFrom(
 ): Promise<GatherResult> {
   // Listed first, then worked through: removing while paging would shift the pages.
   const keys: string[] = [];
-  for await (const page of queue.finishedJobs(sweep.hash)) for (const job of page) keys.push(job.key);
+  let found = 0;
+  for await (const page of queue.finishedJobs(sweep.hash)) {
+    for (const job of page) {
+      keys.push(job.key);
+      found += job.trials;
+    }
+  }
   const onDisk = await store.completedKeys({
     onWarning: (w) => logger?.warn({ file: w.file, line: w.line, kind: w.kind }, w.message),
   });
-  // A return value is whatever Redis holds: it must be the record of the job it is filed under.
+  // A return value is whatever Redis holds: each record must be one of the trials the job ran.
   const check = recordIdentityCheck(sweep);
   let misnamed = 0;
   let firstMisnamed = '';
@@ -67,28 +83,43 @@ export async function gatherFrom(
   try {
     for (let i = 0; i < keys.length; i += CHUNK) {
       const safe: string[] = [];
-      for (const { key, value } of await queue.finishedValues(sweep.hash, keys.slice(i, i + CHUNK))) {
-        const record = ResultRecordSchema.safeParse(value);
-        if (!record.success || record.data.key !== key || record.data.sweepHash !== sweep.hash) {
+      for (const finished of await queue.finishedValues(sweep.hash, keys.slice(i, i + CHUNK))) {
+        // Every trial the job ran, and nothing else: one record each, of this sweep.
+        const trials = trialKeysOf(finished);
+        const values = unpackResults(finished.value);
+        const records = (values ?? []).map((v) => ResultRecordSchema.safeParse(v));
+        const good =
+          trials !== undefined &&
+          values !== undefined &&
+          records.length === trials.size &&
+          new Set(records.map((r) => (r.success ? r.data.key : ''))).size === trials.size &&
+          records.every((r) => r.success && trials.has(r.data.key) && r.data.sweepHash === sweep.hash);
+        if (!good) {
           rejected++;
-          logger?.warn({ key }, 'a finished job does not carry a record of this sweep; left in the queue');
+          logger?.warn(
+            { key: finished.key },
+            'a finished job does not carry the records of its trials; left in the queue',
+          );
           continue;
         }
-        const wrong = check(record.data);
+        const wrong = records.map((r) => (r.success ? check(r.data) : 'not a record')).find((w) => w !== undefined);
         if (wrong !== undefined) {
           rejected++;
-          if (misnamed++ === 0) firstMisnamed = `${key}: ${wrong}`;
+          if (misnamed++ === 0) firstMisnamed = `${finished.key}: ${wrong}`;
           continue;
         }
-        if (onDisk.has(record.data.key)) {
-          alreadyOnDisk++;
-        } else {
-          writer ??= store.openWriter(writerId);
-          writer.appendResult(record.data);
-          onDisk.add(record.data.key);
-          copied++;
+        for (const record of records) {
+          if (!record.success) continue;
+          if (onDisk.has(record.data.key)) {
+            alreadyOnDisk++;
+          } else {
+            writer ??= store.openWriter(writerId);
+            writer.appendResult(record.data);
+            onDisk.add(record.data.key);
+            copied++;
+          }
         }
-        safe.push(key);
+        safe.push(finished.key);
       }
       // The records must be durable before the queue may forget them.
       writer?.sync();
@@ -103,10 +134,10 @@ export async function gatherFrom(
       `${misnamed} finished job(s) carry a record whose key, seed or point is not what this sweep gives; not copied, left in the queue`,
     );
   }
-  logger?.info({ sweep: sweep.spec.name, found: keys.length, copied, removed }, 'results gathered');
+  logger?.info({ sweep: sweep.spec.name, found, copied, removed }, 'results gathered');
   return {
     name: sweep.spec.name,
-    found: keys.length,
+    found,
     copied,
     alreadyOnDisk,
     rejected,

@@ -1,3 +1,4 @@
+import { unpackBatch } from '../shared/queue/batch-payload.js';
 import type { SweepQueueCounts, WorkQueue } from '../shared/queue/work-queue.js';
 import type { FailureKind } from '../shared/schemas/records.js';
 import type { ResultStore, StoreWarning } from '../shared/store/result-store.js';
@@ -22,9 +23,9 @@ export interface ProgressSnapshot {
   readonly hash: string;
   readonly dir: string;
   readonly planned: number;
-  /** Jobs with a record on disk. */
+  /** Trials with a record on disk (every count here is in trials, whatever the queue's batch size). */
   readonly onDisk: number;
-  /** Jobs finished anywhere: on disk, or completed in Redis and not yet gathered. */
+  /** Trials finished anywhere: on disk, or completed in Redis and not yet gathered. */
   readonly finished: number;
   readonly queue: QueueSide | null;
   readonly state: SweepState | null;
@@ -97,14 +98,41 @@ export async function sweepProgress(
 
   let queueSide: QueueSide | null = null;
   if (queue !== undefined) {
-    // Finished jobs carry their finish times: rate and totals without reading records.
+    // Finished jobs carry their finish times and trial counts: rate and totals
+    // without reading records. A job of one trial is not counted again when its
+    // record is on disk; a batch's trials are counted once all of them are
+    // (its job key is its first trial's, so that one alone says nothing).
     let finishedNotGathered = 0;
+    const batches: { key: string; trials: number; finishedAt: number }[] = [];
     for await (const page of queue.finishedJobs(sweep.hash)) {
       for (const job of page) {
+        if (job.trials > 1) {
+          batches.push(job);
+          continue;
+        }
         if (doneKeys.has(job.key)) continue;
         doneKeys.add(job.key);
         finishedNotGathered++;
         finishTimes.push(job.finishedAt);
+      }
+    }
+    // Which of a batch's trials are already on disk (a shared disk) needs its trial keys.
+    for (let i = 0; i < batches.length; i += 500) {
+      const page = batches.slice(i, i + 500);
+      const values = await queue.finishedValues(
+        sweep.hash,
+        page.map((b) => b.key),
+      );
+      const finishedAt = new Map(page.map((b) => [b.key, b.finishedAt]));
+      for (const finished of values) {
+        const batch = unpackBatch(finished.data);
+        if (!batch.ok) continue;
+        for (const payload of batch.payloads) {
+          if (doneKeys.has(payload.key)) continue;
+          doneKeys.add(payload.key);
+          finishedNotGathered++;
+          finishTimes.push(finishedAt.get(finished.key) ?? 0);
+        }
       }
     }
     queueSide = { ...(await queue.counts(sweep.hash)), finishedNotGathered };

@@ -2,7 +2,7 @@ import type { Logger } from '../shared/logger.js';
 import type { WorkQueue } from '../shared/queue/work-queue.js';
 import { ResultStore } from '../shared/store/result-store.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
-import { type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
+import { agreeBatchSize, type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
 import { plannedNow } from './planned-jobs.js';
 import { type QueueSettings, withQueue } from './queue-session.js';
 
@@ -25,9 +25,9 @@ export async function requeueSweep(
 }
 
 /**
- * The resume command: the result files say what is done, everything else
- * that the queue does not hold goes back in (for an adaptive sweep: of the
- * design the results so far call for). Works the same after a crash,
+ * The resume command: the result files say what is done, every other trial
+ * whose block has no job in the queue goes back in (for an adaptive sweep: of
+ * the design the results so far call for; counts are in trials). Works the same after a crash,
  * after `cancel`, or after Redis lost all its data.
  */
 export async function requeueIn(
@@ -42,8 +42,11 @@ export async function requeueIn(
     onWarning: (w) => logger?.warn({ file: w.file, line: w.line, kind: w.kind }, w.message),
   });
   const planned = await plannedNow(store, sweep);
+  // The size agreed when the sweep was submitted, so the same blocks make the same jobs.
+  const batchSize = await agreeBatchSize(queue, sweep);
   const report = await enqueueMissing(queue, sweep, done, {
     retryFailed,
+    batchSize,
     ...(planned.jobs === undefined ? {} : { jobs: planned.jobs }),
   });
   logger?.info({ sweep: sweep.spec.name, enqueued: report.enqueued, retried: report.retried }, 'sweep requeued');

@@ -50,14 +50,44 @@ export class JobRunner {
 
   async execute(request: JobRequest): Promise<JobResult> {
     const outcome = await this.options.pool.run(request.payload);
-    return this.record(request, outcome);
+    const result = this.append(request, outcome);
+    if (result.ok || result.failure !== undefined) await this.options.sinks.durable(request.folder);
+    return result;
   }
 
-  private async record(request: JobRequest, outcome: JobOutcome): Promise<JobResult> {
+  /**
+   * Runs the trials of one queue job (a batch), each checked and recorded as
+   * a job of its own: one record (result or failure) per trial, in a shard of
+   * `folder`. Two trials are in the pool at a time, so a thread never waits
+   * for this batch's next trial; records are appended as trials end and one
+   * group commit at the end covers all of them, so the batch is reported only
+   * once every record it made is durable. Rejects as execute() does; records
+   * of the trials that ended before stay (a re-run writes equal records,
+   * which the store reads once).
+   */
+  async executeBatch(folder: string, payloads: readonly unknown[], attempt: number): Promise<JobResult[]> {
+    const results: JobResult[] = [];
+    const run = (payload: unknown): Promise<JobOutcome> => this.options.pool.run(payload);
+    let next: Promise<JobOutcome> | undefined = payloads.length > 0 ? run(payloads[0]) : undefined;
+    try {
+      for (let i = 0; i < payloads.length; i++) {
+        const current = next as Promise<JobOutcome>;
+        next = i + 1 < payloads.length ? run(payloads[i + 1]) : undefined;
+        results.push(this.append({ payload: payloads[i], folder, attempt }, await current));
+      }
+    } finally {
+      // A trial started ahead of a failure: let it settle so its rejection is not left unhandled.
+      next?.catch(() => undefined);
+    }
+    await this.options.sinks.durable(folder);
+    return results;
+  }
+
+  /** The outcome as a result, its record appended to the folder's shard (not yet synced). */
+  private append(request: JobRequest, outcome: JobOutcome): JobResult {
     const { sinks } = this.options;
     if (outcome.ok) {
       sinks.writerFor(request.folder).appendResult(outcome.record);
-      await sinks.durable(request.folder);
       return outcome;
     }
     let failure: FailureRecord | undefined;
@@ -77,7 +107,6 @@ export class JobRunner {
         attempt: request.attempt,
       };
       sinks.writerFor(request.folder).appendFailure(failure);
-      await sinks.durable(request.folder);
     }
     return { ok: false, kind: outcome.kind, message: outcome.message, retryable: outcome.retryable, failure };
   }

@@ -1,5 +1,8 @@
-import { resolve, sep } from 'node:path';
+import { readFile } from 'node:fs/promises';
+import { join, resolve, sep } from 'node:path';
 import { isErrorOf } from '../shared/errors.js';
+import { looksLikeBatch, unpackBatch } from '../shared/queue/batch-payload.js';
+import { packResults } from '../shared/queue/batch-result.js';
 import type { ConsumedJob, JobHandler, JobVerdict, WorkConsumer } from '../shared/queue/work-consumer.js';
 import { JobPayloadSchema } from '../shared/schemas/records.js';
 import type { JobRunner } from './job-runner.js';
@@ -10,6 +13,8 @@ import type { ShardSinks } from './shard-sinks.js';
 export const AUTO_PREFETCH_BELOW_MS = 100;
 /** With prefetch 'auto': extra jobs held per thread while jobs are short. */
 export const AUTO_PREFETCH_PER_THREAD = 4;
+/** A sweep folder found not shared is looked at again after this long (submit may write sweep.json later). */
+export const SHARED_DISK_RECHECK_MS = 30_000;
 /** Most jobs held beyond threads and prefetch for records waiting on a sync (tiny jobs on a slow disk). */
 export const MAX_SYNC_ALLOWANCE = 512;
 
@@ -51,6 +56,8 @@ export class QueueWorker {
   private syncAllowance: number;
   /** Most jobs seen waiting for a sync at once since the last sync ended. */
   private peakAwaiting = 0;
+  /** Per sweep folder and hash: shared with the coordinator (true), or not as of a time (ms). */
+  private readonly shared = new Map<string, true | number>();
 
   constructor(private readonly options: QueueWorkerOptions) {
     this.root = resolve(options.resultsRoot);
@@ -129,6 +136,7 @@ export class QueueWorker {
             .join('; ');
       return { kind: 'failed', reason: `invalid: invalid job payload: ${detail}`, retry: false };
     }
+    if (looksLikeBatch(job.data)) return this.handleBatch(job, folder);
     let result: Awaited<ReturnType<JobRunner['execute']>>;
     try {
       result = await this.options.runner.execute({ payload: job.data, folder, attempt: job.attempt });
@@ -146,6 +154,54 @@ export class QueueWorker {
   };
 
   /**
+   * A queue job of several trials: each trial is checked (key from its
+   * parameters and replicate, seed from its key), run and recorded as a job
+   * of its own, and the batch's verdict follows its worst trial. All done:
+   * the records, packed, are the return value. A trial that may succeed on
+   * another try (exception, timeout, crash): the batch is retried whole, and
+   * the trials that did finish are run again; their records are equal and the
+   * store reads one per key. A trial that can never run (invalid,
+   * unsupported): the batch fails for good, every trial but that one recorded.
+   */
+  private async handleBatch(job: ConsumedJob, folder: string): Promise<JobVerdict> {
+    const batch = unpackBatch(job.data);
+    if (!batch.ok) return { kind: 'failed', reason: `invalid: ${batch.message}`, retry: false };
+    let results: Awaited<ReturnType<JobRunner['executeBatch']>>;
+    try {
+      results = await this.options.runner.executeBatch(folder, batch.payloads, job.attempt);
+    } catch (error) {
+      if (!isErrorOf(error, PoolUnavailable)) throw error;
+      if (isErrorOf(error, PoolBroken)) this.options.onFatal?.(error.message);
+      return { kind: 'handed-back', reason: error.message };
+    }
+    const records = [];
+    const failures = [];
+    let elapsedMs = 0;
+    for (const result of results) {
+      if (result.ok) {
+        records.push(result.record);
+        elapsedMs += result.record.elapsedMs;
+      } else {
+        failures.push(result);
+      }
+    }
+    if (failures.length === 0) {
+      this.adaptPrefetch(elapsedMs);
+      const hash = (job.data as { sweep: { hash: string } }).sweep.hash;
+      // On the coordinator's disk the records need not travel: a count says what the job did, and it leaves Redis.
+      if (await this.sharesDisk(folder, hash)) return { kind: 'done', value: packResults([]), leave: true };
+      return { kind: 'done', value: packResults(records) };
+    }
+    const first = failures[0] as (typeof failures)[number];
+    const retry = failures.some((f) => f.retryable);
+    return {
+      kind: 'failed',
+      reason: `${first.kind}: ${failures.length} of ${results.length} trials failed; first: ${first.message}`,
+      retry,
+    };
+  }
+
+  /**
    * Prefetch 'auto': hold extra jobs while jobs are short (the queue's round
    * trip is then a large share of each job), none once they are long (a held
    * job would wait behind a running one while other workers may be idle).
@@ -156,6 +212,29 @@ export class QueueWorker {
     if (this.options.prefetch !== undefined && this.options.prefetch !== 'auto') return;
     this.meanJobMs = this.meanJobMs === undefined ? jobMs : 0.8 * this.meanJobMs + 0.2 * jobMs;
     this.updateConcurrency();
+  }
+
+  /**
+   * Whether this worker writes where the coordinator reads: `submit` writes
+   * sweep.json into the sweep's folder under its --out, so a worker that finds
+   * that file, with the job's sweep hash, under its own --out shares the disk
+   * (docs/operations.md: a shared disk means the same --out). A worker with
+   * its own disk never has it (workers do not write sweep.json).
+   */
+  private async sharesDisk(folder: string, hash: string): Promise<boolean> {
+    const id = `${folder}/${hash}`;
+    const known = this.shared.get(id);
+    if (known === true) return true;
+    if (known !== undefined && Date.now() - known < SHARED_DISK_RECHECK_MS) return false;
+    let stored: unknown;
+    try {
+      stored = JSON.parse(await readFile(join(this.root, folder, 'sweep.json'), 'utf8'));
+    } catch {
+      stored = undefined;
+    }
+    const shares = (stored as { hash?: unknown } | undefined)?.hash === hash;
+    this.shared.set(id, shares ? true : Date.now());
+    return shares;
   }
 
   /** The payload's sweep name when it is a plain folder name, else undefined. */

@@ -1,5 +1,6 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
+import { MAX_BATCH_TRIALS, TARGET_BATCH_SECONDS } from '../../shared/queue/batch-size.js';
 import { REDIS_URL_ENV } from '../../shared/redis-url.js';
 import { action, parseWholeNumber } from '../cli-support.js';
 import { defineCommand } from '../command-list.js';
@@ -14,6 +15,7 @@ interface SubmitOptions extends QueueCliOptions, ModelCliOptions {
   readonly json?: boolean;
   readonly maxJobs: string;
   readonly yes?: boolean;
+  readonly batch?: string;
 }
 
 export function registerSubmit(program: Command): void {
@@ -23,6 +25,10 @@ export function registerSubmit(program: Command): void {
       .option('--json', 'print the counts as one JSON object')
       .option('--max-jobs <n>', 'refuse a sweep with more jobs than this', String(DEFAULT_JOB_LIMIT))
       .option('--yes', 'queue the sweep even when it has more jobs than --max-jobs')
+      .option(
+        '--batch <n>',
+        `trials per queue job, 1 to ${MAX_BATCH_TRIALS} (default: the sweep file's batch, or sized from the calibrated trial cost to about ${TARGET_BATCH_SECONDS} s a job)`,
+      )
       .addOption(modelsOption()),
   ).action(
     action(async (file: string, options: SubmitOptions) => {
@@ -30,9 +36,11 @@ export function registerSubmit(program: Command): void {
       const settings = queueSettings(options);
       // Bad files and oversized sweeps are refused before Redis or the disk is touched.
       const maxJobs = parseWholeNumber('--max-jobs', options.maxJobs, 1);
+      const batch =
+        options.batch === undefined ? undefined : parseWholeNumber('--batch', options.batch, 1, MAX_BATCH_TRIALS);
       const sweep = await loadSweepForCommand(file, { maxJobs, yes: options.yes === true });
       const logger = createLogger({ name: 'submit' });
-      const result = await submitSweep(sweep, options.out, settings, logger);
+      const result = await submitSweep(sweep, options.out, settings, logger, { batch });
       process.stdout.write(
         options.json === true
           ? `${JSON.stringify(result)}\n`
@@ -65,6 +73,7 @@ function describe(r: SubmitResult, queue: string, worker: string): string {
     `planned    ${r.planned}`,
     `done       ${r.done} (results on disk)`,
     `in queue   ${r.inQueue} (already in Redis, waiting, running or not yet gathered)`,
+    `batch      ${r.batchSize} trial${r.batchSize === 1 ? '' : 's'} per queue job`,
   ];
   if (r.failedKept > 0)
     lines.push(

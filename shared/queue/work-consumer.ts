@@ -23,7 +23,16 @@ export interface ConsumedJob {
 
 /** What became of a job; the consumer tells the queue. */
 export type JobVerdict =
-  | { readonly kind: 'done'; readonly value: unknown }
+  | {
+      readonly kind: 'done';
+      readonly value: unknown;
+      /**
+       * The records are durable where the coordinator reads them (a shared
+       * disk): the job leaves the queue as it completes instead of waiting
+       * for `gather`.
+       */
+      readonly leave?: boolean;
+    }
   | { readonly kind: 'failed'; readonly reason: string; readonly retry: boolean }
   /** Not run here (the worker cannot run anything now): back to waiting without using an attempt. */
   | { readonly kind: 'handed-back'; readonly reason: string };

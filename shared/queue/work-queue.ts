@@ -1,9 +1,15 @@
-import type { JobPayload } from '../schemas/records.js';
-
-/** One job to queue: its key within the sweep and what a worker receives. */
+/**
+ * One queue job: a batch of trials (consecutive jobs of the sweep). Its key is
+ * the key of the first trial of its block of the sweep (whether or not that
+ * trial is still to run), so the same block always makes the same job and
+ * adding it twice is noticed. Every count the queue reports is in trials.
+ */
 export interface QueueEntry {
   readonly key: string;
-  readonly payload: JobPayload;
+  /** Trials the job carries; 1 when left out. */
+  readonly trials?: number;
+  /** What a worker receives (a batch payload, shared/queue/batch-payload.ts, or one job's payload). */
+  readonly payload: unknown;
 }
 
 export interface AddOptions {
@@ -11,9 +17,9 @@ export interface AddOptions {
   readonly retryFailed: boolean;
 }
 
-/** What one add() call really did; exact even when several callers add the same jobs at once. */
+/** What one add() call really did, in trials; exact even when several callers add the same jobs at once. */
 export interface AddResult {
-  /** Entries this call put in the queue. */
+  /** Trials of the entries this call put in the queue. */
   readonly added: number;
   /** Entries already there (waiting, running, delayed, or finished and not gathered): left alone. */
   readonly present: number;
@@ -23,7 +29,7 @@ export interface AddResult {
   readonly retried: number;
 }
 
-/** A sweep's jobs in the queue by state (a snapshot). */
+/** A sweep's trials in the queue by the state of their jobs (a snapshot). */
 export interface SweepQueueCounts {
   readonly waiting: number;
   readonly active: number;
@@ -34,13 +40,17 @@ export interface SweepQueueCounts {
 
 export interface FinishedJob {
   readonly key: string;
+  /** Trials the job carried. */
+  readonly trials: number;
   /** Epoch milliseconds. */
   readonly finishedAt: number;
 }
 
 export interface FinishedValue {
   readonly key: string;
-  /** What the job returned (its result record, for a worker of ours); undefined when it cannot be read. */
+  /** The job's payload as stored (untrusted). */
+  readonly data: unknown;
+  /** What the job returned (its packed result records, for a worker of ours); undefined when it cannot be read. */
   readonly value: unknown;
 }
 
@@ -66,8 +76,17 @@ export interface WorkQueue {
   /**
    * Remove the sweep's jobs that have not started (waiting, or delayed for a
    * retry), checking each one's state at the moment it goes: a job that
-   * started or finished meanwhile stays. Returns how many were removed.
+   * started or finished meanwhile stays. Returns how many trials their jobs carried.
    */
   cancel(sweepHash: string): Promise<number>;
+  /**
+   * Trials per job for this sweep, agreed once per sweep in the queue so that
+   * every submit and requeue cuts the sweep into the same blocks (a block is
+   * one job id): the size already agreed if there is one and `force` is
+   * false, else `proposed`, which is then the agreed size.
+   */
+  batchSize(sweepHash: string, proposed: number, force: boolean): Promise<number>;
+  /** The agreed trials per job for this sweep, or undefined when none is agreed yet. */
+  agreedBatchSize(sweepHash: string): Promise<number | undefined>;
   close(): Promise<void>;
 }

@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { FORMULA_LIMITS } from '../formula/formula-limits.js';
 import { DEFAULT_MODEL_ID } from '../models/registry.js';
+import { MAX_BATCH_TRIALS } from '../queue/batch-size.js';
 import { RefineSchema } from '../refine/schema.js';
 import {
   DEFAULT_SAMPLER,
@@ -97,6 +98,7 @@ export const FormulaTextSchema = z
 const REPLICATES_RULE = `replicates must be a whole number from 1 to ${SWEEP_LIMITS.replicates}`;
 const MODEL_RULE = 'model must be a model id of 1 to 100 characters';
 const SEED_RULE = 'seed must be a whole number from 0 to 2^53 - 1';
+const BATCH_RULE = `batch must be a whole number of trials per queue job from 1 to ${MAX_BATCH_TRIALS}`;
 
 /** The sweep file. Unknown keys are rejected at every level. */
 export const SweepFileSchema = z
@@ -136,6 +138,15 @@ export const SweepFileSchema = z
     sampler: SamplerSchema,
     report: ReportSchema.default({}),
     refine: RefineSchema.optional().describe('Adaptive replicates and midpoints around the border of a rate'),
+    batch: z
+      .number({ error: BATCH_RULE })
+      .int(BATCH_RULE)
+      .min(1, BATCH_RULE)
+      .max(MAX_BATCH_TRIALS, BATCH_RULE)
+      .optional()
+      .describe(
+        'Trials per queue job for submit (default: sized from the calibrated trial cost so one job takes about 1.5 s); does not change the sweep hash',
+      ),
   })
   .strict();
 

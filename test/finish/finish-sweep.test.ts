@@ -22,6 +22,8 @@ const TEXT = `name: finish-memory
 model: bcpnn-sequences
 seed: 3
 replicates: 3
+# One trial per queue job: the fake worker below reads single-job payloads.
+batch: 1
 fixed: { hypercolumns: 4, minicolumns: 4, sequenceLength: 3, recallDuration: 200 }
 vary:
   patternOverlap: { list: [0, 0.25, 0.5, 0.75] }

@@ -21,7 +21,8 @@ import { waitFor } from './helpers.js';
 // The coordinator's queue logic (submit, requeue, gather, cancel, progress) against the in-memory
 // queue: no Redis, so these run in milliseconds. The BullMQ backend has its own real-Redis tests.
 
-const TEXT = 'name: memory-sweep\nmodel: no-op\nseed: 7\nreplicates: 3\nvary:\n  value: { list: [1, 2, 3, 4] }\n';
+const TEXT =
+  'name: memory-sweep\nmodel: no-op\nseed: 7\nreplicates: 3\nbatch: 1\nvary:\n  value: { list: [1, 2, 3, 4] }\n';
 
 let root = '';
 let sweep: LoadedSweep;

@@ -118,6 +118,8 @@ export class BullmqConsumer implements WorkConsumer {
     });
     switch (verdict.kind) {
       case 'done':
+        // Read by BullMQ as it moves the job to completed: removed in the same script.
+        if (verdict.leave === true) job.opts.removeOnComplete = true;
         return verdict.value;
       case 'failed':
         throw verdict.retry ? new Error(verdict.reason) : new UnrecoverableError(verdict.reason);

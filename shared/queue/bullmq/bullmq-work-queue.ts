@@ -14,7 +14,16 @@ import type {
   SweepQueueCounts,
   WorkQueue,
 } from '../work-queue.js';
-import { jobIdFor, jobIdPrefix, jobRedisKey, keyOfJobId, stateRedisKey } from './job-ids.js';
+import {
+  batchSizeRedisKey,
+  jobIdFor,
+  jobIdPrefix,
+  jobName,
+  jobRedisKey,
+  keyOfJobId,
+  stateRedisKey,
+  trialsOfJobName,
+} from './job-ids.js';
 import { jobOptions } from './job-options.js';
 import { asServiceError, closeRedis } from './redis-connect.js';
 
@@ -42,7 +51,8 @@ const CANCEL_PASSES = 10;
  * `prioritized` sorted set). ARGV: 'list' or 'zset'; the job key base
  * `<prefix>:<queue>:`; the sweep's job id prefix; the page start; the page
  * size; a marker that no job id can equal (ids of ours hold no ':').
- * Returns { removed, entries of other sweeps in the page, entries in the page }.
+ * Returns { removed, entries of other sweeps in the page, entries in the page,
+ * trials the removed jobs carried (from their names, see job-ids.ts) }.
  * Ours in a list are overwritten by the marker (LSET) and the markers then go
  * in one LREM that stops at the last of them, so a page costs its own position
  * in the list instead of one list scan per job.
@@ -56,7 +66,7 @@ if kind == 'list' then
 else
   ids = redis.call('ZRANGE', KEYS[1], start, start + size - 1)
 end
-local removed, others = 0, 0
+local removed, others, trialsRemoved = 0, 0, 0
 for i, id in ipairs(ids) do
   if string.sub(id, 1, #prefix) == prefix then
     if kind == 'list' then
@@ -65,8 +75,10 @@ for i, id in ipairs(ids) do
       redis.call('ZREM', KEYS[1], id)
     end
     local job = base .. id
+    local trials = tonumber(string.match(redis.call('HGET', job, 'name') or '', '#(%d+)$') or '1')
     redis.call('DEL', job, job .. ':logs', job .. ':dependencies', job .. ':processed', job .. ':failed', job .. ':unsuccessful')
     removed = removed + 1
+    trialsRemoved = trialsRemoved + trials
   else
     others = others + 1
   end
@@ -74,7 +86,7 @@ end
 if kind == 'list' and removed > 0 then
   redis.call('LREM', KEYS[1], removed, marker)
 end
-return { removed, others, #ids }
+return { removed, others, #ids, trialsRemoved }
 `;
 
 interface CancelCommand {
@@ -86,7 +98,7 @@ interface CancelCommand {
     start: number,
     size: number,
     marker: string,
-  ): Promise<[number, number, number]>;
+  ): Promise<[number, number, number, number]>;
 }
 
 /** Results of a pipeline, with the first command error thrown. */
@@ -166,24 +178,24 @@ export class BullmqWorkQueue implements WorkQueue {
         const id = ids[i] as string;
         if (exists[i] === 0) toAdd.push(entry);
         else if (failed.has(id) && options.retryFailed) toRetry.push(entry);
-        else if (failed.has(id)) failedKept++;
-        else presentCount++;
+        else if (failed.has(id)) failedKept += entry.trials ?? 1;
+        else presentCount += entry.trials ?? 1;
       }
-      const added = toAdd.length;
+      const added = toAdd.reduce((sum, entry) => sum + (entry.trials ?? 1), 0);
       // A failed job keeps its id: it has to go before a fresh copy can be added (0 = someone else moved it).
       const removed = await Promise.all(toRetry.map((entry) => this.queue.remove(jobIdFor(sweep.hash, entry.key))));
       toRetry.forEach((entry, i) => {
         if (removed[i] === 1) {
           toAdd.push(entry);
-          retried++;
+          retried += entry.trials ?? 1;
         } else {
-          presentCount++;
+          presentCount += entry.trials ?? 1;
         }
       });
       if (toAdd.length > 0) {
         await this.queue.addBulk(
           toAdd.map((entry) => ({
-            name: sweep.name,
+            name: jobName(sweep.name, entry.trials ?? 1),
             data: entry.payload,
             opts: jobOptions(jobIdFor(sweep.hash, entry.key)),
           })),
@@ -219,11 +231,31 @@ export class BullmqWorkQueue implements WorkQueue {
 
   counts(sweepHash: string): Promise<SweepQueueCounts> {
     return this.guard(async () => ({
-      waiting: (await this.collectIds(sweepHash, WAITING_STATES)).size,
-      active: (await this.collectIds(sweepHash, ['active'])).size,
-      delayed: (await this.collectIds(sweepHash, ['delayed'])).size,
-      failed: (await this.collectIds(sweepHash, ['failed'])).size,
+      waiting: await this.trialsOf(sweepHash, await this.collectIds(sweepHash, WAITING_STATES)),
+      active: await this.trialsOf(sweepHash, await this.collectIds(sweepHash, ['active'])),
+      delayed: await this.trialsOf(sweepHash, await this.collectIds(sweepHash, ['delayed'])),
+      failed: await this.trialsOf(sweepHash, await this.collectIds(sweepHash, ['failed'])),
     }));
+  }
+
+  /** Trials per job id, from the jobs' names (one pipelined HGET per page). */
+  private async trialsByName(ids: readonly string[]): Promise<number[]> {
+    const trials: number[] = [];
+    for (let i = 0; i < ids.length; i += SCAN_PAGE) {
+      const page = ids.slice(i, i + SCAN_PAGE);
+      const names = await replies(
+        this.client.pipeline(page.map((id) => ['hget', jobRedisKey(this.target, id), 'name'])),
+      );
+      for (const name of names) trials.push(trialsOfJobName(name));
+    }
+    return trials;
+  }
+
+  /** Total trials of these jobs. */
+  private async trialsOf(_sweepHash: string, ids: ReadonlySet<string>): Promise<number> {
+    let total = 0;
+    for (const n of await this.trialsByName([...ids])) total += n;
+    return total;
   }
 
   async *finishedJobs(sweepHash: string): AsyncGenerator<FinishedJob[]> {
@@ -236,13 +268,19 @@ export class BullmqWorkQueue implements WorkQueue {
       const page = await this.guard(() =>
         this.client.zrange(completedKey, start, String(start + SCAN_PAGE - 1), 'WITHSCORES'),
       );
-      const finished: FinishedJob[] = [];
+      const ours: { id: string; key: string; finishedAt: number }[] = [];
       for (let i = 0; i + 1 < page.length; i += 2) {
         const id = page[i] as string;
         if (!id.startsWith(prefix)) continue;
         const key = keyOfJobId(id);
-        if (key !== undefined) finished.push({ key, finishedAt: Number(page[i + 1]) });
+        if (key !== undefined) ours.push({ id, key, finishedAt: Number(page[i + 1]) });
       }
+      const trials = await this.guard(() => this.trialsByName(ours.map((job) => job.id)));
+      const finished: FinishedJob[] = ours.map((job, i) => ({
+        key: job.key,
+        trials: trials[i] ?? 1,
+        finishedAt: job.finishedAt,
+      }));
       if (finished.length > 0) yield finished;
       if (page.length < 2 * SCAN_PAGE) return;
     }
@@ -250,23 +288,25 @@ export class BullmqWorkQueue implements WorkQueue {
 
   finishedValues(sweepHash: string, keys: readonly string[]): Promise<FinishedValue[]> {
     return this.guard(async () => {
-      // Only the return value: BullMQ's getJob reads the whole job hash and parses the
-      // payload too, 3.3 s for 20,000 jobs against 1.1 s for a pipelined HGET.
+      // Payload and return value only: BullMQ's getJob reads the whole job hash,
+      // 3.3 s for 20,000 jobs against 1.1 s for a pipelined HGET.
       const pipeline = this.client.pipeline();
-      for (const key of keys) pipeline.hget(jobRedisKey(this.target, jobIdFor(sweepHash, key)), 'returnvalue');
+      for (const key of keys) pipeline.hmget(jobRedisKey(this.target, jobIdFor(sweepHash, key)), 'data', 'returnvalue');
       const raw = await replies(pipeline);
+      const parse = (text: unknown): unknown => {
+        if (typeof text !== 'string') return undefined;
+        try {
+          return JSON.parse(text);
+        } catch {
+          return undefined;
+        }
+      };
       const values: FinishedValue[] = [];
       keys.forEach((key, i) => {
-        const text = raw[i];
+        const [data, value] = (raw[i] ?? [null, null]) as [unknown, unknown];
         // Removed since it was listed (another gather): nothing to do.
-        if (text === null || text === undefined) return;
-        let value: unknown;
-        try {
-          value = JSON.parse(String(text));
-        } catch {
-          value = undefined;
-        }
-        values.push({ key, value });
+        if (value === null || value === undefined) return;
+        values.push({ key, data: parse(data), value: parse(value) });
       });
       return values;
     });
@@ -301,17 +341,38 @@ export class BullmqWorkQueue implements WorkQueue {
           const key = stateRedisKey(this.target, state);
           // Entries of other sweeps stay, so the next page starts after the ones passed over.
           for (let start = 0; ; ) {
-            const [removed, others, seen] = await run(key, kind, base, prefix, start, CANCEL_PAGE, marker);
+            const [removed, others, seen, trials] = await run(key, kind, base, prefix, start, CANCEL_PAGE, marker);
             removedInPass += removed;
+            total += trials;
             start += others;
             if (seen < CANCEL_PAGE) break;
           }
         }
-        total += removedInPass;
         // Jobs added meanwhile shift the pages; another pass finds what the shift hid.
         if (removedInPass === 0) break;
       }
       return total;
+    });
+  }
+
+  batchSize(sweepHash: string, proposed: number, force: boolean): Promise<number> {
+    return this.guard(async () => {
+      const key = batchSizeRedisKey(this.target, sweepHash);
+      if (force) {
+        await this.client.set(key, String(proposed));
+        return proposed;
+      }
+      // SET NX: of two submits at once, the first one's size holds for both.
+      await this.client.set(key, String(proposed), 'NX');
+      const agreed = Number(await this.client.get(key));
+      return Number.isSafeInteger(agreed) && agreed >= 1 ? agreed : proposed;
+    });
+  }
+
+  agreedBatchSize(sweepHash: string): Promise<number | undefined> {
+    return this.guard(async () => {
+      const agreed = Number(await this.client.get(batchSizeRedisKey(this.target, sweepHash)));
+      return Number.isSafeInteger(agreed) && agreed >= 1 ? agreed : undefined;
     });
   }
 

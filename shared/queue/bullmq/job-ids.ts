@@ -34,3 +34,25 @@ export function jobRedisKey(target: QueueTarget, id: string): string {
 export function stateRedisKey(target: QueueTarget, state: string): string {
   return `${target.prefix}:${target.name}:${state}`;
 }
+
+/**
+ * BullMQ job name of a job of ours: `<sweep name>#<trials>`. The trial count
+ * rides in the name so that counts per trial read one short field per job
+ * instead of unpacking payloads. A name without it (a job of an earlier
+ * version) is one trial.
+ */
+export function jobName(sweepName: string, trials: number): string {
+  return `${sweepName}#${trials}`;
+}
+
+/** Trials of a job from its stored name; 1 for a name without a count (or a job that vanished meanwhile). */
+export function trialsOfJobName(name: unknown): number {
+  if (typeof name !== 'string') return 1;
+  const match = /#(\d{1,7})$/.exec(name);
+  return match === null ? 1 : Math.max(1, Number(match[1]));
+}
+
+/** Redis key holding the trials per job agreed for one sweep (never a job id: those hold no ':'). */
+export function batchSizeRedisKey(target: QueueTarget, sweepHash: string): string {
+  return `${target.prefix}:${target.name}:rs-batch:${jobIdPrefix(sweepHash).slice(0, -1)}`;
+}

@@ -17,6 +17,8 @@ export interface MemoryJob {
   readonly id: string;
   readonly sweepHash: string;
   readonly key: string;
+  /** Trials the job carries. */
+  readonly trials: number;
   readonly data: unknown;
   state: MemoryJobState;
   attemptsMade: number;
@@ -38,6 +40,7 @@ export class MemoryQueue implements WorkQueue {
   private readonly jobs = new Map<string, MemoryJob>();
   private waiting: string[] = [];
   private readonly consumers = new Set<MemoryConsumer>();
+  private readonly batchSizes = new Map<string, number>();
   private clock = 0;
 
   private static id(sweepHash: string, key: string): string {
@@ -67,16 +70,16 @@ export class MemoryQueue implements WorkQueue {
       const id = MemoryQueue.id(sweep.hash, entry.key);
       const existing = this.jobs.get(id);
       if (existing === undefined) {
-        this.put(id, sweep.hash, entry.key, entry.payload);
-        added++;
+        this.put(id, sweep.hash, entry.key, entry.trials ?? 1, entry.payload);
+        added += entry.trials ?? 1;
       } else if (existing.state === 'failed' && options.retryFailed) {
         this.jobs.delete(id);
-        this.put(id, sweep.hash, entry.key, entry.payload);
-        retried++;
+        this.put(id, sweep.hash, entry.key, entry.trials ?? 1, entry.payload);
+        retried += entry.trials ?? 1;
       } else if (existing.state === 'failed') {
-        failedKept++;
+        failedKept += entry.trials ?? 1;
       } else {
-        present++;
+        present += entry.trials ?? 1;
       }
     }
     this.wake();
@@ -85,15 +88,16 @@ export class MemoryQueue implements WorkQueue {
 
   /** Put any data in the queue under any id, as a hostile writer could. */
   addRaw(id: string, data: unknown): void {
-    this.put(id, '', '', data);
+    this.put(id, '', '', 1, data);
     this.wake();
   }
 
-  private put(id: string, sweepHash: string, key: string, data: unknown): void {
+  private put(id: string, sweepHash: string, key: string, trials: number, data: unknown): void {
     this.jobs.set(id, {
       id,
       sweepHash,
       key,
+      trials,
       data,
       state: 'waiting',
       attemptsMade: 0,
@@ -110,14 +114,15 @@ export class MemoryQueue implements WorkQueue {
 
   async counts(sweepHash: string): Promise<SweepQueueCounts> {
     const jobs = this.ofSweep(sweepHash);
-    const count = (state: MemoryJobState): number => jobs.filter((j) => j.state === state).length;
+    const count = (state: MemoryJobState): number =>
+      jobs.filter((j) => j.state === state).reduce((sum, j) => sum + j.trials, 0);
     return { waiting: count('waiting'), active: count('active'), delayed: 0, failed: count('failed') };
   }
 
   async *finishedJobs(sweepHash: string): AsyncGenerator<FinishedJob[]> {
     const done = this.ofSweep(sweepHash)
       .filter((j) => j.state === 'completed')
-      .map((j) => ({ key: j.key, finishedAt: j.finishedAt ?? 0 }));
+      .map((j) => ({ key: j.key, trials: j.trials, finishedAt: j.finishedAt ?? 0 }));
     for (let i = 0; i < done.length; i += PAGE) yield done.slice(i, i + PAGE);
   }
 
@@ -125,7 +130,7 @@ export class MemoryQueue implements WorkQueue {
     const values: FinishedValue[] = [];
     for (const key of keys) {
       const job = this.jobs.get(MemoryQueue.id(sweepHash, key));
-      if (job?.state === 'completed') values.push({ key, value: job.value });
+      if (job?.state === 'completed') values.push({ key, data: job.data, value: job.value });
     }
     return values;
   }
@@ -147,10 +152,28 @@ export class MemoryQueue implements WorkQueue {
     for (const job of this.ofSweep(sweepHash)) {
       if (job.state !== 'waiting') continue;
       this.jobs.delete(job.id);
-      removed++;
+      removed += job.trials;
     }
     this.waiting = this.waiting.filter((id) => this.jobs.has(id));
     return removed;
+  }
+
+  async batchSize(sweepHash: string, proposed: number, force: boolean): Promise<number> {
+    const agreed = this.batchSizes.get(sweepHash);
+    if (agreed !== undefined && !force) return agreed;
+    this.batchSizes.set(sweepHash, proposed);
+    return proposed;
+  }
+
+  async agreedBatchSize(sweepHash: string): Promise<number | undefined> {
+    return this.batchSizes.get(sweepHash);
+  }
+
+  /** Forget everything, as a Redis that lost its data. */
+  flush(): void {
+    this.jobs.clear();
+    this.waiting = [];
+    this.batchSizes.clear();
   }
 
   async close(): Promise<void> {
@@ -183,6 +206,7 @@ export class MemoryQueue implements WorkQueue {
       case 'done':
         job.state = 'completed';
         job.value = verdict.value;
+        if (verdict.leave === true) this.jobs.delete(job.id);
         // Strictly increasing finish times, like a clock that never stands still.
         this.clock = Math.max(this.clock + 1, Date.now());
         job.finishedAt = this.clock;
