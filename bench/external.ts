@@ -1,7 +1,8 @@
 /**
  * Per-job overhead of external models: a model that does nothing, as a
  * program speaking the line protocol (Python and Node) and as a JavaScript
- * module, against the built-in no-op model. Each job is what a job runner
+ * module, against the same model written as a built-in one (a Model object
+ * with a zod schema, defined below). Each job is what a job runner
  * does with a model: check the parameters, run one trial, check the metrics.
  * The difference to the built-in model is the cost the external kind adds on
  * top of everything else a job costs (queue, threads, result files).
@@ -10,11 +11,24 @@
 import { mkdir, mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import type { AnyModel } from '../shared/model.js';
+import { z } from 'zod';
+import type { AnyModel, Model } from '../shared/model.js';
 import { loadModelFolder } from '../shared/models/external/load-model-folder.js';
-import { noOpModel } from '../shared/models/utility/no-op.js';
 
 const JOBS = Number(process.env['RECALLSCAPE_BENCH_EXTERNAL_JOBS'] ?? '20000');
+
+const noOpParams = z.object({ value: z.number().finite().default(0) }).strict();
+
+/** The baseline: a model that does nothing, as a built-in model is written (no registry needed). */
+const builtInNoOp: Model<typeof noOpParams> = {
+  id: 'bench-no-op-built-in',
+  version: '1',
+  summary: 'Does nothing',
+  params: noOpParams,
+  paramInfo: { value: { unit: '1', description: 'Echoed back' } },
+  cost: () => 1,
+  run: (p) => ({ metrics: { success: true, value: p.value } }),
+};
 
 const PYTHON_NO_OP = `import json, sys
 while True:
@@ -103,7 +117,7 @@ export async function run(): Promise<void> {
     );
     models.push(python, node, module);
     console.log(`${JOBS} jobs each, one after another, in one thread (set RECALLSCAPE_BENCH_EXTERNAL_JOBS to change)`);
-    const builtIn = await perJob(noOpModel, JOBS);
+    const builtIn = await perJob(builtInNoOp, JOBS);
     console.log(`built-in no-op model          ${(builtIn * 1000).toFixed(1).padStart(7)} us per job`);
     const rows: Array<[string, AnyModel, number]> = [
       ['module kind (goal < 0.05 ms)', module, 0.05],

@@ -26,10 +26,13 @@ import { cancelSweep } from '../coordinator/cancel.js';
 import { gatherSweep } from '../coordinator/gather.js';
 import { type QueueSettings, queueSettings } from '../coordinator/queue-session.js';
 import { submitSweep } from '../coordinator/submit-sweep.js';
+import { registerModelFolders } from '../shared/models/external/model-folders.js';
 import { REDIS_URL_ENV } from '../shared/redis-url.js';
 import { compareTinyJobs } from './tiny-jobs.js';
 
 const CLI = fileURLToPath(new URL('../../bin/recallscape.js', import.meta.url));
+/** The no-op model is a test model (a module model), not built in: the workers and this process load it. */
+const TEST_MODELS = fileURLToPath(new URL('../../test/fixtures/models', import.meta.url));
 const SUBMIT_JOBS = 100_000;
 const RUN_JOBS = Number(process.env['RECALLSCAPE_BENCH_QUEUE_JOBS'] ?? 10_000);
 
@@ -118,6 +121,8 @@ function startWorker(
       settings.queue.name,
       '--prefix',
       settings.queue.prefix,
+      '--models',
+      TEST_MODELS,
     ],
     {
       stdio: ['ignore', 'ignore', 'pipe'],
@@ -214,6 +219,7 @@ async function deleteQueue(client: Redis, prefix: string): Promise<void> {
 }
 
 export async function run(): Promise<void> {
+  await registerModelFolders([TEST_MODELS]);
   const server = await startServer();
   const root = await mkdtemp(join(tmpdir(), 'rs-bench-queue-'));
   const client = new Redis(server.url, { maxRetriesPerRequest: 2 });

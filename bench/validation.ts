@@ -31,7 +31,7 @@ const range = (n: number, f: (i: number) => string): string => Array.from({ leng
 const nest = (depth: number): string => `${'['.repeat(depth)}1${']'.repeat(depth)}`;
 
 export const CASES: readonly Case[] = [
-  { title: 'empty sweep (start-up alone)', file: 'empty.yaml', text: () => 'name: s\nmodel: no-op\n' },
+  { title: 'empty sweep (start-up alone)', file: 'empty.yaml', text: () => 'name: s\n' },
   {
     title: 'steps: 1e6 (over the cap)',
     file: 'steps-1e6.yaml',
@@ -55,7 +55,8 @@ export const CASES: readonly Case[] = [
   {
     title: 'steps: 1e5 closer than 12 digits (every value compared)',
     file: 'steps-close.yaml',
-    text: () => 'name: s\nmodel: no-op\nvary: { value: { from: 1, to: 1.0000001, steps: 100000 } }\n',
+    // Neighbours 1e-12 apart relative to the values, as 1 to 1.0000001 in 100,000 steps.
+    text: () => 'name: s\nvary: { tauZPre: { from: 100, to: 100.00001, steps: 100000 } }\n',
   },
   {
     title: 'grid of 5,000,000 points (the most allowed), --yes, accepted',
@@ -118,7 +119,6 @@ export const CASES: readonly Case[] = [
     text: () =>
       JSON.stringify({
         name: 's',
-        model: 'no-op',
         sampler: { kind: 'sobol', points: 8 },
         vary: Object.fromEntries(Array.from({ length: 41 }, (_, i) => [`p${i}`, { between: [0, 1] }])),
       }),

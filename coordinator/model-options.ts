@@ -20,11 +20,19 @@ export function modelsOption(): Option {
   );
 }
 
-/** `--model-timeout MS`: commands that run jobs; overrides each external model's own time limit. */
-export function modelTimeoutOption(): Option {
+/**
+ * `--model-timeout MS`. Where jobs run in a thread pool (run, worker) it is
+ * the time limit of every job, over the sweep's jobTimeoutMs and the model's
+ * own (shared/job-time-limit.ts); where one trial runs in the command's own
+ * thread (simulate, inspect) only a model that runs outside it (an external
+ * model) can be stopped, so there it limits those.
+ */
+export function modelTimeoutOption(where: 'pool' | 'here' = 'here'): Option {
   return new Option(
     '--model-timeout <ms>',
-    "time limit of one job of an external model (default: the model's timeoutMs)",
+    where === 'pool'
+      ? "time limit of one job, for every model (default: the sweep's jobTimeoutMs, else the model's own; see docs/sweep-file.md)"
+      : "time limit of a trial of an external model (default: the model's timeoutMs)",
   );
 }
 

@@ -1,5 +1,6 @@
 import { isErrorOf, issuesFromZod, ModelFailure } from '../shared/errors.js';
 import { identityProblem, jobKeyPrefix } from '../shared/job-identity.js';
+import { type JobTimeLimit, jobTimeLimit } from '../shared/job-time-limit.js';
 import type { AnyModel } from '../shared/model.js';
 import { findModel } from '../shared/models/registry.js';
 import { type FailureKind, type JobPayload, JobPayloadSchema, type ResultRecord } from '../shared/schemas/records.js';
@@ -33,18 +34,32 @@ export function runJob(rawPayload: unknown, context: JobContext): JobOutcome {
   return runPrepared(prepared, context);
 }
 
+/** How a pool thread times its jobs (see shared/job-time-limit.ts). */
+export interface JobTiming {
+  /** --model-timeout of the process, when given. */
+  readonly optionMs?: number | undefined;
+  /** Told the job's time limit once the payload is checked, before the model runs. */
+  readonly onLimit?: (limit: JobTimeLimit) => void;
+}
+
 /**
  * runJob for every kind of model: models that run in another process (a
  * program over the line protocol) or asynchronously give a promise, with
- * the job's key and the time limit of this process (or the model's own).
- * Pool threads run every job through here.
+ * the job's key and its time limit (which such a model enforces itself; the
+ * pool enforces it for the others). Pool threads run every job through here.
  */
-export function runAnyJob(rawPayload: unknown, context: JobContext): JobOutcome | Promise<JobOutcome> {
+export function runAnyJob(
+  rawPayload: unknown,
+  context: JobContext,
+  timing: JobTiming = {},
+): JobOutcome | Promise<JobOutcome> {
   const prepared = prepareJob(rawPayload);
   if ('outcome' in prepared) return prepared.outcome;
   const { model, payload, params } = prepared;
+  const limit = jobTimeLimit(model, params, payload.timeoutMs, timing.optionMs);
+  timing.onLimit?.(limit);
   if (model.runAsync === undefined) return runPrepared(prepared, context);
-  return runModelAsync(model, params, payload.seed, { key: payload.key }).then(
+  return runModelAsync(model, params, payload.seed, { key: payload.key, timeoutMs: limit.ms }).then(
     (run) => succeeded(payload, run, context),
     (error: unknown) => failed(payload, error),
   );

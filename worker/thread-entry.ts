@@ -5,15 +5,15 @@
  * the pool turns into a `crashed` outcome.
  */
 import { parentPort, workerData } from 'node:worker_threads';
-import type { ExternalModelSettings } from '../shared/models/external/settings.js';
-import { type JobContext, runAnyJob } from './run-job.js';
-import type { ThreadReply, ThreadRequest } from './thread-pool.js';
+import type { JobTimeLimit } from '../shared/job-time-limit.js';
+import { runAnyJob } from './run-job.js';
+import type { ThreadData, ThreadReply, ThreadRequest } from './thread-pool.js';
 
 if (parentPort === null) {
   throw new Error('thread-entry.js must be started as a worker thread by ThreadPool');
 }
 const port = parentPort;
-const data = workerData as { context: JobContext; models?: ExternalModelSettings };
+const data = workerData as ThreadData;
 const context = data.context;
 if (data.models !== undefined && data.models.folders.length > 0) {
   // Before any job: this thread's registry gets the main thread's model folders (loaded only when there are some).
@@ -22,8 +22,14 @@ if (data.models !== undefined && data.models.folders.length > 0) {
 }
 
 port.on('message', (request: ThreadRequest) => {
-  // Resolved either way: a job may one day complete asynchronously (a model in another process).
-  void Promise.resolve(runAnyJob(request.payload, context)).then((outcome) => {
+  // The pool timed this job from the provisional limit; a job with another limit says so before it runs.
+  const onLimit = (limit: JobTimeLimit): void => {
+    if (limit.threadMs === data.provisional.threadMs) return;
+    const reply: ThreadReply = { type: 'limit', id: request.id, limit };
+    port.postMessage(reply);
+  };
+  // Resolved either way: a job may complete asynchronously (a model in another process).
+  void Promise.resolve(runAnyJob(request.payload, context, { optionMs: data.optionMs, onLimit })).then((outcome) => {
     const reply: ThreadReply = { type: 'outcome', id: request.id, outcome };
     port.postMessage(reply);
   });

@@ -1,6 +1,7 @@
 import { randomBytes } from 'node:crypto';
 import { resolve } from 'node:path';
 import { createLogger } from '../shared/logger.js';
+import { externalModelSettings } from '../shared/models/external/settings.js';
 import { openWorkConsumer } from '../shared/queue/backends.js';
 import type { QueueSettings } from '../shared/queue/queue-settings.js';
 import { newWriterId } from '../shared/store/result-store.js';
@@ -39,7 +40,16 @@ export async function runWorkerProcess(options: WorkerProcessOptions): Promise<v
   let wake: () => void = () => undefined;
   const writer = newWriterId(options.name);
   const run = randomBytes(6).toString('hex');
-  const pool = new ThreadPool({ threads: options.threads, context: { writer, run } });
+  const pool = new ThreadPool({
+    threads: options.threads,
+    context: { writer, run },
+    // The job fails as `timeout` (recorded by the job runner, not retried); this says what happened to the thread.
+    onTimeout: ({ payload, limit, threads }) =>
+      logger.warn(
+        { key: payload?.key, sweep: payload?.sweep.name, limitMs: limit.ms, limitFrom: limit.source, threads },
+        'a job ran over its time limit; its thread was stopped and replaced',
+      ),
+  });
   const sinks = new ShardSinks({ root: options.out, writer, durability: 'each-job' });
   const queueWorker = new QueueWorker({
     runner: new JobRunner({ pool, sinks, run }),
@@ -100,6 +110,7 @@ export async function runWorkerProcess(options: WorkerProcessOptions): Promise<v
       lockMs: options.lockMs,
       stallCheckMs: options.stallCheckMs,
       nice: options.nice,
+      jobTimeoutMs: externalModelSettings().timeoutMs ?? 'per job',
     },
     'worker ready',
   );

@@ -134,7 +134,7 @@ export function registerRun(program: Command): void {
     .option('--no-report', 'do not build the report at the end (`recallscape report DIR` builds it any time)')
     .option('--json', 'print the closing summary as one JSON object on stdout (progress and messages go to stderr)')
     .addOption(modelsOption())
-    .addOption(modelTimeoutOption())
+    .addOption(modelTimeoutOption('pool'))
     .action(
       action(async (file: string, flags: RunFlags) => {
         await useModelOptions(flags);

@@ -39,7 +39,7 @@ export function registerWorker(program: Command): void {
       .option('--stall-check-ms <ms>', 'how often to look for jobs whose worker died', String(DEFAULT_STALL_CHECK_MS))
       .option('--max-stalled <n>', 'times a job may lose its worker before it is failed', String(DEFAULT_MAX_STALLED))
       .addOption(modelsOption())
-      .addOption(modelTimeoutOption()),
+      .addOption(modelTimeoutOption('pool')),
     true,
     WORKER_CONNECT_TIMEOUT_MS,
   ).action(

@@ -2,11 +2,14 @@ import { unknownNameHint } from '../closest-names.js';
 import { InputError, shorten } from '../errors.js';
 import type { AnyModel } from '../model.js';
 import { bcpnnSequences } from './bcpnn-sequences/index.js';
-import { cpuBurnModel } from './utility/cpu-burn.js';
-import { noOpModel } from './utility/no-op.js';
 
-/** Every model this build can run. Add a model here and nowhere else. */
-const BUILT_IN: readonly AnyModel[] = [bcpnnSequences, noOpModel, cpuBurnModel];
+/**
+ * Every model this build can run. Add a model here and nowhere else. Models
+ * that exist only for tests and benchmarks (no-op, cpu-burn, ...) are module
+ * models in test/fixtures/models, loaded with --models: users and workers
+ * never see them.
+ */
+const BUILT_IN: readonly AnyModel[] = [bcpnnSequences];
 /** Built-in models, then those registered at run time (model folders, see shared/models/external/). */
 const MODELS: AnyModel[] = [...BUILT_IN];
 

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { MAX_JOB_TIMEOUT_MS } from '../job-time-limit.js';
 import { MetricsSchema } from '../model.js';
 import { SweepNameSchema } from '../sweep/name.js';
 
@@ -83,6 +84,8 @@ export const JobPayloadSchema = z
     seed: SeedSchema,
     /** The sweep's root seed, so a worker can check that `seed` is the job's (shared/job-identity.ts). */
     rootSeed: SeedSchema,
+    /** The sweep's jobTimeoutMs, when it sets one (shared/job-time-limit.ts); not part of the job's identity. */
+    timeoutMs: z.number().int().min(1).max(MAX_JOB_TIMEOUT_MS).optional(),
   })
   // Nothing else: a payload never carries a command, a path or code (workers run only their own registered models).
   .strict();

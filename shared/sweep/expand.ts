@@ -106,6 +106,7 @@ export function toPayload(sweep: LoadedSweep, job: PlannedJob): JobPayload {
     replicate: job.replicate,
     seed: job.seed,
     rootSeed: sweep.spec.seed,
+    ...(sweep.spec.jobTimeoutMs === undefined ? {} : { timeoutMs: sweep.spec.jobTimeoutMs }),
   };
 }
 

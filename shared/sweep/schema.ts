@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { FORMULA_LIMITS } from '../formula/formula-limits.js';
+import { MAX_JOB_TIMEOUT_MS } from '../job-time-limit.js';
 import { DEFAULT_MODEL_ID } from '../models/registry.js';
 import { MAX_BATCH_TRIALS } from '../queue/batch-size.js';
 import { RefineSchema } from '../refine/schema.js';
@@ -99,6 +100,7 @@ const REPLICATES_RULE = `replicates must be a whole number from 1 to ${SWEEP_LIM
 const MODEL_RULE = 'model must be a model id of 1 to 100 characters';
 const SEED_RULE = 'seed must be a whole number from 0 to 2^53 - 1';
 const BATCH_RULE = `batch must be a whole number of trials per queue job from 1 to ${MAX_BATCH_TRIALS}`;
+const TIMEOUT_RULE = `jobTimeoutMs must be a whole number of milliseconds from 1 to ${MAX_JOB_TIMEOUT_MS} (one week)`;
 
 /** The sweep file. Unknown keys are rejected at every level. */
 export const SweepFileSchema = z
@@ -146,6 +148,15 @@ export const SweepFileSchema = z
       .optional()
       .describe(
         'Trials per queue job for submit (default: sized from the calibrated trial cost so one job takes about 1.5 s); does not change the sweep hash',
+      ),
+    jobTimeoutMs: z
+      .number({ error: TIMEOUT_RULE })
+      .int(TIMEOUT_RULE)
+      .min(1, TIMEOUT_RULE)
+      .max(MAX_JOB_TIMEOUT_MS, TIMEOUT_RULE)
+      .optional()
+      .describe(
+        "Time limit of one job in ms; a job over it fails as timeout (default: the model's own, for bcpnn-sequences from its cost estimate, at least 60 s)",
       ),
   })
   .strict();

@@ -3,6 +3,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { TEST_MODEL_FLAGS } from '../fixtures/test-models.js';
 import { runCli, shardLines, startCli, waitFor } from './cli-helpers.js';
 
 let dir = '';
@@ -25,7 +26,7 @@ vary:
 describe('recallscape plan', () => {
   it('prints job count, points, replicates, sampler, work and a sample of points, and writes nothing', async () => {
     await writeFile(join(dir, 'echo.yaml'), NO_OP(7));
-    const result = await runCli(['plan', 'echo.yaml', '--calibrate', '0'], dir);
+    const result = await runCli(['plan', 'echo.yaml', '--calibrate', '0', ...TEST_MODEL_FLAGS], dir);
     expect(result.code).toBe(0);
     expect(result.stdout).toMatch(/^sweep +echo \(from echo\.yaml\)$/m);
     expect(result.stdout).toMatch(/^sampler +grid$/m);
@@ -41,7 +42,7 @@ describe('recallscape plan', () => {
 
   it('estimates core-hours from timed jobs of the real model', async () => {
     const demoFile = fileURLToPath(new URL('../../examples/demo.yaml', import.meta.url));
-    const result = await runCli(['plan', demoFile, '--calibrate', '2'], dir);
+    const result = await runCli(['plan', demoFile, '--calibrate', '2', ...TEST_MODEL_FLAGS], dir);
     expect(result.code).toBe(0);
     expect(result.stdout).toMatch(/^calibration +2 jobs timed .* s per operation$/m);
     expect(result.stdout).toMatch(/^estimate +\S+ core-hours, about /m);
@@ -51,7 +52,7 @@ describe('recallscape plan', () => {
 describe('recallscape run into a folder of another sweep', () => {
   it('refuses with exit code 2, says how to proceed, and adds no file', async () => {
     await writeFile(join(dir, 'echo.yaml'), NO_OP(2));
-    const first = await runCli(['run', 'echo.yaml', '--out', 'out', '--threads', '1'], dir);
+    const first = await runCli(['run', 'echo.yaml', '--out', 'out', '--threads', '1', ...TEST_MODEL_FLAGS], dir);
     expect(first.code).toBe(0);
     expect(first.stdout).toContain('every job has a result');
     // run ends with the report (no --no-report).
@@ -60,7 +61,7 @@ describe('recallscape run into a folder of another sweep', () => {
     const sweepJson = await readFile(join(dir, 'out', 'echo', 'sweep.json'), 'utf8');
 
     await writeFile(join(dir, 'echo.yaml'), NO_OP(3));
-    const second = await runCli(['run', 'echo.yaml', '--out', 'out', '--threads', '1'], dir);
+    const second = await runCli(['run', 'echo.yaml', '--out', 'out', '--threads', '1', ...TEST_MODEL_FLAGS], dir);
     expect(second.code).toBe(2);
     expect(second.stderr).toContain('already holds a different sweep');
     expect(second.stderr).toContain('--out');

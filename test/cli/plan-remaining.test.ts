@@ -5,7 +5,11 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { formatPlan, planSweep, type SweepPlan, wallSeconds } from '../../coordinator/plan-sweep.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
 import { runCli } from './cli-helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 const BURN = `
 name: burn-left
@@ -73,7 +77,7 @@ afterAll(async () => {
 
 describe('recallscape plan with results already there', () => {
   it('estimates for any number of cores given with --cores', async () => {
-    const result = await runCli(['plan', 'left.yaml', '--calibrate', '1', '--cores', '64'], dir);
+    const result = await runCli(['plan', 'left.yaml', '--calibrate', '1', '--cores', '64', ...TEST_MODEL_FLAGS], dir);
     expect(result.code, result.stderr).toBe(0);
     expect(result.stdout).toMatch(/^estimate +\S+ core-hours, about .* on 64 cores /m);
     expect(result.stdout).not.toMatch(/^results/m);
@@ -81,7 +85,7 @@ describe('recallscape plan with results already there', () => {
 
   it('refuses a --cores that is not a whole number of at least 1, naming it', async () => {
     for (const bad of ['0', '2.5', 'many']) {
-      const result = await runCli(['plan', 'left.yaml', '--cores', bad], dir);
+      const result = await runCli(['plan', 'left.yaml', '--cores', bad, ...TEST_MODEL_FLAGS], dir);
       expect(result.code).toBe(2);
       expect(result.stderr).toContain('--cores');
       expect(result.stdout).toBe('');
@@ -89,7 +93,7 @@ describe('recallscape plan with results already there', () => {
   });
 
   it('counts the results of a stopped run and estimates only what is left', async () => {
-    const run = await runCli(['run', 'left.yaml', '--out', 'out', '--threads', '1'], dir);
+    const run = await runCli(['run', 'left.yaml', '--out', 'out', '--threads', '1', ...TEST_MODEL_FLAGS], dir);
     expect(run.code, run.stderr).toBe(0);
     // Keep two of the six records, as a run stopped early leaves them.
     const shards = join(dir, 'out', 'left', 'results');
@@ -97,7 +101,10 @@ describe('recallscape plan with results already there', () => {
     const lines = (await readFile(join(shards, shard), 'utf8')).split('\n').filter((l) => l !== '');
     await writeFile(join(shards, shard), `${lines.slice(0, 2).join('\n')}\n`);
 
-    const result = await runCli(['plan', 'left.yaml', '--out', 'out', '--calibrate', '1', '--cores', '4'], dir);
+    const result = await runCli(
+      ['plan', 'left.yaml', '--out', 'out', '--calibrate', '1', '--cores', '4', ...TEST_MODEL_FLAGS],
+      dir,
+    );
     expect(result.code, result.stderr).toBe(0);
     expect(result.stdout).toMatch(/^results +2 of 6 jobs already have a result in out\/left; 4 to run$/m);
     expect(result.stdout).toMatch(/^estimate +\S+ core-hours left of \S+, about .* on 4 cores /m);
@@ -108,9 +115,9 @@ describe('recallscape plan with results already there', () => {
   });
 
   it('says nothing is left for a finished sweep', async () => {
-    const run = await runCli(['run', 'left.yaml', '--out', 'out', '--threads', '1'], dir);
+    const run = await runCli(['run', 'left.yaml', '--out', 'out', '--threads', '1', ...TEST_MODEL_FLAGS], dir);
     expect(run.code, run.stderr).toBe(0);
-    const result = await runCli(['plan', 'left.yaml', '--out', 'out', '--calibrate', '1'], dir);
+    const result = await runCli(['plan', 'left.yaml', '--out', 'out', '--calibrate', '1', ...TEST_MODEL_FLAGS], dir);
     expect(result.code, result.stderr).toBe(0);
     expect(result.stdout).toMatch(/^results +6 of 6 jobs already have a result in out\/left; 0 to run$/m);
     expect(result.stdout).toMatch(/^estimate +nothing left to run \(the whole sweep: \S+ core-hours\)$/m);
@@ -118,7 +125,7 @@ describe('recallscape plan with results already there', () => {
 
   it('counts nothing from a folder that holds another sweep of the same name', async () => {
     await writeFile(join(dir, 'other.yaml'), SMALL.replace('seed: 2', 'seed: 9'));
-    const result = await runCli(['plan', 'other.yaml', '--out', 'out', '--calibrate', '0'], dir);
+    const result = await runCli(['plan', 'other.yaml', '--out', 'out', '--calibrate', '0', ...TEST_MODEL_FLAGS], dir);
     expect(result.code, result.stderr).toBe(0);
     expect(result.stdout).toMatch(/^results +none counted: out\/left holds another sweep of this name/m);
   });

@@ -4,7 +4,11 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
 import { runCli, shardLines, shardRecords, startCli, waitFor } from './cli-helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // 60 jobs of ~40 ms busy time: over a second on 2 threads, long enough to interrupt.
 const SWEEP = `
@@ -113,7 +117,7 @@ describe('recallscape run, interrupted and resumed', () => {
     expect(lastRun.length).toBe(96 - beforeLast.size);
     expect(lastRun.every((r) => r['run'] !== firstRun)).toBe(true);
 
-    const fresh = await runCli(['run', modelFile, '--out', 'fresh', '--threads', '2'], dir);
+    const fresh = await runCli(['run', modelFile, '--out', 'fresh', '--threads', '2', ...TEST_MODEL_FLAGS], dir);
     expect(fresh.code).toBe(0);
     const freshByKey = byKey(await shardRecords(resultsOf('fresh', 'bcpnn-resume')));
     expect([...freshByKey.keys()].sort()).toEqual(modelKeys);
@@ -134,7 +138,7 @@ describe('recallscape run, interrupted and resumed', () => {
     const out = 'torn';
     const echoFile = join(dir, 'echo.yaml');
     await writeFile(echoFile, ECHO_SWEEP);
-    const done = await runCli(['run', echoFile, '--out', out, '--threads', '2'], dir);
+    const done = await runCli(['run', echoFile, '--out', out, '--threads', '2', ...TEST_MODEL_FLAGS], dir);
     expect(done.code).toBe(0);
     const folder = resultsOf(out, 'echo-torn');
     const [shard] = (await readdir(folder)).filter((n) => n.endsWith('.ndjson'));
@@ -146,7 +150,7 @@ describe('recallscape run, interrupted and resumed', () => {
     await appendFile(path, lines.at(-1)!.slice(0, 70));
     expect(await readFile(path, 'utf8')).not.toMatch(/\n$/);
 
-    const again = await runCli(['run', echoFile, '--out', out, '--threads', '2'], dir);
+    const again = await runCli(['run', echoFile, '--out', out, '--threads', '2', ...TEST_MODEL_FLAGS], dir);
     expect(again.code).toBe(0);
     // One plain line in the program's voice, naming the file and line (no JSON log line).
     const warnings = again.stderr.split('\n').filter((l) => l !== '');
@@ -161,7 +165,7 @@ describe('recallscape run, interrupted and resumed', () => {
 
   it('stops gracefully on SIGINT with exit code 130, leaves no torn line, and a second run completes', async () => {
     const out = 'interrupted';
-    const run = startCli(['run', file, '--out', out, '--threads', '2'], dir);
+    const run = startCli(['run', file, '--out', out, '--threads', '2', ...TEST_MODEL_FLAGS], dir);
     await waitFor(async () => (await shardLines(resultsOf(out))).length >= 4, 60_000);
     run.child.kill('SIGINT');
     const stopped = await run.done;
@@ -172,7 +176,7 @@ describe('recallscape run, interrupted and resumed', () => {
     expect(lines.every((l) => l.complete)).toBe(true);
     expect(lines.length).toBeLessThan(60);
 
-    const resumed = await runCli(['run', file, '--out', out, '--threads', '2'], dir);
+    const resumed = await runCli(['run', file, '--out', out, '--threads', '2', ...TEST_MODEL_FLAGS], dir);
     expect(resumed.code).toBe(0);
     expect(resumed.stdout).toContain(`${lines.length} had results before this run`);
     const keys = (await shardRecords(resultsOf(out))).map((r) => String(r['key'])).sort();

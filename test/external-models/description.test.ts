@@ -233,7 +233,7 @@ describe('a folder of model folders', () => {
       /copy\/recallscape-model\.json: id: model "hopfield-py" is already defined by .*hopfield-py\/recallscape-model\.json/,
     );
     const builtIn = join(base, 'built-in');
-    await writeModelFolder(builtIn, 'noop', programDescription({ id: 'no-op' }));
+    await writeModelFolder(builtIn, 'bcpnn', programDescription({ id: 'bcpnn-sequences' }));
     await expect(registerModelFolders([builtIn])).rejects.toThrow(/already defined by the built-in models/);
   });
 });

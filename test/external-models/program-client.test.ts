@@ -66,7 +66,8 @@ describe('a program model', () => {
     const hungPid = model.processId() as number;
     const failure = await failureOf(model.runAsync(params('hang'), 1, { key: 'hang', timeoutMs: 1500 }));
     expect(failure.kind).toBe('timeout');
-    expect(failure.retryable).toBe(true);
+    // Not retried: the same job with the same limit would run over again (docs/own-model.md).
+    expect(failure.retryable).toBe(false);
     expect(failure.message).toMatch(/no reply within the time limit of 1500 ms; the program was killed/);
     expect(failure.message).toMatch(/last stderr lines of the model:[\s\S]*going to sleep forever/);
     await waitUntil('the hung program to be gone', () => !isRunning(hungPid));

@@ -16,7 +16,11 @@ import { ResultStore } from '../../shared/store/result-store.js';
 import { expandJobs, type PlannedJob, toPayload } from '../../shared/sweep/expand.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { runJob } from '../../worker/run-job.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { waitFor } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // The coordinator's queue logic (submit, requeue, gather, cancel, progress) against the in-memory
 // queue: no Redis, so these run in milliseconds. The BullMQ backend has its own real-Redis tests.

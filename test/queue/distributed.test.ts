@@ -2,6 +2,7 @@ import { readdir, readFile, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { Queue } from 'bullmq';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { TEST_MODEL_FLAGS } from '../fixtures/test-models.js';
 import {
   childrenOf,
   deleteKeys,
@@ -38,7 +39,7 @@ afterEach(async () => {
 
 function worker(out: string, extra: string[] = []): Running {
   const running = startCli(
-    ['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...queue.flags, ...extra],
+    ['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...queue.flags, ...extra, ...TEST_MODEL_FLAGS],
     {
       RECALLSCAPE_LOG_LEVEL: 'debug',
     },
@@ -112,13 +113,14 @@ describe('a sweep served by worker processes through Redis', () => {
       coordinatorRoot,
       '--json',
       ...queue.flags,
+      ...TEST_MODEL_FLAGS,
     ]);
     expect(submitted.code, submitted.stderr).toBe(0);
     const counts = JSON.parse(submitted.stdout) as Record<string, number>;
     expect(counts).toMatchObject({ planned: 40, done: 0, enqueued: 40 });
 
     const dir = join(coordinatorRoot, 'two-workers');
-    const progressArgs = ['progress', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags];
+    const progressArgs = ['progress', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags, ...TEST_MODEL_FLAGS];
     // Poll Redis directly (cheaper than a CLI process per look): finished jobs sit in the completed set.
     const client = await inspector(SHARED_REDIS);
     try {
@@ -150,7 +152,15 @@ describe('a sweep served by worker processes through Redis', () => {
     expect(before.onDisk).toBe(new Set(onShared.map((r) => r['key'])).size);
     expect(before.queue.finishedNotGathered).toBe(40 - before.onDisk);
 
-    const gathered = await runCli(['gather', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags]);
+    const gathered = await runCli([
+      'gather',
+      dir,
+      '--redis',
+      SHARED_REDIS,
+      '--json',
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     expect(gathered.code, gathered.stderr).toBe(0);
     const g = JSON.parse(gathered.stdout) as Record<string, number>;
     expect(g['found']).toBe(40);
@@ -158,19 +168,35 @@ describe('a sweep served by worker processes through Redis', () => {
     expect(g['removed']).toBe(40);
     // Gathering again finds nothing left in Redis and copies nothing twice.
     const again = JSON.parse(
-      (await runCli(['gather', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags])).stdout,
+      (await runCli(['gather', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags, ...TEST_MODEL_FLAGS])).stdout,
     ) as Record<string, number>;
     expect(again).toMatchObject({ found: 0, copied: 0 });
 
     // --follow on a finished sweep draws once (a plain line: stdout is a pipe here), prints the summary and ends by itself.
-    const followed = await runCli(['progress', dir, '--follow', '--redis', SHARED_REDIS, ...queue.flags]);
+    const followed = await runCli([
+      'progress',
+      dir,
+      '--follow',
+      '--redis',
+      SHARED_REDIS,
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     expect(followed.code, followed.stderr).toBe(0);
     expect(followed.stdout).toMatch(
       /^finished 40\/40 \(100\.0%\) \| waiting 0 \| active 0 \| delayed 0 \| failed 0 \|/m,
     );
     expect(followed.stdout).toMatch(/^finished {2}40 \(100\.0%\)$/m);
 
-    const embedded = await runCli(['run', file, '--out', join(root, 'embedded'), '--threads', '1']);
+    const embedded = await runCli([
+      'run',
+      file,
+      '--out',
+      join(root, 'embedded'),
+      '--threads',
+      '1',
+      ...TEST_MODEL_FLAGS,
+    ]);
     expect(embedded.code, embedded.stderr).toBe(0);
     const reference = byKey(await records(join(root, 'embedded'), 'two-workers'));
     const distributed = byKey(await records(coordinatorRoot, 'two-workers'));
@@ -199,7 +225,16 @@ describe('a sweep served by worker processes through Redis', () => {
     const victim = worker(out, ['--name', 'victim-worker', ...timing]);
     const survivor = worker(out, ['--name', 'survivor-worker', ...timing]);
     await Promise.all([ready(victim), ready(survivor)]);
-    const submitted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, ...queue.flags]);
+    const submitted = await runCli([
+      'submit',
+      file,
+      '--redis',
+      SHARED_REDIS,
+      '--out',
+      out,
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     expect(submitted.code, submitted.stderr).toBe(0);
 
     const jobOf = (running: Running, msg: string): string[] =>
@@ -268,7 +303,17 @@ describe('a sweep served by worker processes through Redis', () => {
       // Field 19 of /proc/<pid>/task/<tid>/stat is the nice value (proc(5) manual page, from memory).
       if (stat !== '') expect(Number(stat.slice(stat.lastIndexOf(')') + 2).split(' ')[16]), `thread ${tid}`).toBe(3);
     }
-    const submitted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags]);
+    const submitted = await runCli([
+      'submit',
+      file,
+      '--redis',
+      SHARED_REDIS,
+      '--out',
+      out,
+      '--json',
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     expect(submitted.code, submitted.stderr).toBe(0);
     const producer = new Queue(queue.name, { connection: { host: '127.0.0.1', port: 6379 }, prefix: queue.prefix });
     try {

@@ -8,6 +8,7 @@ import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
 import {
   deleteKeys,
   inspector,
@@ -23,6 +24,9 @@ import {
   waitFor,
 } from './helpers.js';
 
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
+
 // Jobs pushed straight into the queue, bypassing submit: the worker must treat them as untrusted.
 
 let base = '';
@@ -34,7 +38,17 @@ beforeAll(async () => {
   base = await tempDir('hostile');
   resultsRoot = join(base, 'deep', 'a', 'results');
   await mkdir(resultsRoot, { recursive: true });
-  worker = startCli(['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', resultsRoot, ...queue.flags]);
+  worker = startCli([
+    'worker',
+    '--redis',
+    SHARED_REDIS,
+    '--threads',
+    '1',
+    '--out',
+    resultsRoot,
+    ...queue.flags,
+    ...TEST_MODEL_FLAGS,
+  ]);
   await waitFor(
     'the worker to be ready',
     async () => (worker.output().includes('worker ready') ? true : undefined),
@@ -332,7 +346,10 @@ describe('requeue --failed', () => {
       expect(job?.failedReason).toMatch(/^unsupported: job needs no-op version 999/);
 
       // Plain requeue leaves the failed job alone and queues the two others.
-      const plain = JSON.parse((await runCli(['requeue', store.dir, ...flags])).stdout) as Record<string, number>;
+      const plain = JSON.parse((await runCli(['requeue', store.dir, ...flags, ...TEST_MODEL_FLAGS])).stdout) as Record<
+        string,
+        number
+      >;
       expect(plain).toMatchObject({ planned: 3, enqueued: 2, failedKept: 1, retried: 0 });
       await waitFor(
         'two results',
@@ -340,14 +357,15 @@ describe('requeue --failed', () => {
         60_000,
         200,
       );
-      const before = JSON.parse((await runCli(['progress', store.dir, ...flags])).stdout) as Record<string, unknown>;
+      const before = JSON.parse(
+        (await runCli(['progress', store.dir, ...flags, ...TEST_MODEL_FLAGS])).stdout,
+      ) as Record<string, unknown>;
       expect(before).toMatchObject({ planned: 3, finished: 2, failingJobs: 1, failuresByKind: { unsupported: 1 } });
       expect((before['queue'] as Record<string, number>)['failed']).toBe(1);
 
-      const retried = JSON.parse((await runCli(['requeue', store.dir, '--failed', ...flags])).stdout) as Record<
-        string,
-        number
-      >;
+      const retried = JSON.parse(
+        (await runCli(['requeue', store.dir, '--failed', ...flags, ...TEST_MODEL_FLAGS])).stdout,
+      ) as Record<string, number>;
       expect(retried).toMatchObject({ retried: 1, enqueued: 0 });
       await waitFor(
         'three results',

@@ -10,7 +10,11 @@ import { PoolBroken } from '../../worker/pool-errors.js';
 import { QueueWorker } from '../../worker/queue-worker.js';
 import { ShardSinks } from '../../worker/shard-sinks.js';
 import type { ThreadPool } from '../../worker/thread-pool.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { deleteKeys, removeDir, SHARED_REDIS, tempDir, uniqueQueue, waitFor } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // A worker whose threads cannot run anything (e.g. a broken build) must not
 // burn the attempts of the jobs it takes: they go back to waiting untouched.

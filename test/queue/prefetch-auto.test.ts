@@ -9,7 +9,11 @@ import { JobRunner } from '../../worker/job-runner.js';
 import { AUTO_PREFETCH_PER_THREAD, QueueWorker } from '../../worker/queue-worker.js';
 import { ShardSinks } from '../../worker/shard-sinks.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { deleteKeys, removeDir, SHARED_REDIS, tempDir, uniqueQueue, waitFor } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // With --prefetch auto a worker holds extra jobs only while jobs are short.
 

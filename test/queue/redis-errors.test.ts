@@ -2,6 +2,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
 import {
   type CliResult,
   freePort,
@@ -12,6 +13,9 @@ import {
   tempDir,
   uniqueQueue,
 } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // Every command that talks to Redis must fail the same way: one line, exit code 1, no secret.
 const PASSWORD = 'Zebra-Tulip-4417';
@@ -42,7 +46,8 @@ afterAll(async () => {
 
 /** Each Redis-using command with its own arguments (the URL is appended). */
 function commands(): Array<{ name: string; args: string[] }> {
-  const q = uniqueQueue().flags;
+  // The sweep's model (no-op) is a test model: every command that reads the sweep loads it.
+  const q = [...uniqueQueue().flags, ...TEST_MODEL_FLAGS];
   return [
     { name: 'submit', args: ['submit', sweepFile, '--out', join(root, 'results'), ...q] },
     { name: 'worker', args: ['worker', '--threads', '1', '--out', join(root, 'worker-out'), ...q] },
@@ -97,7 +102,9 @@ describe('Redis failures on the command line', () => {
 
   it('reads the URL from RECALLSCAPE_REDIS_URL and masks it there too', async () => {
     const url = `redis://:${WRONG}@127.0.0.1:${guarded.port}`;
-    const result = await runCli(['requeue', sweepDir, ...uniqueQueue().flags], { env: { RECALLSCAPE_REDIS_URL: url } });
+    const result = await runCli(['requeue', sweepDir, ...uniqueQueue().flags, ...TEST_MODEL_FLAGS], {
+      env: { RECALLSCAPE_REDIS_URL: url },
+    });
     expectOneCleanLine(result, WRONG, /Redis refused the password/);
   });
 
@@ -108,6 +115,7 @@ describe('Redis failures on the command line', () => {
       '--redis',
       `redis://127.0.0.1:${guarded.port}`,
       ...uniqueQueue().flags,
+      ...TEST_MODEL_FLAGS,
     ]);
     expect(result.code).toBe(1);
     expect(result.stderr.trim()).toMatch(/requires a password/);
@@ -121,6 +129,7 @@ describe('Redis failures on the command line', () => {
       `http://:${WRONG}@127.0.0.1:1`,
       '--out',
       join(root, 'results'),
+      ...TEST_MODEL_FLAGS,
     ]);
     expect(result.code).toBe(2);
     expect(result.stderr).toMatch(/--redis: unsupported scheme/);
@@ -138,6 +147,7 @@ describe('Redis failures on the command line', () => {
       join(root, 'results'),
       '--json',
       ...q.flags,
+      ...TEST_MODEL_FLAGS,
     ]);
     expect(result.code, result.stderr).toBe(0);
     expect(JSON.parse(result.stdout)).toMatchObject({ planned: 2, enqueued: 2 });

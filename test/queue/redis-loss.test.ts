@@ -1,6 +1,7 @@
 import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { TEST_MODEL_FLAGS } from '../fixtures/test-models.js';
 import {
   inspector,
   type OwnRedis,
@@ -44,11 +45,31 @@ describe('a sweep whose Redis is emptied half-way', () => {
     await writeFile(file, 'name: redis-loss\nmodel: cpu-burn\nseed: 2\nreplicates: 30\nfixed: { burnMs: 100 }\n');
     const out = join(root, 'results');
     const dir = join(out, 'redis-loss');
-    const submitted = await runCli(['submit', file, '--redis', redis.url, '--out', out, '--json', ...queue.flags]);
+    const submitted = await runCli([
+      'submit',
+      file,
+      '--redis',
+      redis.url,
+      '--out',
+      out,
+      '--json',
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     expect(submitted.code, submitted.stderr).toBe(0);
     expect(JSON.parse(submitted.stdout)).toMatchObject({ planned: 30, enqueued: 30 });
 
-    const worker = startCli(['worker', '--redis', redis.url, '--threads', '1', '--out', out, ...queue.flags]);
+    const worker = startCli([
+      'worker',
+      '--redis',
+      redis.url,
+      '--threads',
+      '1',
+      '--out',
+      out,
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     started.push(worker);
     await waitFor('some results', async () => ((await keysOnDisk(dir)).length >= 6 ? true : undefined), 60_000, 100);
 
@@ -67,13 +88,31 @@ describe('a sweep whose Redis is emptied half-way', () => {
     const before = new Set(await keysOnDisk(dir));
     expect(before.size).toBeLessThan(30);
 
-    const requeued = await runCli(['requeue', dir, '--redis', redis.url, '--json', ...queue.flags]);
+    const requeued = await runCli([
+      'requeue',
+      dir,
+      '--redis',
+      redis.url,
+      '--json',
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     expect(requeued.code, requeued.stderr).toBe(0);
     const r = JSON.parse(requeued.stdout) as Record<string, number>;
     expect(r['done']).toBe(before.size);
     expect(r['enqueued']).toBe(30 - before.size);
 
-    const second = startCli(['worker', '--redis', redis.url, '--threads', '1', '--out', out, ...queue.flags]);
+    const second = startCli([
+      'worker',
+      '--redis',
+      redis.url,
+      '--threads',
+      '1',
+      '--out',
+      out,
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     started.push(second);
     await waitFor(
       'the sweep to finish',

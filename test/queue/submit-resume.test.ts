@@ -4,6 +4,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { loadSweepFile } from '../../shared/sweep/load.js';
+import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
 import {
   deleteKeys,
   inspector,
@@ -15,6 +16,9 @@ import {
   uniqueQueue,
   waitFor,
 } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 let root = '';
 const queue = uniqueQueue();
@@ -50,6 +54,7 @@ describe('submit', () => {
         '--max-jobs',
         '50',
         ...queue.flags,
+        ...TEST_MODEL_FLAGS,
       ]);
       expect(refused.code).toBe(2);
       expect(refused.stderr).toContain('100 jobs');
@@ -69,10 +74,11 @@ describe('submit', () => {
         '--yes',
         '--json',
         ...queue.flags,
+        ...TEST_MODEL_FLAGS,
       ]);
       expect(accepted.code, accepted.stderr).toBe(0);
       expect(JSON.parse(accepted.stdout)).toMatchObject({ planned: 100, enqueued: 100 });
-      await runCli(['cancel', join(out, 'over-limit'), '--redis', SHARED_REDIS, ...queue.flags]);
+      await runCli(['cancel', join(out, 'over-limit'), '--redis', SHARED_REDIS, ...queue.flags, ...TEST_MODEL_FLAGS]);
     } finally {
       client.disconnect();
     }
@@ -87,7 +93,16 @@ describe('submit', () => {
     const out = join(root, 'results');
     const client = await inspector(SHARED_REDIS);
     try {
-      const first = startCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, ...queue.flags]);
+      const first = startCli([
+        'submit',
+        file,
+        '--redis',
+        SHARED_REDIS,
+        '--out',
+        out,
+        ...queue.flags,
+        ...TEST_MODEL_FLAGS,
+      ]);
       // Kill as soon as the first chunk (1,000 jobs, added in one transaction) is there: nine more
       // chunks would have to land in the few milliseconds before the signal for the submit to finish.
       await waitFor(
@@ -105,7 +120,17 @@ describe('submit', () => {
         console.log('the first submit finished before it was killed; checking the second one all the same');
       }
 
-      const second = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags]);
+      const second = await runCli([
+        'submit',
+        file,
+        '--redis',
+        SHARED_REDIS,
+        '--out',
+        out,
+        '--json',
+        ...queue.flags,
+        ...TEST_MODEL_FLAGS,
+      ]);
       expect(second.code, second.stderr).toBe(0);
       const report = JSON.parse(second.stdout) as Record<string, number>;
       expect(report['planned']).toBe(10_000);
@@ -122,16 +147,42 @@ describe('submit', () => {
       expect(ids.every((id) => expected.has(id))).toBe(true);
 
       // A third submit adds nothing.
-      const third = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags]);
+      const third = await runCli([
+        'submit',
+        file,
+        '--redis',
+        SHARED_REDIS,
+        '--out',
+        out,
+        '--json',
+        ...queue.flags,
+        ...TEST_MODEL_FLAGS,
+      ]);
       expect(JSON.parse(third.stdout)).toMatchObject({ enqueued: 0, inQueue: 10_000 });
       expect(await client.llen(waitKey)).toBe(10_000);
 
       // cancel removes them all, requeue puts them all back.
       const dir = join(out, 'big-submit');
-      const cancelled = await runCli(['cancel', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags]);
+      const cancelled = await runCli([
+        'cancel',
+        dir,
+        '--redis',
+        SHARED_REDIS,
+        '--json',
+        ...queue.flags,
+        ...TEST_MODEL_FLAGS,
+      ]);
       expect(JSON.parse(cancelled.stdout)).toMatchObject({ removed: 10_000, active: 0 });
       expect(await client.llen(waitKey)).toBe(0);
-      const requeued = await runCli(['requeue', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags]);
+      const requeued = await runCli([
+        'requeue',
+        dir,
+        '--redis',
+        SHARED_REDIS,
+        '--json',
+        ...queue.flags,
+        ...TEST_MODEL_FLAGS,
+      ]);
       expect(JSON.parse(requeued.stdout)).toMatchObject({ enqueued: 10_000, done: 0 });
       expect(await client.llen(waitKey)).toBe(10_000);
     } finally {

@@ -3,6 +3,10 @@ import { InputError } from '../../shared/errors.js';
 import { sweepTrialRange } from '../../shared/refine/sweep-design.js';
 import { SWEEP_FORMAT } from '../../shared/sweep/hash.js';
 import { parseSweepText, sweepFromStored } from '../../shared/sweep/load.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 const ADAPTIVE = `name: adaptive-check
 model: bcpnn-sequences

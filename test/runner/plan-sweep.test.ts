@@ -6,6 +6,10 @@ import { parseWholeNumber } from '../../coordinator/cli-support.js';
 import { DEMO_SWEEP_YAML } from '../../coordinator/demo-sweep.js';
 import { formatPlan, loadSweepForCommand, planSweep } from '../../coordinator/plan-sweep.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 const BURN = `
 name: burn-plan

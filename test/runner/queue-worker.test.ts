@@ -10,7 +10,11 @@ import { JobRunner } from '../../worker/job-runner.js';
 import { QueueWorker } from '../../worker/queue-worker.js';
 import { ShardSinks } from '../../worker/shard-sinks.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { waitFor } from '../queue/helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // The worker's job handling (payload checks, thread pool, record on disk before the verdict) over
 // the in-memory queue; the BullMQ consumer around it is tested against Redis in test/queue.

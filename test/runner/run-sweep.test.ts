@@ -10,6 +10,10 @@ import { createLogger } from '../../shared/logger.js';
 import { type ShardFs, ShardWriteError } from '../../shared/store/result-store.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
+import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // Threads run the compiled entry (npm test builds first); this test imports the runner from sources.
 const ENTRY = new URL('../../dist/worker/thread-entry.js', import.meta.url);
@@ -255,7 +259,19 @@ describe('runSweep', () => {
       new Promise((resolve) => {
         execFile(
           'bash',
-          ['-c', `${limit} exec "$0" "$@"`, process.execPath, cli, 'run', file, '--out', root, '--threads', '2'],
+          [
+            '-c',
+            `${limit} exec "$0" "$@"`,
+            process.execPath,
+            cli,
+            'run',
+            file,
+            '--out',
+            root,
+            '--threads',
+            '2',
+            ...TEST_MODEL_FLAGS,
+          ],
           (err, _stdout, stderr) =>
             resolve({ code: err === null ? 0 : Number((err as { code?: unknown }).code), stderr }),
         );

@@ -8,10 +8,15 @@ import type { JobPayload } from '../../shared/schemas/records.js';
 import { PoolBroken, PoolClosed, PoolTerminated } from '../../worker/pool-errors.js';
 import type { JobOutcome } from '../../worker/run-job.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // Threads load the compiled entry from dist/ (npm test builds first).
 const ENTRY = new URL('../../dist/worker/thread-entry.js', import.meta.url);
 const RUN_JOB = new URL('../../dist/worker/run-job.js', import.meta.url);
+const MODEL_FOLDERS = new URL('../../dist/shared/models/external/model-folders.js', import.meta.url);
 const CONTEXT = { writer: 'test-writer', run: 'test-run' };
 const HASH = 'a'.repeat(64);
 
@@ -49,6 +54,9 @@ beforeAll(async () => {
     file,
     `import { parentPort, workerData } from 'node:worker_threads';
 const { runJob } = await import(${JSON.stringify(RUN_JOB.href)});
+// The test models (cpu-burn) this process registered, as the real thread body loads them.
+const { applyExternalModelSettings } = await import(${JSON.stringify(MODEL_FOLDERS.href)});
+await applyExternalModelSettings(workerData.models);
 parentPort.on('message', (req) => {
   const fault = req.payload && req.payload.fault;
   if (fault === 'throw') throw new Error('injected fault');

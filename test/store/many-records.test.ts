@@ -6,6 +6,10 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ResultStore, type StoreWarning } from '../../shared/store/result-store.js';
 import { expandJobs, type PlannedJob } from '../../shared/sweep/expand.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 const N = 200_000;
 

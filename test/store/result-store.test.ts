@@ -8,7 +8,11 @@ import type { FailureRecord, ResultRecord } from '../../shared/schemas/records.j
 import { newWriterId, ResultStore, type StoreWarning } from '../../shared/store/result-store.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { resultFor } from './record-fixture.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 const SWEEP_TEXT = 'name: store-test\nmodel: no-op\nseed: 2\nreplicates: 2\nvary:\n  value: { list: [1, 2, 3] }\n';
 

@@ -5,7 +5,11 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { ResultStore, type StoreWarning } from '../../shared/store/result-store.js';
 import { MAX_LINE_BYTES, type RawLine, readLines } from '../../shared/store/shard-reader.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { resultFor } from './record-fixture.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 async function lines(file: string, max?: number): Promise<RawLine[]> {
   const out: RawLine[] = [];

@@ -5,7 +5,11 @@ import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { ResultStore, type ShardFs } from '../../shared/store/result-store.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { resultFor } from './record-fixture.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 const SWEEP_TEXT = 'name: fault-test\nmodel: no-op\nseed: 2\nreplicates: 1\nvary:\n  value: { list: [1, 2, 3, 4] }\n';
 

@@ -6,7 +6,11 @@ import { findJob } from '../../coordinator/summarize/inspect-job.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { runJob } from '../../worker/run-job.js';
 import { runCli } from '../cli/cli-helpers.js';
+import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
 import { BURN_SWEEP, makeSweepFolder, type SweepFolder } from './sweep-folder.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // These run the built CLI (node bin/recallscape.js -> dist/): build first.
 
@@ -19,7 +23,7 @@ describe('recallscape report', () => {
   afterAll(async () => folder.cleanup());
 
   it('writes the tables, diagrams and page, and prints the paths and the completed fraction', async () => {
-    const result = await runCli(['report', folder.dir], folder.root);
+    const result = await runCli(['report', folder.dir, ...TEST_MODEL_FLAGS], folder.root);
     expect(result.stderr).toBe('');
     expect(result.code).toBe(0);
     expect(result.stdout).toContain('completed 44 of 88 jobs (50.0%)');
@@ -48,7 +52,7 @@ describe('recallscape report', () => {
   });
 
   it('exits with 2 for an unknown --x, naming the option and the allowed parameters', async () => {
-    const result = await runCli(['report', folder.dir, '--x', 'overlap'], folder.root);
+    const result = await runCli(['report', folder.dir, '--x', 'overlap', ...TEST_MODEL_FLAGS], folder.root);
     expect(result.code).toBe(2);
     expect(result.stderr).toContain('--x');
     expect(result.stderr).toContain('allowed: successRate, burnMs');
@@ -56,20 +60,20 @@ describe('recallscape report', () => {
   });
 
   it('exits with 2 for an unknown --metric, listing the metrics of the records', async () => {
-    const result = await runCli(['report', folder.dir, '--metric', 'recall'], folder.root);
+    const result = await runCli(['report', folder.dir, '--metric', 'recall', ...TEST_MODEL_FLAGS], folder.root);
     expect(result.code).toBe(2);
     expect(result.stderr).toMatch(/--metric: .*allowed: success, busy, draw/);
   });
 
   it('exits with 2 for a folder that is not a sweep', async () => {
-    const result = await runCli(['report', join(folder.root, 'nothing-here')], folder.root);
+    const result = await runCli(['report', join(folder.root, 'nothing-here'), ...TEST_MODEL_FLAGS], folder.root);
     expect(result.code).toBe(2);
     expect(result.stderr).toContain('sweep.json');
     expect(existsSync(join(folder.root, 'nothing-here'))).toBe(false);
   });
 
   it('exits with 2 for --bins out of range, naming the option and the allowed range', async () => {
-    const result = await runCli(['report', folder.dir, '--bins', '1'], folder.root);
+    const result = await runCli(['report', folder.dir, '--bins', '1', ...TEST_MODEL_FLAGS], folder.root);
     expect(result.code).toBe(2);
     expect(result.stderr).toBe('recallscape: --bins: must be a whole number from 2 to 200, got "1"\n');
   });
@@ -96,7 +100,7 @@ describe('recallscape report on shards with many damaged lines', () => {
   afterAll(async () => folder.cleanup());
 
   it('prints the first ten warnings and the true number of the others', async () => {
-    const result = await runCli(['report', folder.dir, '--format', 'html'], folder.root);
+    const result = await runCli(['report', folder.dir, '--format', 'html', ...TEST_MODEL_FLAGS], folder.root);
     expect(result.code, result.stderr).toBe(0);
     const lines = result.stderr.trimEnd().split('\n');
     expect(lines.slice(0, 10).every((l) => l.startsWith('recallscape: warning: bad-line: '))).toBe(true);
@@ -126,7 +130,7 @@ describe('recallscape report and progress on a sweep one job short of done', () 
 
   it('reads 99.9% in the report, not 100.0%', async () => {
     expect(folder.written).toBe(9999);
-    const result = await runCli(['report', folder.dir, '--format', 'html'], folder.root);
+    const result = await runCli(['report', folder.dir, '--format', 'html', ...TEST_MODEL_FLAGS], folder.root);
     expect(result.code, result.stderr).toBe(0);
     // 9999 / 10000 = 99.99%, rounded down to one decimal (worked by hand).
     expect(result.stdout).toContain('completed 9999 of 10000 jobs (99.9%)');
@@ -135,7 +139,7 @@ describe('recallscape report and progress on a sweep one job short of done', () 
   });
 
   it('reads 99.9% in progress, and 100.0% once the last job is done', async () => {
-    const before = await runCli(['progress', folder.dir], folder.root);
+    const before = await runCli(['progress', folder.dir, ...TEST_MODEL_FLAGS], folder.root);
     expect(before.code, before.stderr).toBe(0);
     expect(before.stdout).toMatch(/^finished {2}9999 \(99\.9%\)$/m);
     // Run the missing job as a worker would and store its record.
@@ -144,7 +148,7 @@ describe('recallscape report and progress on a sweep one job short of done', () 
     const outcome = runJob(toPayload(folder.sweep, missing), { writer: 'last-writer', run: 'run-2' });
     if (!outcome.ok) throw new Error(`the last job failed: ${outcome.message}`);
     await appendFile(join(folder.dir, 'results', 'last-writer.ndjson'), `${JSON.stringify(outcome.record)}\n`);
-    const after = await runCli(['progress', folder.dir], folder.root);
+    const after = await runCli(['progress', folder.dir, ...TEST_MODEL_FLAGS], folder.root);
     expect(after.code, after.stderr).toBe(0);
     expect(after.stdout).toMatch(/^finished {2}10000 \(100\.0%\)$/m);
   });
@@ -183,7 +187,7 @@ vary:
       .map((l) => JSON.parse(l));
     expect(records.length).toBe(1);
     const key: string = records[0].key;
-    const result = await runCli(['inspect', bcpnn.dir, '--job', key.slice(0, 8)], bcpnn.root);
+    const result = await runCli(['inspect', bcpnn.dir, '--job', key.slice(0, 8), ...TEST_MODEL_FLAGS], bcpnn.root);
     expect(result.stderr).toBe('');
     expect(result.code).toBe(0);
     expect(result.stdout).toContain(`job ${key}`);
@@ -224,7 +228,7 @@ vary:
   it('says clearly that a cpu-burn job has no trace', async () => {
     const line = (await readFile(join(burn.dir, 'results', 'test-writer-1.ndjson'), 'utf8')).split('\n')[0] ?? '';
     const key: string = JSON.parse(line).key;
-    const result = await runCli(['inspect', burn.dir, '--job', key], burn.root);
+    const result = await runCli(['inspect', burn.dir, '--job', key, ...TEST_MODEL_FLAGS], burn.root);
     expect(result.code).toBe(0);
     expect(result.stdout).toContain('stored record: identical metrics');
     expect(result.stdout).toContain('this model records no trace');
@@ -256,7 +260,10 @@ vary:
   });
 
   it('exits with 2 for a key that is not in the sweep', async () => {
-    const result = await runCli(['inspect', burn.dir, '--job', 'ffffffffffffffffffffffffffffffff'], burn.root);
+    const result = await runCli(
+      ['inspect', burn.dir, '--job', 'ffffffffffffffffffffffffffffffff', ...TEST_MODEL_FLAGS],
+      burn.root,
+    );
     expect(result.code).toBe(2);
     expect(result.stderr).toContain('--job: no job of this sweep');
   });

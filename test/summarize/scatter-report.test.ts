@@ -7,7 +7,7 @@ import { makeSweepFolder, type SweepFolder } from './sweep-folder.js';
 /**
  * cpu-burn succeeds with probability successRate, whatever burnMs is: the
  * true 50% border is the vertical line successRate = 0.5 (the model's
- * definition in shared/models/utility/cpu-burn.ts).
+ * definition in test/fixtures/models/cpu-burn/cpu-burn.mjs).
  */
 const SWEEP = `
 name: burn-scatter

@@ -5,6 +5,10 @@ import { ResultStore } from '../../shared/store/result-store.js';
 import { expandJobs, type PlannedJob, toPayload } from '../../shared/sweep/expand.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { runJob } from '../../worker/run-job.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 /**
  * A cpu-burn sweep with success varying over the grid: successRate 0..1 in 11

@@ -5,6 +5,10 @@ import { assertJobLimit, countJobs, expandJobs, toPayload } from '../../shared/s
 import { parseSweepText } from '../../shared/sweep/load.js';
 import { iteratePoints } from '../../shared/sweep/points.js';
 import { SweepFileSchema } from '../../shared/sweep/schema.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 describe('grid expansion', () => {
   it('lists the full product with the first varied parameter slowest', () => {
@@ -106,7 +110,7 @@ describe('job expansion', () => {
   it('puts model defaults into the parameters and so into the key', () => {
     const sweep = parseSweepText('name: j\nmodel: cpu-burn\nvary:\n  successRate: { list: [0.5] }\n', 'j.yaml');
     const [job] = [...expandJobs(sweep)];
-    // cpu-burn's default burnMs is 100 (shared/models/utility/cpu-burn.ts).
+    // cpu-burn's default burnMs is 100 (test/fixtures/models/cpu-burn/recallscape-model.json).
     expect(job!.params).toEqual({ burnMs: 100, successRate: 0.5 });
     const explicit = parseSweepText(
       'name: j\nmodel: cpu-burn\nfixed: { burnMs: 100 }\nvary:\n  successRate: { list: [0.5] }\n',

@@ -6,6 +6,10 @@ import { describe, expect, it } from 'vitest';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { sweepHash } from '../../shared/sweep/hash.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { TEST_MODELS, useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 const run = promisify(execFile);
 
@@ -70,7 +74,7 @@ describe('sweep hash', () => {
   });
 
   it('does not change when a model default is written into fixed, and neither do the job keys', () => {
-    // cpu-burn's default successRate is 1 (its schema in shared/models/utility/cpu-burn.ts); vary only burnMs here.
+    // cpu-burn's default successRate is 1 (its description in test/fixtures/models/cpu-burn/); vary only burnMs here.
     const doc = { name: 'defaults', model: 'cpu-burn', seed: 1, vary: { burnMs: { list: [0, 1] } } };
     const implicit = parseSweepText(JSON.stringify(doc), 'd.json');
     const explicit = parseSweepText(JSON.stringify({ ...doc, fixed: { successRate: 1 } }), 'd.json');
@@ -116,6 +120,8 @@ describe('determinism across processes', () => {
     const text =
       'name: det\nmodel: cpu-burn\nseed: 123\nreplicates: 2\nsampler: { kind: random, points: 5 }\nvary:\n  successRate: { between: [0.01, 1], scale: log }\n  burnMs: { among: [0, 1, 2] }\n';
     const script = `
+      const { registerModelFolders } = await import(${JSON.stringify(join(process.cwd(), 'dist', 'shared', 'models', 'external', 'model-folders.js'))});
+      await registerModelFolders([${JSON.stringify(TEST_MODELS)}]);
       const { parseSweepText } = await import(${JSON.stringify(join(dist, 'load.js'))});
       const { expandJobs } = await import(${JSON.stringify(join(dist, 'expand.js'))});
       const sweep = parseSweepText(${JSON.stringify(text)}, 'det.yaml');

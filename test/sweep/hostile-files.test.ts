@@ -5,6 +5,10 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { InputError } from '../../shared/errors.js';
 import { SWEEP_LIMITS } from '../../shared/sweep/limits.js';
 import { loadSweepFile } from '../../shared/sweep/load.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 /**
  * Hostile and extreme sweep files, each refused through loadSweepFile: the

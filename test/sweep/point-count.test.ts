@@ -5,6 +5,10 @@ import { parseSweepText } from '../../shared/sweep/load.js';
 import { countPoints, iteratePoints, spreadPositions } from '../../shared/sweep/points.js';
 import { repeatedStepValue, type StepsRange, stepValues } from '../../shared/sweep/ranges.js';
 import { runJob } from '../../worker/run-job.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 const sweep = (sampler: string, vary: string, model = 'no-op'): string =>
   `name: c\nmodel: ${model}\nseed: 5\nsampler: ${sampler}\nvary:\n${vary}`;

@@ -1,6 +1,10 @@
 import { describe, expect, it } from 'vitest';
 import { parseSweepText } from '../../shared/sweep/load.js';
 import { iteratePoints } from '../../shared/sweep/points.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 /** One-sample Kolmogorov-Smirnov statistic of `values` against the CDF `cdf`. */
 function ksStatistic(values: readonly number[], cdf: (x: number) => number): number {

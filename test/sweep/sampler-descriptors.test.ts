@@ -5,6 +5,10 @@ import { sweepJsonSchema } from '../../shared/sweep/json-schema.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
 import { RANGE_FORMS, RANGE_KINDS } from '../../shared/sweep/ranges.js';
 import { SamplerSchema } from '../../shared/sweep/schema.js';
+import { useTestModels } from '../fixtures/test-models.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 function refusal(text: string): InputError {
   try {

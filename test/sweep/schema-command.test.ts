@@ -35,7 +35,17 @@ describe('recallscape schema', () => {
       'sampler',
       'report',
       'refine',
+      'jobTimeoutMs',
     ]);
+    // The time limit of one job: whole milliseconds, up to a week (7 x 24 x 3600 x 1000, worked by hand).
+    const limit = schema.properties?.['jobTimeoutMs'] as Record<string, unknown> | undefined;
+    expect(limit?.['type']).toBe('integer');
+    expect(limit?.['minimum']).toBe(1);
+    expect(limit?.['maximum']).toBe(604_800_000);
+    // Test models (no-op, cpu-burn) are not among the models users see.
+    expect(String((schema as { description?: string }).description)).toBe(
+      'A parameter sweep for recallscape. Known models: bcpnn-sequences.',
+    );
     expect(schema.properties?.['name']?.['pattern' as keyof JsonSchema]).toBe('^[a-z0-9][a-z0-9._-]*$');
     // Four kinds of range: list, from/to/steps, between, among.
     const ranges = schema.properties?.['vary']?.additionalProperties?.anyOf ?? [];

@@ -13,6 +13,8 @@ export interface ExternalSource {
   /** Absolute path of its recallscape-model.json. */
   readonly descriptionFile: string;
   readonly timeoutMs: number;
+  /** Program kind: extra time for the first job after the program started (0 for modules). */
+  readonly startupMs?: number;
   readonly metrics: Readonly<Record<string, MetricSpec>>;
   readonly successMetric: string;
 }

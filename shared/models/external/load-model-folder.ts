@@ -103,6 +103,7 @@ export async function loadModelFolder(folder: string, options: LoadOptions = {})
     folder: root,
     descriptionFile: file,
     timeoutMs: description.timeoutMs,
+    startupMs: description.kind === 'program' ? description.startupMs : 0,
     metrics: description.metrics,
     successMetric: description.successMetric,
   };

@@ -112,7 +112,7 @@ export function moduleRunner(id: string, declared: MetricDeclaration, module: Mo
       let timer: NodeJS.Timeout | undefined;
       const timeout = new Promise<never>((_, reject) => {
         timer = setTimeout(
-          () => reject(fail(id, 'timeout', `no result within the time limit of ${options.timeoutMs} ms`, true)),
+          () => reject(fail(id, 'timeout', `no result within the time limit of ${options.timeoutMs} ms`, false)),
           options.timeoutMs,
         );
       });

@@ -305,8 +305,9 @@ export class ProgramClient {
         const limit = fresh
           ? `${options.timeoutMs} ms plus ${this.spec.startupMs} ms for starting the program`
           : `${options.timeoutMs} ms`;
+        // Not retried, like every job over its time limit (shared/job-time-limit.ts): the same job would run over again.
         throw new Problem('timeout', `no reply within the time limit of ${limit}; the program was killed`, {
-          retryable: true,
+          retryable: false,
           discard: true,
         });
       }
