@@ -21,15 +21,9 @@ export function listModels(): readonly AnyModel[] {
   return MODELS;
 }
 
-/**
- * Models that exist for the test suite and the benchmarks (no-op, cpu-burn):
- * they run when named, but lists shown to people leave them out.
- */
-const FOR_TESTS: ReadonlySet<string> = new Set([noOpModel.id, cpuBurnModel.id]);
-
-/** Ids of the models a person would choose from (built-in and registered, without the test models). */
+/** Ids of the models a person can choose from: built-in and registered. */
 export function modelIds(): string[] {
-  return MODELS.filter((m) => !FOR_TESTS.has(m.id)).map((m) => m.id);
+  return MODELS.map((m) => m.id);
 }
 
 /** Add a model found at run time (this thread only: every thread registers its own). */

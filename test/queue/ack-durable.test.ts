@@ -3,6 +3,7 @@ import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { keyOfJobId } from '../../shared/queue/bullmq/job-ids.js';
 import { ResultStore } from '../../shared/store/result-store.js';
+import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
 import {
   deleteKeys,
   inspector,
@@ -16,6 +17,9 @@ import {
   uniqueQueue,
   waitFor,
 } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // Integration: real worker processes (built dist/) against the shared Redis on 127.0.0.1:6379.
 
@@ -43,7 +47,16 @@ describe('a job acknowledged by a worker under group commit', () => {
       'name: ack-durable\nmodel: no-op\nseed: 9\nreplicates: 60\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n',
     );
     const out = join(root, 'results');
-    const submitted = await runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, ...queue.flags]);
+    const submitted = await runCli([
+      'submit',
+      file,
+      '--redis',
+      SHARED_REDIS,
+      '--out',
+      out,
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
     expect(submitted.code, submitted.stderr).toBe(0);
     const client = await inspector(SHARED_REDIS);
     const completedKey = `${queue.prefix}:${queue.name}:completed`;
@@ -51,9 +64,12 @@ describe('a job acknowledged by a worker under group commit', () => {
     try {
       let acknowledged = 0;
       for (let round = 1; round <= 3; round++) {
-        const worker = startCli(['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...queue.flags], {
-          RECALLSCAPE_LOG_LEVEL: 'warn',
-        });
+        const worker = startCli(
+          ['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...queue.flags, ...TEST_MODEL_FLAGS],
+          {
+            RECALLSCAPE_LOG_LEVEL: 'warn',
+          },
+        );
         started.push(worker);
         // The moment Redis shows a job of this worker completed, kill it.
         await waitFor(

@@ -7,7 +7,11 @@ import type { QueueSettings } from '../../shared/queue/queue-settings.js';
 import type { JobHandler, WorkConsumer } from '../../shared/queue/work-consumer.js';
 import { expandJobs, toPayload } from '../../shared/sweep/expand.js';
 import { parseSweepText } from '../../shared/sweep/load.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { deleteKeys, inspector, SHARED_REDIS, uniqueQueue, waitFor } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // cancel against workers that keep finishing jobs while it runs (issue 9, item 4).
 

@@ -6,7 +6,11 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { ResultStore, type ShardFs } from '../../shared/store/result-store.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { ShardSinks } from '../../worker/shard-sinks.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { resultFor } from './record-fixture.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // 200 no-op jobs: 20 replicates of 10 values.
 const SWEEP_TEXT =

@@ -61,10 +61,14 @@ describe('sweep file validation', () => {
     expect(issueAt(error, 'fixed.burnMs').message).toContain('unknown parameter');
   });
 
-  it('rejects an unknown model and lists the known ones, without the models kept for tests', () => {
+  it('rejects an unknown model and lists the known ones: the built-in model, then the test models this file loaded', () => {
     const error = rejection('name: s\nmodel: hopfield-classic\n');
     const issue = issueAt(error, 'model');
-    expect(issue.message).toBe('unknown model "hopfield-classic"; known models: bcpnn-sequences');
+    // The folders of test/fixtures/models in name order; without --models only bcpnn-sequences is known
+    // (test/cli/test-models-hidden.test.ts).
+    expect(issue.message).toBe(
+      'unknown model "hopfield-classic"; known models: bcpnn-sequences, cpu-burn, hold, no-op, spin',
+    );
   });
 
   it('suggests the close model name for a misspelt model', () => {
