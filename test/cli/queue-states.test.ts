@@ -19,7 +19,8 @@ beforeAll(async () => {
   dir = await mkdtemp(join(tmpdir(), 'rs-queue-states-'));
   await writeFile(
     join(dir, 'queued.yaml'),
-    'name: queued\nmodel: no-op\nseed: 1\nreplicates: 3\nvary:\n  value: { list: [1, 2] }\n',
+    // The built-in model: these jobs are only queued, never run (the test models need --models).
+    'name: queued\nseed: 1\nreplicates: 3\nvary:\n  patternOverlap: { list: [0, 1] }\n',
   );
 });
 

@@ -71,12 +71,12 @@ describe('the printed JSON Schema', () => {
     expect(errorsOf(BASE.replace('hypercolumns: 6', 'hypercolumns: 0'))).toEqual(['/fixed/hypercolumns minimum']);
   });
 
-  it("checks names against the model the file names, not the default model's", () => {
+  it("applies the default model's names only to a file that names it or no model", () => {
+    // cpu-burn is a test model (test/fixtures/models), unknown to the printed schema: its names stay open,
+    // and bcpnn-sequences' rules do not apply to it.
     const burn = 'name: b\nmodel: cpu-burn\nfixed: { burnMs: 5 }\nvary:\n  successRate: { list: [0.5, 1] }\n';
     expect(errorsOf(burn)).toEqual([]);
-    expect(errorsOf(burn.replace('burnMs: 5', 'hypercolumns: 5'))).toEqual([
-      '/fixed additionalProperties hypercolumns',
-    ]);
+    expect(errorsOf('name: b\nfixed: { burnMs: 5 }\n')).toEqual(['/fixed additionalProperties burnMs']);
   });
 
   it('offers the model names for completion and describes each parameter with its unit', async () => {

@@ -36,6 +36,6 @@ describe('test models outside the registry users and workers see', () => {
     const schema = await runCli(['schema'], NO_MODELS);
     expect(schema.code).toBe(0);
     const description = (JSON.parse(schema.stdout) as { description: string }).description;
-    expect(description).toBe('A parameter sweep for recallscape. Known models: bcpnn-sequences.');
+    expect(description).toBe('A parameter sweep for recallscape. Models: bcpnn-sequences.');
   });
 });

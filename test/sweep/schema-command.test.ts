@@ -44,7 +44,7 @@ describe('recallscape schema', () => {
     expect(limit?.['maximum']).toBe(604_800_000);
     // Test models (no-op, cpu-burn) are not among the models users see.
     expect(String((schema as { description?: string }).description)).toBe(
-      'A parameter sweep for recallscape. Known models: bcpnn-sequences.',
+      'A parameter sweep for recallscape. Models: bcpnn-sequences.',
     );
     expect(schema.properties?.['name']?.['pattern' as keyof JsonSchema]).toBe('^[a-z0-9][a-z0-9._-]*$');
     // Four kinds of range: list, from/to/steps, between, among.
