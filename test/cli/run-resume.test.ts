@@ -79,7 +79,7 @@ describe('recallscape run, interrupted and resumed', () => {
     const killedResults = resultsOf('killed', 'bcpnn-resume');
     const completeKeys = async (): Promise<Set<string>> =>
       new Set((await shardRecords(killedResults)).map((r) => String(r['key'])));
-    const first = startCli(['run', modelFile, '--out', 'killed', '--threads', '2'], dir);
+    const first = startCli(['run', modelFile, '--out', 'killed', '--threads', '2', ...TEST_MODEL_FLAGS], dir);
     await waitFor(async () => (await shardLines(killedResults)).filter((l) => l.complete).length >= 6, 60_000, 20);
     first.child.kill('SIGKILL');
     const killed = await first.done;
@@ -91,14 +91,14 @@ describe('recallscape run, interrupted and resumed', () => {
     expect(firstKeys.size).toBeLessThan(96);
 
     // The resumed run is killed part way too: records still wait for their group commit then.
-    const resumed = startCli(['run', modelFile, '--out', 'killed', '--threads', '2'], dir);
+    const resumed = startCli(['run', modelFile, '--out', 'killed', '--threads', '2', ...TEST_MODEL_FLAGS], dir);
     await waitFor(async () => (await completeKeys()).size >= firstKeys.size + 6, 60_000, 20);
     resumed.child.kill('SIGKILL');
     expect((await resumed.done).signal).toBe('SIGKILL');
     const beforeLast = await completeKeys();
     expect(beforeLast.size).toBeLessThan(96);
 
-    const second = await runCli(['run', modelFile, '--out', 'killed', '--threads', '2'], dir);
+    const second = await runCli(['run', modelFile, '--out', 'killed', '--threads', '2', ...TEST_MODEL_FLAGS], dir);
     expect(second.stderr).not.toContain('recallscape:');
     expect(second.code).toBe(0);
     expect(second.stdout).toContain(`${beforeLast.size} had results before this run`);

@@ -13,7 +13,11 @@ import { JobRunner } from '../../worker/job-runner.js';
 import { QueueWorker } from '../../worker/queue-worker.js';
 import { ShardSinks } from '../../worker/shard-sinks.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { deleteKeys, removeDir, SHARED_REDIS, tempDir, uniqueQueue, waitFor } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // A worker (one thread, prefetch 'auto') over the shared Redis, with group commit:
 // how many jobs it holds for records that wait for a sync.

@@ -15,7 +15,11 @@ import { ResultStore, type StoreWarning } from '../../shared/store/result-store.
 import { expandJobs, type PlannedJob, toPayload } from '../../shared/sweep/expand.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { runJob } from '../../worker/run-job.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import { waitFor } from '../queue/helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // Every reader sets aside records whose key, seed or point is not what the sweep gives (issue 9, item 2).
 

@@ -79,12 +79,12 @@ describe('recallscape report', () => {
   });
 
   it('exits with 2 for --log naming a parameter the sweep does not vary, or one with a value of 0', async () => {
-    const unknown = await runCli(['report', folder.dir, '--log', 'burnMs,noise'], folder.root);
+    const unknown = await runCli(['report', folder.dir, '--log', 'burnMs,noise', ...TEST_MODEL_FLAGS], folder.root);
     expect(unknown.code).toBe(2);
     expect(unknown.stderr).toBe(
       'recallscape: --log: "noise" is not a varied parameter of this sweep; allowed: successRate, burnMs\n',
     );
-    const zero = await runCli(['report', folder.dir, '--log', 'burnMs'], folder.root);
+    const zero = await runCli(['report', folder.dir, '--log', 'burnMs', ...TEST_MODEL_FLAGS], folder.root);
     expect(zero.code).toBe(2);
     expect(zero.stderr).toBe('recallscape: --log: burnMs has the value 0; a log axis needs numbers greater than 0\n');
   });
@@ -219,7 +219,10 @@ vary:
     const out = join(bcpnn.root, 'trace.svg');
     const missing = [...expandJobs(bcpnn.sweep)].map((j) => j.key).find((k) => !done.has(k)) ?? '';
     expect(missing).toMatch(/^[0-9a-f]{32}$/);
-    const result = await runCli(['inspect', bcpnn.dir, '--job', missing, '--file', out], bcpnn.root);
+    const result = await runCli(
+      ['inspect', bcpnn.dir, '--job', missing, '--file', out, ...TEST_MODEL_FLAGS],
+      bcpnn.root,
+    );
     expect(result.code).toBe(0);
     expect(result.stdout).toContain('stored record: none yet');
     expect(existsSync(out)).toBe(true);
@@ -247,7 +250,10 @@ vary:
       `${JSON.stringify({ ...stored, metrics: { ...stored.metrics, success: !stored.metrics['success'] } })}\n`,
     );
     const out = join(bcpnn.root, 'differs.svg');
-    const result = await runCli(['inspect', bcpnn.dir, '--job', stored.key, '--file', out], bcpnn.root);
+    const result = await runCli(
+      ['inspect', bcpnn.dir, '--job', stored.key, '--file', out, ...TEST_MODEL_FLAGS],
+      bcpnn.root,
+    );
     expect(result.code).toBe(1);
     expect(result.stderr).toContain(
       `recallscape: not reproducible: re-running job ${stored.key} gave other metrics than its stored record`,
