@@ -49,7 +49,12 @@ function entryFor(sweep: LoadedSweep, blockKey: string, missing: readonly Planne
     key: blockKey,
     trials: missing.length,
     payload: packBatch(
-      { name: sweep.spec.name, hash: sweep.hash, rootSeed: sweep.spec.seed },
+      {
+        name: sweep.spec.name,
+        hash: sweep.hash,
+        rootSeed: sweep.spec.seed,
+        ...(sweep.spec.jobTimeoutMs === undefined ? {} : { timeoutMs: sweep.spec.jobTimeoutMs }),
+      },
       { id: sweep.model.id, version: sweep.model.version },
       missing,
     ),

@@ -1,7 +1,7 @@
 import { deflateRawSync, inflateRawSync } from 'node:zlib';
 import { z } from 'zod';
 import { jobSeed } from '../job-identity.js';
-import { JobKeySchema, type JobPayload, PointSchema, SeedSchema } from '../schemas/records.js';
+import { JobKeySchema, type JobPayload, JobPayloadSchema, PointSchema, SeedSchema } from '../schemas/records.js';
 import { SweepNameSchema } from '../sweep/name.js';
 import { MAX_BATCH_TRIALS } from './batch-size.js';
 
@@ -31,6 +31,8 @@ const BatchBodySchema = z
     modelVersion: z.string().max(50),
     rootSeed: SeedSchema,
     groups: z.array(GroupSchema).min(1).max(MAX_BATCH_TRIALS),
+    /** The sweep's jobTimeoutMs: every trial's time limit (shared/job-time-limit.ts), when the sweep sets one. */
+    timeoutMs: JobPayloadSchema.shape.timeoutMs,
   })
   .strict();
 type BatchBody = z.infer<typeof BatchBodySchema>;
@@ -62,7 +64,7 @@ export interface BatchTrial {
 
 /** Pack planned trials (in sweep order) into one queue job's payload. */
 export function packBatch(
-  sweep: { readonly name: string; readonly hash: string; readonly rootSeed: number },
+  sweep: { readonly name: string; readonly hash: string; readonly rootSeed: number; readonly timeoutMs?: number },
   model: { readonly id: string; readonly version: string },
   trials: readonly BatchTrial[],
 ): BatchPayload {
@@ -80,7 +82,13 @@ export function packBatch(
     }
     last = trial;
   }
-  const body: BatchBody = { model: model.id, modelVersion: model.version, rootSeed: sweep.rootSeed, groups };
+  const body: BatchBody = {
+    model: model.id,
+    modelVersion: model.version,
+    rootSeed: sweep.rootSeed,
+    groups,
+    ...(sweep.timeoutMs === undefined ? {} : { timeoutMs: sweep.timeoutMs }),
+  };
   return {
     v: 1,
     sweep: { name: sweep.name, hash: sweep.hash },
@@ -140,7 +148,7 @@ export function unpackBatch(data: unknown): UnpackedBatch {
       .join('; ');
     return { ok: false, message: `invalid batch payload: ${detail}` };
   }
-  const { model, modelVersion, rootSeed, groups } = body.data;
+  const { model, modelVersion, rootSeed, groups, timeoutMs } = body.data;
   const payloads: JobPayload[] = [];
   const keys = new Set<string>();
   for (const group of groups) {
@@ -158,6 +166,7 @@ export function unpackBatch(data: unknown): UnpackedBatch {
         replicate,
         seed: jobSeed(rootSeed, key),
         rootSeed,
+        ...(timeoutMs === undefined ? {} : { timeoutMs }),
       });
     }
   }

@@ -18,6 +18,7 @@ import { ResultStore } from '../../shared/store/result-store.js';
 import { expandJobs, type PlannedJob, toPayload } from '../../shared/sweep/expand.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { runJob } from '../../worker/run-job.js';
+import { useTestModels } from '../fixtures/test-models.js';
 import {
   deleteKeys,
   type Running,
@@ -31,6 +32,9 @@ import {
   uniqueQueue,
   waitFor,
 } from './helpers.js';
+
+// no-op and cpu-burn are test models (test/fixtures/models), not built in.
+await useTestModels();
 
 // Trials per queue job: sizing, the override, counts in trials against the in-memory queue, and a
 // batch killed half-way through a real worker process on a real Redis.

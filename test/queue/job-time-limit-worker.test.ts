@@ -63,12 +63,18 @@ function logLines(running: Running): Array<Record<string, unknown>> {
     .map((l) => JSON.parse(l) as Record<string, unknown>);
 }
 
-async function submit(out: string, name: string, text: string): Promise<void> {
+/**
+ * Submit with a given number of trials per queue job (one unless said): a size given is not calibrated
+ * (calibrating runs trials in the submitting process, where one that never ends would never end).
+ */
+async function submit(out: string, name: string, text: string, batch = 1): Promise<void> {
   const file = join(root, `${name}.yaml`);
   await writeFile(file, text);
   const result = await runCli([
     'submit',
     file,
+    '--batch',
+    String(batch),
     '--redis',
     SHARED_REDIS,
     '--out',
@@ -142,6 +148,40 @@ describe('a queue worker with jobs over their time limit', () => {
     await submit(out, 'after-limit', 'name: after-limit\nmodel: no-op\nseed: 1\nreplicates: 3\n');
     const after = await records(join(out, 'after-limit'), 3, 0);
     expect(after.failures).toEqual([]);
+  });
+
+  it("carries the sweep's jobTimeoutMs in queue jobs of several trials, and fails such a job for good", async () => {
+    const out = join(root, 'out');
+    worker(out);
+    // Trials in sweep order, two a job: both trials of forever=true in one job, both of forever=false in the other.
+    await submit(out, 'batched-limit', SPIN('batched-limit', 'jobTimeoutMs: 450\n'), 2);
+    const { results, failures } = await records(join(out, 'batched-limit'), 2, 2);
+    expect(results.map((r) => r['point'])).toEqual([{ forever: false }, { forever: false }]);
+    expect(failures.map((f) => [f['kind'], f['attempt'], f['message']])).toEqual([
+      [
+        'timeout',
+        1,
+        "the job ran over its time limit of 450 ms (the sweep's jobTimeoutMs); its thread was stopped and replaced",
+      ],
+      [
+        'timeout',
+        1,
+        "the job ran over its time limit of 450 ms (the sweep's jobTimeoutMs); its thread was stopped and replaced",
+      ],
+    ]);
+    const client = await inspector(SHARED_REDIS);
+    const q = new Queue(queue.name, { connection: client.duplicate(), prefix: queue.prefix });
+    try {
+      const failed = await waitFor('the batch to be failed', async () => {
+        const jobs = await q.getFailed();
+        return jobs.length === 1 ? jobs : undefined;
+      });
+      expect(failed[0]?.attemptsMade).toBe(1);
+      expect(failed[0]?.failedReason).toMatch(/^timeout: 2 of 2 trials failed; first: the job ran over/);
+    } finally {
+      await q.close();
+      client.disconnect();
+    }
   });
 
   it("uses the worker's --model-timeout over the model's own limit", async () => {
