@@ -158,10 +158,12 @@ export class QueueWorker {
    * parameters and replicate, seed from its key), run and recorded as a job
    * of its own, and the batch's verdict follows its worst trial. All done:
    * the records, packed, are the return value. A trial that may succeed on
-   * another try (exception, timeout, crash): the batch is retried whole, and
-   * the trials that did finish are run again; their records are equal and the
+   * another try (exception, crash): the batch is retried whole, and the
+   * trials that did finish are run again; their records are equal and the
    * store reads one per key. A trial that can never run (invalid,
-   * unsupported): the batch fails for good, every trial but that one recorded.
+   * unsupported) or ran over its time limit (it would again, see
+   * shared/job-time-limit.ts): the batch fails for good, every trial but
+   * those recorded.
    */
   private async handleBatch(job: ConsumedJob, folder: string): Promise<JobVerdict> {
     const batch = unpackBatch(job.data);
