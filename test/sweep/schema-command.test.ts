@@ -35,6 +35,7 @@ describe('recallscape schema', () => {
       'sampler',
       'report',
       'refine',
+      'batch',
       'jobTimeoutMs',
     ]);
     // The time limit of one job: whole milliseconds, up to a week (7 x 24 x 3600 x 1000, worked by hand).
