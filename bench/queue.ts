@@ -1,5 +1,15 @@
 /**
- * The queue path (submit -> Redis -> worker -> result shard -> gather) with
+ * Trials per queue job, measured (the default run, under about 3 minutes):
+ * for the no-op model and a tiny model, 1 and 4 worker processes, batching
+ * off (one trial a job) and on (sized from the calibrated cost), on a
+ * redis-server of its own: Redis CPU per trial (INFO cpu used_cpu_sys +
+ * used_cpu_user, and INFO commandstats, before and after), Redis bytes per
+ * queued trial and per finished trial not yet gathered (INFO used_memory,
+ * workers without a shared disk), and worker trials/s. Then bytes per
+ * finished trial with a shared disk (the jobs leave Redis as they complete).
+ *
+ * With RECALLSCAPE_BENCH_QUEUE_FULL=1 it also runs the earlier figures: the
+ * queue path (submit -> Redis -> worker -> result shard -> gather) with
  * the no-op model, so every millisecond measured is overhead:
  * - time to submit 100,000 jobs, and to submit the same sweep again;
  * - Redis memory per 1,000 waiting jobs;
@@ -21,6 +31,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { setTimeout as sleep } from 'node:timers/promises';
 import { fileURLToPath } from 'node:url';
+import { Queue } from 'bullmq';
 import { Redis } from 'ioredis';
 import { cancelSweep } from '../coordinator/cancel.js';
 import { gatherSweep } from '../coordinator/gather.js';
@@ -218,8 +229,130 @@ async function deleteQueue(client: Redis, prefix: string): Promise<void> {
   } while (cursor !== '0');
 }
 
+/** Trials per run of the batching matrix (RECALLSCAPE_BENCH_BATCH_TRIALS scales both). */
+const MATRIX_SCALE = Number(process.env['RECALLSCAPE_BENCH_BATCH_TRIALS'] ?? 1);
+const MATRIX = [
+  {
+    kind: 'no-op',
+    trials: Math.round(4_000 * MATRIX_SCALE),
+    text: (name: string, reps: number) =>
+      `name: ${name}\nmodel: no-op\nreplicates: ${reps}\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n`,
+  },
+  {
+    kind: 'tiny model (bcpnn 4 x 4)',
+    trials: Math.round(1_000 * MATRIX_SCALE),
+    text: (name: string, reps: number) =>
+      `name: ${name}\nmodel: bcpnn-sequences\nreplicates: ${reps}\nfixed: { hypercolumns: 4, minicolumns: 4, sequenceLength: 3, recallDuration: 200 }\nvary:\n  patternOverlap: { from: 0, to: 0.5, steps: 100 }\n`,
+  },
+] as const;
+
+interface RedisCost {
+  /** used_cpu_sys + used_cpu_user, seconds. */
+  readonly cpu: number;
+  /** Sum of usec over INFO commandstats, microseconds. */
+  readonly commandUsec: number;
+}
+
+async function redisCost(client: Redis): Promise<RedisCost> {
+  const cpu = await client.info('cpu');
+  const sys = Number(/used_cpu_sys:([\d.]+)/.exec(cpu)?.[1] ?? NaN);
+  const user = Number(/used_cpu_user:([\d.]+)/.exec(cpu)?.[1] ?? NaN);
+  const stats = await client.info('commandstats');
+  let usec = 0;
+  for (const m of stats.matchAll(/usec=(\d+),/g)) usec += Number(m[1]);
+  return { cpu: sys + user, commandUsec: usec };
+}
+
+/** Finished trials of a queue: the trial counts in the names of its completed jobs. */
+async function finishedTrials(client: Redis, prefix: string, queue: string): Promise<number> {
+  const ids = await client.zrange(`${prefix}:${queue}:completed`, 0, '-1');
+  if (ids.length === 0) return 0;
+  const pipeline = client.pipeline();
+  for (const id of ids) pipeline.hget(`${prefix}:${queue}:${id}`, 'name');
+  let total = 0;
+  for (const [, name] of (await pipeline.exec()) ?? []) total += Number(/#(\d+)$/.exec(String(name))?.[1] ?? 1);
+  return total;
+}
+
+async function batchRun(
+  url: string,
+  client: Redis,
+  root: string,
+  model: (typeof MATRIX)[number],
+  workers: number,
+  batching: boolean,
+  sharedDisk: boolean,
+): Promise<void> {
+  const tag = randomBytes(3).toString('hex');
+  const settings = queueSettings({ redis: url, queue: `bench-${tag}`, prefix: `rsb${tag}`, connectTimeout: '10000' });
+  const name = `batch-${tag}`;
+  const file = join(root, `${name}.yaml`);
+  await writeFile(file, model.text(name, Math.max(1, Math.round(model.trials / 100))));
+  const coordinator = join(root, `coord-${tag}`);
+  const procs = Array.from({ length: workers }, (_, i) =>
+    startWorker(url, settings, sharedDisk ? coordinator : join(root, `disk-${tag}-${i}`), 'auto'),
+  );
+  await Promise.all(procs.map((p) => p.ready));
+  const base = await usedMemory(client);
+  const before = await redisCost(client);
+  // Workers are running: jobs start as they arrive, so memory per queued trial is taken on a paused queue.
+  const controlClient = new Redis(url, { maxRetriesPerRequest: null });
+  const control = new Queue(settings.queue.name, { connection: controlClient, prefix: settings.queue.prefix });
+  await control.pause();
+  const t0 = performance.now();
+  const submitted = await submitSweep(file, coordinator, settings, undefined, batching ? {} : { batch: 1 });
+  const queued = await usedMemory(client);
+  await control.resume();
+  await control.close();
+  controlClient.disconnect();
+  const t1 = performance.now();
+  const trials = submitted.enqueued;
+  if (sharedDisk) {
+    const store = (await import('../shared/store/result-store.js')).ResultStore.open(join(coordinator, name));
+    while ((await store.completedKeys()).size < trials) await sleep(100);
+  } else {
+    while ((await finishedTrials(client, settings.queue.prefix, settings.queue.name)) < trials) await sleep(100);
+  }
+  const seconds = (performance.now() - t1) / 1000;
+  const after = await redisCost(client);
+  const finished = await usedMemory(client);
+  await Promise.all(procs.map((p) => stopWorker(p.child)));
+  const cpuMs = ((after.cpu - before.cpu) * 1000) / trials;
+  const cmdMs = (after.commandUsec - before.commandUsec) / 1000 / trials;
+  console.log(
+    `  ${model.kind.padEnd(24)} ${String(workers)} worker(s)  batch ${String(submitted.batchSize).padStart(4)}${sharedDisk ? ' shared disk' : ''}: ` +
+      `${(trials / seconds).toFixed(0).padStart(5)} trials/s; Redis CPU ${cpuMs.toFixed(4)} ms/trial (commands ${cmdMs.toFixed(4)}); ` +
+      `${((queued - base) / trials).toFixed(0)} B per queued trial, ${((finished - base) / trials).toFixed(0)} B per finished trial ${sharedDisk ? '(left as they completed)' : 'not gathered'}` +
+      ` [${trials} trials, submit ${((t1 - t0) / 1000).toFixed(1)} s]`,
+  );
+  await deleteQueue(client, settings.queue.prefix);
+}
+
 export async function run(): Promise<void> {
   await registerModelFolders([TEST_MODELS]);
+  const server = await startServer();
+  const root = await mkdtemp(join(tmpdir(), 'rs-bench-queue-'));
+  const client = new Redis(server.url, { maxRetriesPerRequest: 2 });
+  try {
+    console.log(
+      `  Redis: ${server.own ? 'a redis-server of its own' : 'the shared server (figures include other traffic)'}; workers run 1 thread each, prefetch auto`,
+    );
+    console.log('  trials per queue job, off (1) and on (sized from the calibrated cost, about 1.5 s a job):');
+    for (const model of MATRIX) {
+      for (const workers of [1, 4]) {
+        for (const batching of [false, true]) await batchRun(server.url, client, root, model, workers, batching, false);
+      }
+    }
+    await batchRun(server.url, client, root, MATRIX[0], 4, true, true);
+  } finally {
+    client.disconnect();
+    await server.stop();
+    await rm(root, { recursive: true, force: true });
+  }
+  if (process.env['RECALLSCAPE_BENCH_QUEUE_FULL'] === '1') await earlierFigures();
+}
+
+async function earlierFigures(): Promise<void> {
   const server = await startServer();
   const root = await mkdtemp(join(tmpdir(), 'rs-bench-queue-'));
   const client = new Redis(server.url, { maxRetriesPerRequest: 2 });
