@@ -64,7 +64,9 @@ describe('recallscape simulate', () => {
     expect(r.code).toBe(2);
     expect(r.stdout).toBe('');
     for (const field of ['noise', 'cueStrength', 'gapDuration', 'overlapStart', 'hypercolumns']) {
-      expect(r.stderr).toMatch(new RegExp(`^\\s+${field}: ${field} must be`, 'm'));
+      expect(r.stderr).toMatch(
+        new RegExp(`^recallscape: invalid parameters for model bcpnn-sequences: ${field}: ${field} must be`, 'm'),
+      );
     }
     expect(r.stderr).not.toMatch(/^\s+at /m);
   });
