@@ -44,7 +44,7 @@ describe('a job acknowledged by a worker under group commit', () => {
     const file = join(root, 'acks.yaml');
     await writeFile(
       file,
-      'name: ack-durable\nmodel: no-op\nseed: 9\nreplicates: 60\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n',
+      'name: ack-durable\nmodel: no-op\nseed: 9\nbatch: 1\nreplicates: 60\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n',
     );
     const out = join(root, 'results');
     const submitted = await runCli([

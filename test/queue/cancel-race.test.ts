@@ -51,7 +51,7 @@ describe('cancel while workers finish jobs', () => {
     // 6,000 no-op jobs: 60 values x 100 replicates.
     const values = Array.from({ length: 60 }, (_, i) => i);
     const sweep = parseSweepText(
-      `name: cancel-race\nmodel: no-op\nreplicates: 100\nvary:\n  value: { list: [${values.join(', ')}] }\n`,
+      `name: cancel-race\nmodel: no-op\nbatch: 1\nreplicates: 100\nvary:\n  value: { list: [${values.join(', ')}] }\n`,
       'inline',
     );
     const jobs = [...expandJobs(sweep)];
@@ -121,8 +121,8 @@ describe('cancel while workers finish jobs', () => {
   });
 
   it('leaves the jobs of another sweep in the same queue alone', async () => {
-    const mine = parseSweepText('name: cancel-mine\nmodel: no-op\nreplicates: 1500\n', 'inline');
-    const theirs = parseSweepText('name: cancel-theirs\nmodel: no-op\nreplicates: 2500\n', 'inline');
+    const mine = parseSweepText('name: cancel-mine\nmodel: no-op\nbatch: 1\nreplicates: 1500\n', 'inline');
+    const theirs = parseSweepText('name: cancel-theirs\nmodel: no-op\nbatch: 1\nreplicates: 2500\n', 'inline');
     const work = await openWorkQueue(settings);
     try {
       // Interleaved, so cancel has to pass over the other sweep's entries page after page.
@@ -150,7 +150,7 @@ describe('cancel while workers finish jobs', () => {
   });
 
   it('removes a job of the sweep whose stored data is not JSON, waiting or delayed', async () => {
-    const sweep = parseSweepText('name: cancel-raw\nmodel: no-op\nreplicates: 3\n', 'inline');
+    const sweep = parseSweepText('name: cancel-raw\nmodel: no-op\nbatch: 1\nreplicates: 3\n', 'inline');
     const [first, second, third] = [...expandJobs(sweep)];
     if (first === undefined || second === undefined || third === undefined) throw new Error('three jobs expected');
     const client = await inspector(SHARED_REDIS);

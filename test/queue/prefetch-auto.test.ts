@@ -82,13 +82,13 @@ async function serve(yaml: string): Promise<{ concurrency: number; completed: nu
 
 describe('a worker with prefetch auto', () => {
   it('holds extra jobs while jobs take milliseconds', async () => {
-    const result = await serve('name: short-jobs\nmodel: no-op\nseed: 1\nreplicates: 40\n');
+    const result = await serve('name: short-jobs\nmodel: no-op\nseed: 1\nbatch: 1\nreplicates: 40\n');
     expect(result.completed).toBe(40);
     expect(result.concurrency).toBe(1 + AUTO_PREFETCH_PER_THREAD);
   });
 
   it('holds none while jobs take longer than a tenth of a second', async () => {
-    const result = await serve('name: long-jobs\nmodel: cpu-burn\nseed: 1\nreplicates: 4\nfixed: { burnMs: 250 }\n');
+    const result = await serve('name: long-jobs\nmodel: cpu-burn\nseed: 1\nbatch: 1\nreplicates: 4\nfixed: { burnMs: 250 }\n');
     expect(result.completed).toBe(4);
     expect(result.concurrency).toBe(1);
   });

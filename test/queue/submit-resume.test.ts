@@ -39,7 +39,7 @@ describe('submit', () => {
     const file = join(root, 'limit.yaml');
     await writeFile(
       file,
-      'name: over-limit\nmodel: no-op\nseed: 1\nreplicates: 10\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n',
+      'name: over-limit\nmodel: no-op\nseed: 1\nbatch: 1\nreplicates: 10\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n',
     );
     const out = join(root, 'limit-results');
     const client = await inspector(SHARED_REDIS);
@@ -88,7 +88,7 @@ describe('submit', () => {
     const file = join(root, 'big.yaml');
     await writeFile(
       file,
-      'name: big-submit\nmodel: no-op\nseed: 1\nreplicates: 100\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n',
+      'name: big-submit\nmodel: no-op\nseed: 1\nbatch: 1\nreplicates: 100\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n',
     );
     const out = join(root, 'results');
     const client = await inspector(SHARED_REDIS);
