@@ -1,11 +1,10 @@
-import { jobSeed } from '../shared/job-identity.js';
 import type { TrialRange } from '../shared/refine/estimate.js';
 import { sweepTrialRange } from '../shared/refine/sweep-design.js';
 import type { Point } from '../shared/schemas/records.js';
 import { computedParams, countJobs, expandJobs, fullParams, resolveParams } from '../shared/sweep/expand.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { iteratePoints, pointsAtPositions, representativePositions, spreadPositions } from '../shared/sweep/points.js';
-import { runModelAsync } from '../worker/run-model.js';
+import { CalibrationRunner } from './calibration-runner.js';
 import { formatDuration } from './progress-display.js';
 
 /** Default ceiling on jobs per sweep; `--yes` or `--max-jobs` lifts it. */
@@ -126,32 +125,38 @@ export async function planSweep(sweep: LoadedSweep, options: PlanOptions): Promi
     let ops = 0;
     let jobs = 0;
     const failures: string[] = [];
-    // One untimed run first: the first call of a model includes compiling its
-    // code, which would inflate a small sample several times over.
+    let overLimit = false;
+    const runner = new CalibrationRunner(sweep);
     try {
-      // For a program model this also starts its process, which is not part of any job's cost.
-      await runModelAsync(
-        sweep.model,
-        fullParams(sweep, timingPoints[0]!),
-        jobSeed(sweep.spec.seed, 'calibration-warm-up'),
-        {
-          key: 'calibration-warm-up',
-        },
-      );
-    } catch {
-      // Reported below when the same point is timed.
+      // One untimed run first: the first call of a model includes compiling its
+      // code (for a program model, starting its process), which would inflate a small sample.
+      const warm = await runner.time(timingPoints[0]!);
+      if (!warm.ok && warm.overLimit) {
+        failures.push(warm.message);
+        overLimit = true;
+      } else
+        for (const point of timingPoints) {
+          const timed = await runner.time(point);
+          if (!timed.ok) {
+            failures.push(timed.message);
+            // Every further job could take as long: the estimate stays uncalibrated.
+            if (timed.overLimit) {
+              overLimit = true;
+              break;
+            }
+            continue;
+          }
+          seconds += timed.seconds;
+          ops += Number(sweep.model.cost(fullParams(sweep, point)));
+          jobs++;
+        }
+    } finally {
+      await runner.close();
     }
-    for (const [i, point] of timingPoints.entries()) {
-      const params = fullParams(sweep, point);
-      const seed = jobSeed(sweep.spec.seed, `calibration-${i}`);
-      try {
-        seconds += (await runModelAsync(sweep.model, params, seed, { key: `calibration-${i}` })).elapsedMs / 1000;
-      } catch (error) {
-        failures.push(error instanceof Error ? `${error.name}: ${error.message}` : String(error));
-        continue;
-      }
-      ops += Number(sweep.model.cost(params));
-      jobs++;
+    if (overLimit) {
+      jobs = 0;
+      seconds = 0;
+      ops = 0;
     }
     calibration = { jobs, seconds, ops, secondsPerOp: jobs > 0 && ops > 0 ? seconds / ops : null, failures };
   }

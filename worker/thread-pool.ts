@@ -61,6 +61,16 @@ export interface ThreadPoolOptions {
   readonly onTimeout?: (event: PoolTimeout) => void;
 }
 
+/**
+ * The compiled thread script beside this file. Run from the TypeScript
+ * sources (the test runner), this file has no compiled sibling: threads then
+ * use the build in dist/, which `npm test` makes first.
+ */
+function defaultEntry(): URL {
+  const here = import.meta.url;
+  return here.endsWith('.ts') ? new URL('../dist/worker/thread-entry.js', here) : new URL('./thread-entry.js', here);
+}
+
 /** Most threads one process may start; more is a typo, not a machine. */
 export const MAX_THREADS = 1024;
 
@@ -128,7 +138,7 @@ export class ThreadPool {
     }
     this.threads = options.threads;
     this.context = options.context;
-    this.entry = options.entry ?? new URL('./thread-entry.js', import.meta.url);
+    this.entry = options.entry ?? defaultEntry();
     this.resourceLimits = options.resourceLimits;
     this.optionMs = options.jobTimeoutMs ?? externalModelSettings().timeoutMs;
     this.provisional =
