@@ -135,7 +135,11 @@ export async function sweepProgress(
         }
       }
     }
-    queueSide = { ...(await queue.counts(sweep.hash)), finishedNotGathered };
+    const counts = await queue.counts(sweep.hash);
+    // A failed batch counts all its trials, also those whose record is on disk (a trial of it failed
+    // for good, the others finished): count as failed at most the trials no other state explains.
+    const unexplained = Math.max(0, planned - doneKeys.size - counts.waiting - counts.active - counts.delayed);
+    queueSide = { ...counts, failed: Math.min(counts.failed, unexplained), finishedNotGathered };
   }
   for (const key of doneKeys) failingKeys.delete(key);
   const finished = doneKeys.size;

@@ -215,7 +215,10 @@ describe('a sweep served by worker processes through Redis', () => {
   it('hands the job of a worker killed with SIGKILL to the other worker, with one distinct record per job and nothing left running', async () => {
     const file = join(root, 'slow.yaml');
     // Two jobs: each worker (one thread, no prefetch) takes one, so the survivor is idle when the killed job comes back.
-    await writeFile(file, 'name: kill-one\nmodel: cpu-burn\nseed: 5\nbatch: 1\nreplicates: 2\nfixed: { burnMs: 2500 }\n');
+    await writeFile(
+      file,
+      'name: kill-one\nmodel: cpu-burn\nseed: 5\nbatch: 1\nreplicates: 2\nfixed: { burnMs: 2500 }\n',
+    );
     const out = join(root, 'results');
     // The job of a dead worker comes back once its lock has expired (at most lock after the kill) and a
     // stall check ran (every stall-check), so here after about 6 + 3 = 9 s. (BullMQ marks active jobs as

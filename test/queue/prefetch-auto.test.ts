@@ -88,7 +88,9 @@ describe('a worker with prefetch auto', () => {
   });
 
   it('holds none while jobs take longer than a tenth of a second', async () => {
-    const result = await serve('name: long-jobs\nmodel: cpu-burn\nseed: 1\nbatch: 1\nreplicates: 4\nfixed: { burnMs: 250 }\n');
+    const result = await serve(
+      'name: long-jobs\nmodel: cpu-burn\nseed: 1\nbatch: 1\nreplicates: 4\nfixed: { burnMs: 250 }\n',
+    );
     expect(result.completed).toBe(4);
     expect(result.concurrency).toBe(1);
   });

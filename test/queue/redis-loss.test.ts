@@ -42,7 +42,10 @@ describe('a sweep whose Redis is emptied half-way', () => {
   it('is completed by requeue without running again any job that already has a result', async () => {
     const queue = uniqueQueue();
     const file = join(root, 'loss.yaml');
-    await writeFile(file, 'name: redis-loss\nmodel: cpu-burn\nseed: 2\nbatch: 1\nreplicates: 30\nfixed: { burnMs: 100 }\n');
+    await writeFile(
+      file,
+      'name: redis-loss\nmodel: cpu-burn\nseed: 2\nbatch: 1\nreplicates: 30\nfixed: { burnMs: 100 }\n',
+    );
     const out = join(root, 'results');
     const dir = join(out, 'redis-loss');
     const submitted = await runCli([
