@@ -174,6 +174,29 @@ describe('trials per queue job against the in-memory queue', () => {
   });
 });
 
+describe('a bad batch size', () => {
+  it('is refused with exit 2 naming the field or option, before Redis or the disk is touched', async () => {
+    const dir = await tempDir('batch-bad');
+    try {
+      const file = join(dir, 'bad.yaml');
+      await writeFile(file, 'name: bad-batch\nmodel: no-op\nbatch: 0\n');
+      const out = join(dir, 'out');
+      // An unreachable Redis: a refusal that needed it would fail differently (exit 1).
+      const inFile = await runCli(['submit', file, '--redis', 'redis://127.0.0.1:1', '--out', out]);
+      expect(inFile.code).toBe(2);
+      expect(inFile.stderr).toMatch(/batch: batch must be a whole number of trials per queue job from 1 to 1000/);
+      await writeFile(file, 'name: bad-batch\nmodel: no-op\n');
+      const option = await runCli(['submit', file, '--batch', '1001', '--redis', 'redis://127.0.0.1:1', '--out', out]);
+      expect(option.code).toBe(2);
+      expect(option.stderr).toMatch(/--batch: must be a whole number from 1 to 1000, got "1001"/);
+      expect(await readNdjson(out)).toEqual([]);
+      await expect(import('node:fs/promises').then((fs) => fs.access(out))).rejects.toThrow();
+    } finally {
+      await removeDir(dir);
+    }
+  });
+});
+
 // ---- a real worker killed inside a batch ----------------------------------------------------
 
 const FIXTURES = join(import.meta.dirname, '..', 'finish', 'fixtures');
