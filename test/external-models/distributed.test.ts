@@ -23,10 +23,12 @@ import { EXAMPLES, isRunning, modelEnv, removeDir, tempDir, waitUntil } from './
 // Every job must end with a result, and nothing the killed worker started
 // may keep running.
 
+// One trial per queue job, so both workers take jobs of both models (a batch could hold a whole sweep).
 const HOPFIELD = `name: queued-hopfield
 model: hopfield-py
 seed: 21
 replicates: 4
+batch: 1
 fixed: { units: 60 }
 vary:
   patterns: { list: [1, 5, 9, 13] }
@@ -36,6 +38,7 @@ const FORGETTING = `name: queued-forgetting
 model: forgetting-js
 seed: 22
 replicates: 4
+batch: 1
 vary:
   delayMs: { from: 0, to: 6000, steps: 7 }
   tauMs: { list: [1000, 2000, 4000] }

@@ -316,7 +316,8 @@ describe('a worker given jobs whose stored data it cannot read', () => {
 
 describe('requeue --failed', () => {
   it('gives a job that failed for good a fresh start, and progress counts its failure by kind', async () => {
-    const text = 'name: retry-me\nmodel: no-op\nreplicates: 3\n';
+    // One trial per queue job, so the counts below are counts of queue jobs too.
+    const text = 'name: retry-me\nmodel: no-op\nreplicates: 3\nbatch: 1\n';
     const sweep = parseSweepText(text, 'inline');
     const store = ResultStore.at(resultsRoot, 'retry-me');
     await store.prepare(sweep);
