@@ -1,7 +1,8 @@
 import { Command, type CommanderError } from 'commander';
 import { CODE_VERSION } from '../shared/version.js';
 import { EXIT_FAILURE, EXIT_INPUT, printError, usageErrorText } from './cli-support.js';
-import { COMMANDS, isCommandName, listCommands } from './command-list.js';
+import { COMMAND_LOADERS } from './command-list.js';
+import { isCommandName, listCommands } from './command-specs.js';
 
 // Output that cannot be written (a closed pipe, a full disk) ends the command
 // with one line instead of an unhandled 'error' event and a stack trace.
@@ -36,7 +37,7 @@ const program = new Command()
     process.exit(EXIT_INPUT);
   });
 
-if (first !== undefined) (await COMMANDS[first].load())(program);
+if (first !== undefined) (await COMMAND_LOADERS[first]())(program);
 else listCommands(program);
 
 await program.parseAsync(process.argv);

@@ -1,149 +1,28 @@
 import type { Command } from 'commander';
+import type { CommandName } from './command-specs.js';
 
 /** Adds one sub-command (its options and action) to the program. */
 export type Register = (program: Command) => void;
 
-interface CommandArgument {
-  /** As commander spells it: `<file>` (required) or `[root]` (optional). */
-  readonly name: string;
-  readonly description: string;
-  readonly default?: string;
-}
-
-export interface CommandEntry {
-  readonly summary: string;
-  readonly args: readonly CommandArgument[];
-  /** Loads the command's module (on demand: the queue commands alone take most of a second to load). */
-  readonly load: () => Promise<Register>;
-}
-
-const SWEEP_FILE: CommandArgument = { name: '<file>', description: 'sweep file (YAML or JSON)' };
-const SWEEP_DIR: CommandArgument = {
-  name: '<dir>',
-  description: 'the sweep folder, <results root>/<name> (the one holding sweep.json)',
-};
-
 /**
- * Every sub-command: its one-line summary and its arguments, the only place
- * either is written. The top-level help lists commands from here without
- * loading any command module; each command module names itself with
- * `defineCommand`, which reads the same entry. A new command is one entry.
+ * The module of every sub-command, loaded on demand (the queue commands alone
+ * take most of a second to load). Summaries and arguments are in
+ * `command-specs.ts`; a new command is one entry there and one here.
  */
-export const COMMANDS = {
-  demo: {
-    summary:
-      'Run the built-in demo sweep (recall of two overlapping sequences) on this machine, a couple of minutes on 2 cores',
-    args: [],
-    load: async () => (await import('./commands/demo.js')).registerDemo,
-  },
-  simulate: {
-    summary: 'Run one trial of a model and print its metrics as one JSON object',
-    args: [],
-    load: async () => (await import('./commands/simulate.js')).registerSimulate,
-  },
-  schema: {
-    summary: 'Print the JSON Schema of sweep files, with every model and its parameter names (for editors)',
-    args: [],
-    load: async () => (await import('./commands/schema.js')).registerSchema,
-  },
-  plan: {
-    summary:
-      'Check a sweep file and show its jobs, a sample of its points and an estimate of core-hours; runs nothing else',
-    args: [SWEEP_FILE],
-    load: async () => (await import('./commands/plan.js')).registerPlan,
-  },
-  run: {
-    summary: 'Run every job of a sweep file that has no result yet, on this machine; run it again to resume',
-    args: [SWEEP_FILE],
-    load: async () => (await import('./commands/run.js')).registerRun,
-  },
-  submit: {
-    summary: 'Queue every job of a sweep that has no result yet, for workers on any machine; safe to repeat',
-    args: [SWEEP_FILE],
-    load: async () => (await import('./commands/submit.js')).registerSubmit,
-  },
-  worker: {
-    summary: 'Serve queued jobs of any sweep until stopped (Ctrl-C or SIGTERM finishes running jobs first)',
-    args: [],
-    load: async () => (await import('./commands/worker.js')).registerWorker,
-  },
-  progress: {
-    summary:
-      'How far a sweep is: finished jobs from the result files, waiting/running/failed jobs from the queue, rate and time left',
-    args: [SWEEP_DIR],
-    load: async () => (await import('./commands/progress.js')).registerProgress,
-  },
-  finish: {
-    summary:
-      'Follow a queued sweep to its end: gather results from Redis as they come, queue again what Redis lost, build the report',
-    args: [{ name: '<dir>', description: 'the sweep folder, <results root>/<name>, as submit made it' }],
-    load: async () => (await import('./commands/finish.js')).registerFinish,
-  },
-  requeue: {
-    summary:
-      'Resume a sweep: queue every job that has no result and is not in the queue (also after Redis lost everything)',
-    args: [SWEEP_DIR],
-    load: async () => (await import('./commands/requeue.js')).registerRequeue,
-  },
-  gather: {
-    summary:
-      'Copy records of finished jobs held in Redis into this folder, then free them in Redis (for workers without a shared disk)',
-    args: [SWEEP_DIR],
-    load: async () => (await import('./commands/gather.js')).registerGather,
-  },
-  cancel: {
-    summary:
-      "Remove the sweep's waiting jobs from the queue; running jobs finish and keep their results (`requeue` resumes)",
-    args: [SWEEP_DIR],
-    load: async () => (await import('./commands/cancel.js')).registerCancel,
-  },
-  report: {
-    summary:
-      'Summarise a sweep folder into tables, phase diagrams and index.html (in DIR/report/); works while the sweep is still running',
-    args: [SWEEP_DIR],
-    load: async () => (await import('./commands/report.js')).registerReport,
-  },
-  inspect: {
-    summary:
-      'Re-run one job of a sweep deterministically, check it against its stored result (exit 1 if they differ), and draw its recall trace as SVG',
-    args: [SWEEP_DIR],
-    load: async () => (await import('./commands/inspect.js')).registerInspect,
-  },
-  sweeps: {
-    summary:
-      'List the sweeps under a results root: jobs done of planned, failing jobs, last activity, and whether the report is up to date',
-    args: [
-      {
-        name: '[root]',
-        description: 'results root (the --out folder of run and submit), or one sweep folder',
-        default: 'results',
-      },
-    ],
-    load: async () => (await import('./commands/sweeps.js')).registerSweeps,
-  },
-} as const satisfies Record<string, CommandEntry>;
-
-export type CommandName = keyof typeof COMMANDS;
-
-export function isCommandName(word: string): word is CommandName {
-  return Object.hasOwn(COMMANDS, word);
-}
-
-/** `program.command(name)` with the summary and arguments of its entry in COMMANDS. */
-export function defineCommand(program: Command, name: CommandName): Command {
-  const entry: CommandEntry = COMMANDS[name];
-  const command = program.command(name).description(entry.summary);
-  for (const arg of entry.args) {
-    if (arg.default === undefined) command.argument(arg.name, arg.description);
-    else command.argument(arg.name, arg.description, arg.default);
-  }
-  return command;
-}
-
-/** The top-level listing: every command with its arguments and summary, no module loaded. */
-export function listCommands(program: Command): void {
-  for (const [name, entry] of Object.entries(COMMANDS) as [string, CommandEntry][]) {
-    const args = entry.args.map((a) => a.name).join(' ');
-    program.command(args === '' ? name : `${name} ${args}`).description(entry.summary);
-  }
-}
+export const COMMAND_LOADERS: Readonly<Record<CommandName, () => Promise<Register>>> = {
+  demo: async () => (await import('./commands/demo.js')).registerDemo,
+  simulate: async () => (await import('./commands/simulate.js')).registerSimulate,
+  schema: async () => (await import('./commands/schema.js')).registerSchema,
+  plan: async () => (await import('./commands/plan.js')).registerPlan,
+  run: async () => (await import('./commands/run.js')).registerRun,
+  submit: async () => (await import('./commands/submit.js')).registerSubmit,
+  worker: async () => (await import('./commands/worker.js')).registerWorker,
+  progress: async () => (await import('./commands/progress.js')).registerProgress,
+  finish: async () => (await import('./commands/finish.js')).registerFinish,
+  requeue: async () => (await import('./commands/requeue.js')).registerRequeue,
+  gather: async () => (await import('./commands/gather.js')).registerGather,
+  cancel: async () => (await import('./commands/cancel.js')).registerCancel,
+  report: async () => (await import('./commands/report.js')).registerReport,
+  inspect: async () => (await import('./commands/inspect.js')).registerInspect,
+  sweeps: async () => (await import('./commands/sweeps.js')).registerSweeps,
+};

@@ -1,7 +1,7 @@
 import type { Command } from 'commander';
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { demoSweep } from '../demo-sweep.js';
 import { executeSweep, shellWord } from './run.js';
 

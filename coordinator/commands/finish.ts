@@ -4,7 +4,7 @@ import { openWorkQueue } from '../../shared/queue/backends.js';
 import { DEFAULT_QUEUE_NAME, DEFAULT_QUEUE_PREFIX } from '../../shared/queue/queue-target.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action, EXIT_FAILURE, EXIT_OK, parseWholeNumber } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { completedPercent } from '../completed-percent.js';
 import { describeMissing, type MissingJobs } from '../finish-missing.js';
 import { buildClosingReport } from '../finish-report.js';

@@ -1,7 +1,7 @@
 import type { Command } from 'commander';
 import { createLogger } from '../../shared/logger.js';
 import { action } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { gatherSweep } from '../gather.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings } from '../queue-session.js';

@@ -1,6 +1,6 @@
 import type { Command } from 'commander';
 import { action, EXIT_FAILURE, printError } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { inspectJob } from '../summarize/inspect-job.js';
 

@@ -3,7 +3,7 @@ import { ResultStore } from '../../shared/store/result-store.js';
 import type { LoadedSweep } from '../../shared/sweep/load.js';
 import { defaultThreadCount } from '../../worker/thread-pool.js';
 import { action, parseWholeNumber } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import {
   DEFAULT_JOB_LIMIT,

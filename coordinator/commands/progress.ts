@@ -6,7 +6,7 @@ import type { WorkQueue } from '../../shared/queue/work-queue.js';
 import { REDIS_URL_ENV } from '../../shared/redis-url.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { action } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { completedPercent } from '../completed-percent.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { plannedNow } from '../planned-jobs.js';

@@ -2,7 +2,7 @@ import type { Command } from 'commander';
 import { InputError } from '../../shared/errors.js';
 import { MAX_BINS, MIN_BINS } from '../../shared/sweep/bins.js';
 import { action, parseWholeNumber, printWarning } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { completedPercent } from '../completed-percent.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { displayPath } from '../shell-text.js';

@@ -3,7 +3,7 @@ import { writeFileAtomic } from '../../shared/atomic-write.js';
 import { InputError } from '../../shared/errors.js';
 import { sweepJsonSchema } from '../../shared/sweep/json-schema.js';
 import { action } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 
 interface SchemaOptions {
   readonly file?: string;

@@ -8,7 +8,7 @@ import { isParamName, unknownParamIssue } from '../../shared/param-names.js';
 import { MAX_SEED } from '../../shared/random.js';
 import { runModelAsync } from '../../worker/run-model.js';
 import { action, repeatable } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 
 interface SimulateOptions extends ModelCliOptions {

@@ -3,7 +3,7 @@ import { createLogger } from '../../shared/logger.js';
 import { MAX_BATCH_TRIALS, TARGET_BATCH_SECONDS } from '../../shared/queue/batch-size.js';
 import { REDIS_URL_ENV } from '../../shared/redis-url.js';
 import { action, parseWholeNumber } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { type ModelCliOptions, modelsOption, useModelOptions } from '../model-options.js';
 import { DEFAULT_JOB_LIMIT, loadSweepForCommand } from '../plan-sweep.js';
 import { addQueueOptions, type QueueCliOptions, queueFlags, queueSettings } from '../queue-session.js';

@@ -1,6 +1,6 @@
 import type { Command } from 'commander';
 import { action } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { completedPercent } from '../completed-percent.js';
 import { listSweeps, type SweepEntry } from '../list-sweeps.js';
 import { displayPath, shellWord } from '../shell-text.js';

@@ -4,7 +4,7 @@ import { DEFAULT_LOCK_MS, DEFAULT_MAX_STALLED, DEFAULT_STALL_CHECK_MS } from '..
 import { defaultThreadCount, MAX_THREADS } from '../../worker/thread-pool.js';
 import { runWorkerProcess } from '../../worker/worker-process.js';
 import { action, parseWholeNumber } from '../cli-support.js';
-import { defineCommand } from '../command-list.js';
+import { defineCommand } from '../command-specs.js';
 import { type ModelCliOptions, modelsOption, modelTimeoutOption, useModelOptions } from '../model-options.js';
 import { addQueueOptions, type QueueCliOptions, queueSettings, WORKER_CONNECT_TIMEOUT_MS } from '../queue-session.js';
 
