@@ -1,52 +1,27 @@
 import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
-import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { keyOfJobId } from '../../shared/queue/bullmq/job-ids.js';
 import { ResultStore } from '../../shared/store/result-store.js';
 import { TEST_MODEL_FLAGS, useTestModels } from '../fixtures/test-models.js';
-import {
-  deleteKeys,
-  inspector,
-  type Running,
-  removeDir,
-  runCli,
-  SHARED_REDIS,
-  startCli,
-  stopCli,
-  tempDir,
-  uniqueQueue,
-  waitFor,
-} from './helpers.js';
+import { inspector, runCli, SHARED_REDIS, startCli, useQueueSandbox, waitFor } from './helpers.js';
 
 // no-op and cpu-burn are test models (test/fixtures/models), not built in.
 await useTestModels();
 
 // Integration: real worker processes (built dist/) against the shared Redis on 127.0.0.1:6379.
 
-let root = '';
-let queue = uniqueQueue();
-const started: Running[] = [];
-
-beforeEach(async () => {
-  root = await tempDir('ack-durable');
-  queue = uniqueQueue();
-});
-
-afterEach(async () => {
-  for (const running of started.splice(0)) await stopCli(running, 5_000);
-  await deleteKeys(SHARED_REDIS, queue.prefix);
-  await removeDir(root);
-});
+const box = useQueueSandbox('ack-durable');
 
 describe('a job acknowledged by a worker under group commit', () => {
   it('has its record on disk when the worker is killed with SIGKILL right after the acknowledgement, over several kills', async () => {
     // 600 no-op jobs: each worker gets through a few before it is killed.
-    const file = join(root, 'acks.yaml');
+    const file = join(box.root, 'acks.yaml');
     await writeFile(
       file,
       'name: ack-durable\nmodel: no-op\nseed: 9\nbatch: 1\nreplicates: 60\nvary:\n  value: { from: 1, to: 10, steps: 10 }\n',
     );
-    const out = join(root, 'results');
+    const out = join(box.root, 'results');
     const submitted = await runCli([
       'submit',
       file,
@@ -54,23 +29,23 @@ describe('a job acknowledged by a worker under group commit', () => {
       SHARED_REDIS,
       '--out',
       out,
-      ...queue.flags,
+      ...box.queue.flags,
       ...TEST_MODEL_FLAGS,
     ]);
     expect(submitted.code, submitted.stderr).toBe(0);
     const client = await inspector(SHARED_REDIS);
-    const completedKey = `${queue.prefix}:${queue.name}:completed`;
+    const completedKey = `${box.queue.prefix}:${box.queue.name}:completed`;
     const store = ResultStore.at(out, 'ack-durable');
     try {
       let acknowledged = 0;
       for (let round = 1; round <= 3; round++) {
         const worker = startCli(
-          ['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...queue.flags, ...TEST_MODEL_FLAGS],
+          ['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...box.queue.flags, ...TEST_MODEL_FLAGS],
           {
             RECALLSCAPE_LOG_LEVEL: 'warn',
           },
         );
-        started.push(worker);
+        box.started.push(worker);
         // The moment Redis shows a job of this worker completed, kill it.
         await waitFor(
           `a job acknowledged in round ${round}`,

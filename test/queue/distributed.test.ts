@@ -1,50 +1,45 @@
 import { readdir, readFile, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { Queue } from 'bullmq';
-import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { TEST_MODEL_FLAGS } from '../fixtures/test-models.js';
 import {
   childrenOf,
-  deleteKeys,
   inspector,
   isAlive,
   type Running,
   readNdjson,
-  removeDir,
   runCli,
   SHARED_REDIS,
   startCli,
   stopCli,
-  tempDir,
-  uniqueQueue,
+  useQueueSandbox,
   waitFor,
 } from './helpers.js';
 
 // Integration: real CLI processes (built dist/) against the shared Redis on 127.0.0.1:6379.
 
-let root = '';
-let queue = uniqueQueue();
-const started: Running[] = [];
-
-beforeEach(async () => {
-  root = await tempDir('dist');
-  queue = uniqueQueue();
-});
-
-afterEach(async () => {
-  for (const running of started.splice(0)) await stopCli(running, 5_000);
-  await deleteKeys(SHARED_REDIS, queue.prefix);
-  await removeDir(root);
-});
+const box = useQueueSandbox('dist');
 
 function worker(out: string, extra: string[] = []): Running {
   const running = startCli(
-    ['worker', '--redis', SHARED_REDIS, '--threads', '1', '--out', out, ...queue.flags, ...extra, ...TEST_MODEL_FLAGS],
+    [
+      'worker',
+      '--redis',
+      SHARED_REDIS,
+      '--threads',
+      '1',
+      '--out',
+      out,
+      ...box.queue.flags,
+      ...extra,
+      ...TEST_MODEL_FLAGS,
+    ],
     {
       RECALLSCAPE_LOG_LEVEL: 'debug',
     },
   );
-  started.push(running);
+  box.started.push(running);
   return running;
 }
 
@@ -92,13 +87,13 @@ function essence(r: Record<string, unknown>): string {
 
 describe('a sweep served by worker processes through Redis', () => {
   it('gives, over two workers (one on the shared disk, one gathered through Redis), exactly the records of the embedded run', async () => {
-    const file = join(root, 'burn.yaml');
+    const file = join(box.root, 'burn.yaml');
     await writeFile(
       file,
       'name: two-workers\nmodel: cpu-burn\nseed: 11\nbatch: 1\nreplicates: 8\nfixed: { burnMs: 60 }\nvary:\n  successRate: { from: 0, to: 1, steps: 5 }\n',
     );
-    const coordinatorRoot = join(root, 'coordinator');
-    const elsewhere = join(root, 'other-machine');
+    const coordinatorRoot = join(box.root, 'coordinator');
+    const elsewhere = join(box.root, 'other-machine');
     // Worker A writes where the coordinator reads (shared disk); worker B on a disk of its own.
     const a = worker(coordinatorRoot, ['--name', 'shared-disk']);
     const b = worker(elsewhere, ['--name', 'own-disk', '--prefetch', '2']);
@@ -112,7 +107,7 @@ describe('a sweep served by worker processes through Redis', () => {
       '--out',
       coordinatorRoot,
       '--json',
-      ...queue.flags,
+      ...box.queue.flags,
       ...TEST_MODEL_FLAGS,
     ]);
     expect(submitted.code, submitted.stderr).toBe(0);
@@ -120,13 +115,13 @@ describe('a sweep served by worker processes through Redis', () => {
     expect(counts).toMatchObject({ planned: 40, done: 0, enqueued: 40 });
 
     const dir = join(coordinatorRoot, 'two-workers');
-    const progressArgs = ['progress', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags, ...TEST_MODEL_FLAGS];
+    const progressArgs = ['progress', dir, '--redis', SHARED_REDIS, '--json', ...box.queue.flags, ...TEST_MODEL_FLAGS];
     // Poll Redis directly (cheaper than a CLI process per look): finished jobs sit in the completed set.
     const client = await inspector(SHARED_REDIS);
     try {
       await waitFor(
         'all 40 jobs to finish',
-        async () => ((await client.zcard(`${queue.prefix}:${queue.name}:completed`)) === 40 ? true : undefined),
+        async () => ((await client.zcard(`${box.queue.prefix}:${box.queue.name}:completed`)) === 40 ? true : undefined),
         90_000,
         250,
       );
@@ -158,7 +153,7 @@ describe('a sweep served by worker processes through Redis', () => {
       '--redis',
       SHARED_REDIS,
       '--json',
-      ...queue.flags,
+      ...box.queue.flags,
       ...TEST_MODEL_FLAGS,
     ]);
     expect(gathered.code, gathered.stderr).toBe(0);
@@ -168,7 +163,8 @@ describe('a sweep served by worker processes through Redis', () => {
     expect(g['removed']).toBe(40);
     // Gathering again finds nothing left in Redis and copies nothing twice.
     const again = JSON.parse(
-      (await runCli(['gather', dir, '--redis', SHARED_REDIS, '--json', ...queue.flags, ...TEST_MODEL_FLAGS])).stdout,
+      (await runCli(['gather', dir, '--redis', SHARED_REDIS, '--json', ...box.queue.flags, ...TEST_MODEL_FLAGS]))
+        .stdout,
     ) as Record<string, number>;
     expect(again).toMatchObject({ found: 0, copied: 0 });
 
@@ -179,7 +175,7 @@ describe('a sweep served by worker processes through Redis', () => {
       '--follow',
       '--redis',
       SHARED_REDIS,
-      ...queue.flags,
+      ...box.queue.flags,
       ...TEST_MODEL_FLAGS,
     ]);
     expect(followed.code, followed.stderr).toBe(0);
@@ -192,13 +188,13 @@ describe('a sweep served by worker processes through Redis', () => {
       'run',
       file,
       '--out',
-      join(root, 'embedded'),
+      join(box.root, 'embedded'),
       '--threads',
       '1',
       ...TEST_MODEL_FLAGS,
     ]);
     expect(embedded.code, embedded.stderr).toBe(0);
-    const reference = byKey(await records(join(root, 'embedded'), 'two-workers'));
+    const reference = byKey(await records(join(box.root, 'embedded'), 'two-workers'));
     const distributed = byKey(await records(coordinatorRoot, 'two-workers'));
     expect(reference.size).toBe(40);
     expect([...distributed.keys()].sort()).toEqual([...reference.keys()].sort());
@@ -213,13 +209,13 @@ describe('a sweep served by worker processes through Redis', () => {
   });
 
   it('hands the job of a worker killed with SIGKILL to the other worker, with one distinct record per job and nothing left running', async () => {
-    const file = join(root, 'slow.yaml');
+    const file = join(box.root, 'slow.yaml');
     // Two jobs: each worker (one thread, no prefetch) takes one, so the survivor is idle when the killed job comes back.
     await writeFile(
       file,
       'name: kill-one\nmodel: cpu-burn\nseed: 5\nbatch: 1\nreplicates: 2\nfixed: { burnMs: 2500 }\n',
     );
-    const out = join(root, 'results');
+    const out = join(box.root, 'results');
     // The job of a dead worker comes back once its lock has expired (at most lock after the kill) and a
     // stall check ran (every stall-check), so here after about 6 + 3 = 9 s. (BullMQ marks active jobs as
     // stalling at one check and moves those whose lock is gone at the next; the worker renews every
@@ -235,7 +231,7 @@ describe('a sweep served by worker processes through Redis', () => {
       SHARED_REDIS,
       '--out',
       out,
-      ...queue.flags,
+      ...box.queue.flags,
       ...TEST_MODEL_FLAGS,
     ]);
     expect(submitted.code, submitted.stderr).toBe(0);
@@ -290,9 +286,9 @@ describe('a sweep served by worker processes through Redis', () => {
   });
 
   it('runs a job that lasts longer than the lock duration exactly once', async () => {
-    const file = join(root, 'long.yaml');
+    const file = join(box.root, 'long.yaml');
     await writeFile(file, 'name: long-job\nmodel: cpu-burn\nseed: 9\nfixed: { burnMs: 8000 }\n');
-    const out = join(root, 'results');
+    const out = join(box.root, 'results');
     // An 8 s job under a 3 s lock with a stall check every 1.5 s: without renewal from a free main
     // thread the job would be taken away (and run again) after at most 4.5 s. The margins are wide
     // enough that a loaded machine delaying a renewal by a second does not fake a stall.
@@ -314,11 +310,14 @@ describe('a sweep served by worker processes through Redis', () => {
       '--out',
       out,
       '--json',
-      ...queue.flags,
+      ...box.queue.flags,
       ...TEST_MODEL_FLAGS,
     ]);
     expect(submitted.code, submitted.stderr).toBe(0);
-    const producer = new Queue(queue.name, { connection: { host: '127.0.0.1', port: 6379 }, prefix: queue.prefix });
+    const producer = new Queue(box.queue.name, {
+      connection: { host: '127.0.0.1', port: 6379 },
+      prefix: box.queue.prefix,
+    });
     try {
       const [id] = await waitFor(
         'the long job to be queued',

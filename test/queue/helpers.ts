@@ -6,6 +6,7 @@ import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { setTimeout as sleep } from 'node:timers/promises';
 import { Redis } from 'ioredis';
+import { afterEach, beforeEach } from 'vitest';
 
 /** The repository root (tests run the built CLI from here). */
 export const ROOT = resolve(import.meta.dirname, '..', '..');
@@ -237,4 +238,31 @@ export async function childrenOf(pid: number): Promise<number[]> {
     }
   }
   return out;
+}
+
+/** What a queue test needs for each test: a scratch folder, a queue of its own and the processes it started. */
+export interface QueueSandbox {
+  readonly root: string;
+  readonly queue: ReturnType<typeof uniqueQueue>;
+  /** Push every started process here: each is stopped after its test. */
+  readonly started: Running[];
+}
+
+/**
+ * Give every test of the file a fresh folder and queue, and afterwards stop
+ * the processes it started, delete the queue's keys and remove the folder.
+ * Call at the top level of a test file; read the fields inside tests.
+ */
+export function useQueueSandbox(label: string, stopGraceMs = 5_000): QueueSandbox {
+  const box = { root: '', queue: uniqueQueue(), started: [] as Running[] };
+  beforeEach(async () => {
+    box.root = await tempDir(label);
+    box.queue = uniqueQueue();
+  });
+  afterEach(async () => {
+    for (const running of box.started.splice(0)) await stopCli(running, stopGraceMs);
+    await deleteKeys(SHARED_REDIS, box.queue.prefix);
+    await removeDir(box.root);
+  });
+  return box;
 }

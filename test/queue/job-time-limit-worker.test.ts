@@ -1,40 +1,23 @@
 import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { Queue } from 'bullmq';
-import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { TEST_MODEL_FLAGS } from '../fixtures/test-models.js';
 import {
-  deleteKeys,
   inspector,
   type Running,
   readNdjson,
-  removeDir,
   runCli,
   SHARED_REDIS,
   startCli,
-  stopCli,
-  tempDir,
-  uniqueQueue,
+  useQueueSandbox,
   waitFor,
 } from './helpers.js';
 
 // Job time limits in a real worker process (built dist/) serving the shared Redis on 127.0.0.1:6379.
 // spin (test/fixtures/models) never returns when forever is true: only the limit ends those jobs.
 
-let root = '';
-let queue = uniqueQueue();
-const started: Running[] = [];
-
-beforeEach(async () => {
-  root = await tempDir('time-limit');
-  queue = uniqueQueue();
-});
-
-afterEach(async () => {
-  for (const running of started.splice(0)) await stopCli(running, 10_000);
-  await deleteKeys(SHARED_REDIS, queue.prefix);
-  await removeDir(root);
-});
+const box = useQueueSandbox('time-limit', 10_000);
 
 /** A worker with one thread: every job after a timeout runs on the replacement thread. */
 function worker(out: string, extra: string[] = []): Running {
@@ -46,11 +29,11 @@ function worker(out: string, extra: string[] = []): Running {
     '1',
     '--out',
     out,
-    ...queue.flags,
+    ...box.queue.flags,
     ...extra,
     ...TEST_MODEL_FLAGS,
   ]);
-  started.push(running);
+  box.started.push(running);
   return running;
 }
 
@@ -68,7 +51,7 @@ function logLines(running: Running): Array<Record<string, unknown>> {
  * (calibrating runs trials in the submitting process, where one that never ends would never end).
  */
 async function submit(out: string, name: string, text: string, batch = 1): Promise<void> {
-  const file = join(root, `${name}.yaml`);
+  const file = join(box.root, `${name}.yaml`);
   await writeFile(file, text);
   const result = await runCli([
     'submit',
@@ -79,7 +62,7 @@ async function submit(out: string, name: string, text: string, batch = 1): Promi
     SHARED_REDIS,
     '--out',
     out,
-    ...queue.flags,
+    ...box.queue.flags,
     ...TEST_MODEL_FLAGS,
   ]);
   expect(result.code, result.stderr).toBe(0);
@@ -105,7 +88,7 @@ const SPIN = (name: string, extra = ''): string =>
 
 describe('a queue worker with jobs over their time limit', () => {
   it("fails them as timeout after the sweep's jobTimeoutMs, once each, and keeps serving on a replaced thread", async () => {
-    const out = join(root, 'out');
+    const out = join(box.root, 'out');
     const running = worker(out);
     await submit(out, 'queued-limit', SPIN('queued-limit', 'jobTimeoutMs: 500\n'));
     const { results, failures } = await records(join(out, 'queued-limit'), 2, 2);
@@ -119,7 +102,7 @@ describe('a queue worker with jobs over their time limit', () => {
     }
     // Not retried: each failed job used one attempt of the four submit allows, and nothing is waiting.
     const client = await inspector(SHARED_REDIS);
-    const q = new Queue(queue.name, { connection: client.duplicate(), prefix: queue.prefix });
+    const q = new Queue(box.queue.name, { connection: client.duplicate(), prefix: box.queue.prefix });
     try {
       const failed = await q.getFailed();
       expect(failed).toHaveLength(2);
@@ -151,7 +134,7 @@ describe('a queue worker with jobs over their time limit', () => {
   });
 
   it("carries the sweep's jobTimeoutMs in queue jobs of several trials, and fails such a job for good", async () => {
-    const out = join(root, 'out');
+    const out = join(box.root, 'out');
     worker(out);
     // Trials in sweep order, two a job: both trials of forever=true in one job, both of forever=false in the other.
     await submit(out, 'batched-limit', SPIN('batched-limit', 'jobTimeoutMs: 450\n'), 2);
@@ -170,7 +153,7 @@ describe('a queue worker with jobs over their time limit', () => {
       ],
     ]);
     const client = await inspector(SHARED_REDIS);
-    const q = new Queue(queue.name, { connection: client.duplicate(), prefix: queue.prefix });
+    const q = new Queue(box.queue.name, { connection: client.duplicate(), prefix: box.queue.prefix });
     try {
       const failed = await waitFor('the batch to be failed', async () => {
         const jobs = await q.getFailed();
@@ -185,7 +168,7 @@ describe('a queue worker with jobs over their time limit', () => {
   });
 
   it("uses the worker's --model-timeout over the model's own limit", async () => {
-    const out = join(root, 'out');
+    const out = join(box.root, 'out');
     worker(out, ['--model-timeout', '400']);
     // No jobTimeoutMs: without the option these jobs would run for spin's own limit, ten minutes.
     await submit(out, 'option-limit', SPIN('option-limit'));
