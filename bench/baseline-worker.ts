@@ -7,6 +7,7 @@
 import { randomBytes } from 'node:crypto';
 import { queueSettings } from '../coordinator/queue-session.js';
 import { createLogger } from '../shared/logger.js';
+import { registerModelsFromOption } from '../shared/models/external/model-folders.js';
 import { openWorkConsumer } from '../shared/queue/backends.js';
 import { DEFAULT_LOCK_MS, DEFAULT_MAX_STALLED, DEFAULT_STALL_CHECK_MS } from '../shared/queue/work-consumer.js';
 import { newWriterId } from '../shared/store/result-store.js';
@@ -20,6 +21,8 @@ if (redis === undefined || queue === undefined || prefix === undefined || out ==
   throw new Error('usage: baseline-worker.js redis-url queue prefix out-dir threads');
 }
 const threads = Number(threadsText ?? '1');
+// The test models (no-op) come from RECALLSCAPE_MODELS, as for `recallscape worker`.
+await registerModelsFromOption(undefined);
 const settings = queueSettings({ redis, queue, prefix, connectTimeout: '10000' });
 const writer = newWriterId('baseline');
 const run = randomBytes(6).toString('hex');

@@ -1,15 +1,16 @@
 /**
- * Tiny jobs (the no-op model) through the embedded runner and a queue
- * worker, before group commit (bench/commit-baseline.ts) and now, measured
- * alternately in one process so that the machine's load hits both alike.
- * Figures per run: jobs/s from the first to the last finished job, and CPU
- * time per job (whole process, every thread) over the jobs after the first
- * 5%, which leaves start-up out. CPU time is the figure to trust on a shared
+ * Tiny trials (the no-op model, and a 4 x 4 network) through the embedded
+ * runner and a queue worker, before group commit (bench/commit-baseline.ts)
+ * and now, one trial a job and batched, measured alternately in one process
+ * so that the machine's load hits all alike. Figures per run: trials/s from
+ * the first to the last finished trial, and CPU time per trial (whole
+ * process, every thread) over the trials after the first 5%, which leaves
+ * start-up out. CPU time is the figure to trust on a shared
  * machine: wall time also counts waiting for a core.
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
-import { mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
+import { mkdtemp, readdir, readFile, rm, stat, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Writable } from 'node:stream';
@@ -20,12 +21,15 @@ import { queueSettings } from '../coordinator/queue-session.js';
 import { runSweep } from '../coordinator/run-sweep.js';
 import { submitSweep } from '../coordinator/submit-sweep.js';
 import { createLogger } from '../shared/logger.js';
+import { MODELS_ENV, registerModelFolders } from '../shared/models/external/model-folders.js';
 import { countJobs } from '../shared/sweep/expand.js';
 import { parseSweepText } from '../shared/sweep/load.js';
 import { runEmbeddedBaseline } from './commit-baseline.js';
 
 const CLI = fileURLToPath(new URL('../../bin/recallscape.js', import.meta.url));
 const BASELINE_WORKER = fileURLToPath(new URL('./baseline-worker.js', import.meta.url));
+/** The no-op model is a test model (a module model): this process and the workers load it. */
+const TEST_MODELS = fileURLToPath(new URL('../../test/fixtures/models', import.meta.url));
 /** Jobs before the CPU window opens: thread and module start-up stay outside it. */
 const WARM_SHARE = 0.05;
 /** Linux clock ticks per second (getconf CLK_TCK), the unit of /proc/<pid>/stat times. */
@@ -122,7 +126,54 @@ async function processCpuMs(pid: number): Promise<number> {
   return ((Number(fields[11]) + Number(fields[12])) * 1000) / CLOCK_TICKS;
 }
 
-/** One worker process (`worker --threads n`, or the old one) serving `jobs` no-op jobs submitted before it starts. */
+/** Trials a run's records hold, and the first and last finishedAt among them (ms). */
+async function readRecords(dir: string): Promise<{ count: number; first: number; last: number; bytes: number }> {
+  let count = 0;
+  let first = Number.POSITIVE_INFINITY;
+  let last = Number.NEGATIVE_INFINITY;
+  let bytes = 0;
+  for (const name of await readdir(dir).catch(() => [] as string[])) {
+    if (!name.endsWith('.ndjson')) continue;
+    const text = await readFile(join(dir, name), 'utf8');
+    bytes += Buffer.byteLength(text);
+    for (const line of text.split('\n')) {
+      if (line === '') continue;
+      const at = Date.parse((JSON.parse(line) as { finishedAt: string }).finishedAt);
+      count++;
+      if (at < first) first = at;
+      if (at > last) last = at;
+    }
+  }
+  return { count, first, last, bytes };
+}
+
+/** Bytes of the records written so far (one stat per shard file: cheap enough to poll). */
+async function recordBytes(dir: string): Promise<number> {
+  let bytes = 0;
+  for (const name of await readdir(dir).catch(() => [] as string[])) {
+    if (name.endsWith('.ndjson')) bytes += (await stat(join(dir, name))).size;
+  }
+  return bytes;
+}
+
+/** Jobs not yet finished: waiting, running or held, delayed, prioritised. */
+async function unfinished(client: Redis, base: string): Promise<number> {
+  const [wait, active, delayed, prioritized] = await Promise.all([
+    client.llen(`${base}:wait`),
+    client.llen(`${base}:active`),
+    client.zcard(`${base}:delayed`),
+    client.zcard(`${base}:prioritized`),
+  ]);
+  return wait + active + delayed + prioritized;
+}
+
+/**
+ * One worker process (`worker --threads n`, or the old one) serving `jobs`
+ * tiny trials submitted before it starts, on the coordinator's disk (the
+ * default set-up of the docs), `batch` trials per queue job ('auto': sized
+ * by submit, as users get it). Finished trials are counted from the records
+ * on disk, so jobs that leave Redis as they complete are counted too.
+ */
 export async function queueTiny(
   version: Version,
   threads: number,
@@ -130,7 +181,7 @@ export async function queueTiny(
   url: string,
   client: Redis,
   kind: JobKind = 'no-op',
-  workerOptions: readonly string[] = [],
+  batch: number | 'auto' = 1,
 ): Promise<TinyRun> {
   const root = await mkdtemp(join(tmpdir(), 'rs-bench-tinyq-'));
   const tag = randomBytes(3).toString('hex');
@@ -145,8 +196,9 @@ export async function queueTiny(
   const planned = countJobs(parseSweepText(yaml, 'tiny (bench)'));
   await writeFile(file, yaml);
   const out = join(root, 'out');
+  const resultsDir = join(out, 'bench-tiny', 'results');
   try {
-    await submitSweep(file, out, settings, undefined);
+    await submitSweep(file, out, settings, undefined, batch === 'auto' ? {} : { batch });
     const args =
       version === 'before'
         ? [BASELINE_WORKER, url, settings.queue.name, settings.queue.prefix, out, String(threads)]
@@ -163,11 +215,10 @@ export async function queueTiny(
             settings.queue.name,
             '--prefix',
             settings.queue.prefix,
-            ...workerOptions,
           ];
     const child = spawn(process.execPath, args, {
       stdio: ['ignore', 'ignore', 'pipe'],
-      env: { ...process.env, RECALLSCAPE_LOG_LEVEL: 'info' },
+      env: { ...process.env, RECALLSCAPE_LOG_LEVEL: 'info', [MODELS_ENV]: TEST_MODELS },
     });
     const closed = new Promise((done) => child.once('close', done));
     try {
@@ -180,27 +231,25 @@ export async function queueTiny(
         child.once('close', () => fail(new Error(`worker exited early: ${text.slice(-500)}`)));
       });
       const pid = child.pid as number;
-      const completedKey = `${settings.queue.prefix}:${settings.queue.name}:completed`;
-      const warm = Math.ceil(planned * WARM_SHARE);
-      let warmCount = 0;
-      let warmCpu = 0;
+      const base = `${settings.queue.prefix}:${settings.queue.name}`;
+      // (bytes written, CPU so far) every 20 ms: the CPU window opens at the
+      // sample where 5% of the final bytes were written.
+      const samples: { bytes: number; cpu: number }[] = [];
       for (;;) {
-        const done = await client.zcard(completedKey);
-        if (warmCount === 0 && done >= warm) {
-          warmCpu = await processCpuMs(pid);
-          warmCount = done;
-        }
-        if (done >= planned) break;
+        samples.push({ bytes: await recordBytes(resultsDir), cpu: await processCpuMs(pid) });
+        if ((await unfinished(client, base)) === 0) break;
         await sleep(20);
       }
-      const cpu = (await processCpuMs(pid)) - warmCpu;
-      // finishedOn scores: the rate between the first and last finished job.
-      const first = Number((await client.zrange(completedKey, 0, '0', 'WITHSCORES'))[1]);
-      const last = Number((await client.zrange(completedKey, -1, '-1', 'WITHSCORES'))[1]);
+      const end = { bytes: await recordBytes(resultsDir), cpu: await processCpuMs(pid) };
+      const records = await readRecords(resultsDir);
+      if (records.count !== planned) throw new Error(`${records.count} of ${planned} trials recorded`);
+      const warm = samples.find((s) => s.bytes >= end.bytes * WARM_SHARE) ?? end;
+      const perRecord = records.bytes / records.count;
+      const windowTrials = records.count - warm.bytes / perRecord;
       return {
         jobs: planned,
-        rate: (planned - 1) / ((last - first) / 1000),
-        cpuMsPerJob: cpu / (planned - warmCount),
+        rate: (planned - 1) / ((records.last - records.first) / 1000),
+        cpuMsPerJob: windowTrials > 0 ? (end.cpu - warm.cpu) / windowTrials : Number.NaN,
       };
     } finally {
       child.kill('SIGTERM');
@@ -254,8 +303,8 @@ export async function sideBySide(
     const m = { rate: median(rates), cpuMsPerJob: median(cpus) };
     medians.set(label, m);
     console.log(
-      `  ${label.padEnd(34)} ${m.rate.toFixed(0).padStart(5)} jobs/s (${Math.min(...rates).toFixed(0)}-${Math.max(...rates).toFixed(0)}), ` +
-        `CPU ${m.cpuMsPerJob.toFixed(3)} ms/job (${Math.min(...cpus).toFixed(3)}-${Math.max(...cpus).toFixed(3)}) = ${(1000 / m.cpuMsPerJob).toFixed(0)} jobs per CPU-second`,
+      `  ${label.padEnd(36)} ${m.rate.toFixed(0).padStart(5)} trials/s (${Math.min(...rates).toFixed(0)}-${Math.max(...rates).toFixed(0)}), ` +
+        `CPU ${m.cpuMsPerJob.toFixed(3)} ms/trial (${Math.min(...cpus).toFixed(3)}-${Math.max(...cpus).toFixed(3)}) = ${(1000 / m.cpuMsPerJob).toFixed(0)} trials per CPU-second`,
     );
   }
   return medians;
@@ -273,28 +322,37 @@ type Figures = { rate: number; cpuMsPerJob: number };
 const ratio = (a: number, b: number): string => (a / b).toFixed(2);
 
 /**
- * Group commit, before and now, side by side in this run, for both kinds of
- * tiny job and 1 and 2 threads. With `queue` (a Redis URL and a client on
- * it): one worker process and the embedded runner with as many threads,
- * each before and now; without it, the embedded runner alone.
+ * Tiny trials before group commit and now, side by side in this run, for
+ * both kinds of tiny job and 1 and 2 threads. With `queue` (a Redis URL and
+ * a client on it): one worker process with one trial a job (before and now)
+ * and with batches sized as submit sizes them, and the embedded runner with
+ * as many threads (before and now); without it, the embedded runner alone.
  */
 export async function compareTinyJobs(queue: { url: string; client: Redis } | undefined): Promise<void> {
+  await registerModelFolders([TEST_MODELS]);
   const indent = queue === undefined ? '' : '  ';
   for (const kind of ['no-op', 'tiny model'] as const) {
     const jobs = jobsPerRun(kind);
     for (const threads of [1, 2]) {
       console.log(
-        `${indent}tiny jobs (${KIND_HELP[kind]}), ${jobs} per run, ${threads} thread${threads === 1 ? '' : 's'}` +
-          `${queue === undefined ? '' : ' in one worker process and in the embedded runner'}; median (range) of ${ROUNDS} rounds, before and now alternating:`,
+        `${indent}tiny trials (${KIND_HELP[kind]}), ${jobs} per run, ${threads} thread${threads === 1 ? '' : 's'}` +
+          `${queue === undefined ? '' : ' in one worker process and in the embedded runner'}; median (range) of ${ROUNDS} rounds, contenders alternating:`,
       );
       const contenders: Contender[] = [];
       if (queue !== undefined)
         contenders.push(
           {
             label: 'queue worker before group commit',
-            measure: () => queueTiny('before', threads, jobs, queue.url, queue.client, kind),
+            measure: () => queueTiny('before', threads, jobs, queue.url, queue.client, kind, 1),
           },
-          { label: 'queue worker now', measure: () => queueTiny('now', threads, jobs, queue.url, queue.client, kind) },
+          {
+            label: 'queue worker now, 1 trial a job',
+            measure: () => queueTiny('now', threads, jobs, queue.url, queue.client, kind, 1),
+          },
+          {
+            label: 'queue worker now, batched (auto)',
+            measure: () => queueTiny('now', threads, jobs, queue.url, queue.client, kind, 'auto'),
+          },
         );
       contenders.push(
         { label: 'embedded before group commit', measure: () => embeddedTiny('before', threads, jobs, kind) },
@@ -305,16 +363,19 @@ export async function compareTinyJobs(queue: { url: string; client: Redis } | un
       const eb = get('embedded before group commit');
       const en = get('embedded now');
       const lines = [
-        `embedded now / before: ${ratio(en.rate, eb.rate)}x jobs/s, ${ratio(eb.cpuMsPerJob, en.cpuMsPerJob)}x jobs per CPU-second`,
+        `embedded now / before: ${ratio(en.rate, eb.rate)}x trials/s, ${ratio(eb.cpuMsPerJob, en.cpuMsPerJob)}x trials per CPU-second (goal >= 2x)`,
       ];
       if (queue !== undefined) {
         const qb = get('queue worker before group commit');
-        const qn = get('queue worker now');
+        const q1 = get('queue worker now, 1 trial a job');
+        const qn = get('queue worker now, batched (auto)');
         lines.unshift(
-          `queue worker now / before: ${ratio(qn.rate, qb.rate)}x jobs/s, ${ratio(qb.cpuMsPerJob, qn.cpuMsPerJob)}x jobs per CPU-second (goal >= 2x)`,
+          `queue worker batched now / before: ${ratio(qn.rate, qb.rate)}x trials/s, ${ratio(qb.cpuMsPerJob, qn.cpuMsPerJob)}x trials per CPU-second (goal >= 2x)`,
+          `queue worker 1 trial a job now / before: ${ratio(q1.rate, qb.rate)}x trials/s, ${ratio(qb.cpuMsPerJob, q1.cpuMsPerJob)}x trials per CPU-second`,
         );
         lines.push(
-          `queue worker now / embedded now: ${ratio(qn.rate, en.rate)} in jobs/s, ${ratio(en.cpuMsPerJob, qn.cpuMsPerJob)} in jobs per CPU-second (goal 0.9 to 1.1)`,
+          `queue worker batched / embedded now: ${ratio(qn.rate, en.rate)} in trials/s, ${ratio(en.cpuMsPerJob, qn.cpuMsPerJob)} in trials per CPU-second (goal 0.9 to 1.1)`,
+          `queue worker 1 trial a job / embedded now: ${ratio(q1.rate, en.rate)} in trials/s, ${ratio(en.cpuMsPerJob, q1.cpuMsPerJob)} in trials per CPU-second`,
         );
       }
       for (const line of lines) console.log(`${indent}  ${line}`);
