@@ -1,6 +1,6 @@
 /**
- * Body of one pool thread: receives job payloads, runs them with runAnyJob() and
- * posts the outcome back. runAnyJob never throws for bad payloads or simulation
+ * Body of one pool thread: receives job payloads, runs them one after another
+ * with runAnyJob() and posts each outcome back. runAnyJob never throws for bad payloads or simulation
  * errors, so anything that escapes here is a real crash of the thread, which
  * the pool turns into a `crashed` outcome.
  */
@@ -8,6 +8,7 @@ import { parentPort, workerData } from 'node:worker_threads';
 import type { JobTimeLimit } from '../shared/job-time-limit.js';
 import { runAnyJob } from './run-job.js';
 import type { ThreadData, ThreadReply, ThreadRequest } from './thread-pool.js';
+import { isWithdrawn } from './withdrawn-range.js';
 
 if (parentPort === null) {
   throw new Error('thread-entry.js must be started as a worker thread by ThreadPool');
@@ -21,18 +22,37 @@ if (data.models !== undefined && data.models.folders.length > 0) {
   await applyExternalModelSettings(data.models);
 }
 
-port.on('message', (request: ThreadRequest) => {
+const withdrawn = new BigInt64Array(data.withdrawn);
+/** Requests not started yet: the pool hands a thread its next job while one runs. */
+const inbox: ThreadRequest[] = [];
+let running = false;
+
+/** Runs the requests one after another (a job may complete asynchronously: a model in another process). */
+function next(): void {
+  if (running) return;
+  const request = inbox.shift();
+  if (request === undefined) return;
+  if (isWithdrawn(withdrawn, request.id)) {
+    port.postMessage({ type: 'withdrawn', id: request.id } satisfies ThreadReply);
+    next();
+    return;
+  }
+  running = true;
   // The pool timed this job from the provisional limit; a job with another limit says so before it runs.
   const onLimit = (limit: JobTimeLimit): void => {
     if (limit.threadMs === data.provisional.threadMs) return;
-    const reply: ThreadReply = { type: 'limit', id: request.id, limit };
-    port.postMessage(reply);
+    port.postMessage({ type: 'limit', id: request.id, limit } satisfies ThreadReply);
   };
-  // Resolved either way: a job may complete asynchronously (a model in another process).
   void Promise.resolve(runAnyJob(request.payload, context, { optionMs: data.optionMs, onLimit })).then((outcome) => {
-    const reply: ThreadReply = { type: 'outcome', id: request.id, outcome };
-    port.postMessage(reply);
+    port.postMessage({ type: 'outcome', id: request.id, outcome } satisfies ThreadReply);
+    running = false;
+    next();
   });
+}
+
+port.on('message', (request: ThreadRequest) => {
+  inbox.push(request);
+  next();
 });
 
 // Tells the pool this thread loaded; a thread that dies before this is a

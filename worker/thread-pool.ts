@@ -6,6 +6,7 @@ import { findModel } from '../shared/models/registry.js';
 import { type JobPayload, JobPayloadSchema } from '../shared/schemas/records.js';
 import { PoolBroken, PoolClosed, PoolTerminated } from './pool-errors.js';
 import type { JobContext, JobOutcome } from './run-job.js';
+import { newWithdrawnRange, withdrawRange } from './withdrawn-range.js';
 
 /** Main thread -> pool thread: run this payload. */
 export interface ThreadRequest {
@@ -16,12 +17,14 @@ export interface ThreadRequest {
 /**
  * Pool thread -> main thread: loaded and listening; the time limit of request
  * `id` when it is not the pool's provisional one (sent before the job runs);
- * or the outcome of request `id`.
+ * the outcome of request `id`; or request `id` not started because the pool
+ * took it back (withdrawQueued) while it waited in the thread.
  */
 export type ThreadReply =
   | { readonly type: 'ready' }
   | { readonly type: 'limit'; readonly id: number; readonly limit: JobTimeLimit }
-  | { readonly type: 'outcome'; readonly id: number; readonly outcome: JobOutcome };
+  | { readonly type: 'outcome'; readonly id: number; readonly outcome: JobOutcome }
+  | { readonly type: 'withdrawn'; readonly id: number };
 
 /** What every pool thread gets as workerData. */
 export interface ThreadData {
@@ -31,6 +34,8 @@ export interface ThreadData {
   readonly optionMs: number | undefined;
   /** The limit the pool starts every job's clock with; a thread reports a job whose limit differs. */
   readonly provisional: JobTimeLimit;
+  /** This thread's range of request ids taken back (withdrawn-range.ts). */
+  readonly withdrawn: SharedArrayBuffer;
 }
 
 /** A job stopped at its time limit, for the caller's log. */
@@ -59,7 +64,16 @@ export interface ThreadPoolOptions {
   readonly jobTimeoutMs?: number;
   /** Called when a job ran over its limit and its thread was replaced. */
   readonly onTimeout?: (event: PoolTimeout) => void;
+  /**
+   * Jobs handed to a loaded thread at once: the running one and those waiting
+   * in the thread's inbox (default 2), so a thread starts its next job the
+   * moment it finishes one instead of waiting for the main thread's turn.
+   */
+  readonly pipeline?: number;
 }
+
+/** Jobs in a thread at once by default: the running one and the next. */
+export const DEFAULT_PIPELINE = 2;
 
 /**
  * The compiled thread script beside this file. Run from the TypeScript
@@ -91,10 +105,13 @@ interface Task {
 
 interface Slot {
   readonly worker: Worker;
-  task: Task | undefined;
+  /** Jobs handed to the thread, in order: the first runs (or is about to), the others wait in the thread. */
+  readonly tasks: Task[];
+  /** Shared with the thread: the range of request ids it must not start. */
+  readonly withdrawn: BigInt64Array;
   ready: boolean;
   dead: boolean;
-  /** The running job's clock: when it was handed to the ready thread (performance.now()). */
+  /** The first job's clock: when it was handed to the ready thread, or when the job before it ended (performance.now()). */
   startedAt: number;
   /** The running job's limit as its thread reported it; undefined while it is the provisional one. */
   limit: JobTimeLimit | undefined;
@@ -102,15 +119,19 @@ interface Slot {
 }
 
 /**
- * A fixed set of worker threads that run jobs with runJob(). Jobs wait in a
- * FIFO queue while every thread is busy; callers keep that queue short (the
- * sweep runner feeds a bounded number of jobs). Idle threads are unref'd so a
- * forgotten pool never keeps a process alive.
+ * A fixed set of worker threads that run jobs with runJob(). Each loaded
+ * thread holds up to `pipeline` jobs (the running one and the next), so it
+ * never waits for the main thread between two jobs; beyond that, jobs wait in
+ * a FIFO queue; callers keep that queue short (the sweep runner feeds a
+ * bounded number of jobs). Idle threads are unref'd so a forgotten pool never
+ * keeps a process alive.
  *
  * Every job has a time limit (shared/job-time-limit.ts). Its clock starts
- * when a loaded thread gets the job, at the provisional limit (the option, or
- * the floor); the thread, which has the checked parameters, reports a
- * different limit before the job runs. A job over its limit cannot be stopped
+ * when a loaded thread gets the job, or when the job before it in that thread
+ * ends, at the provisional limit (the option, or the floor); the thread,
+ * which has the checked parameters, reports a different limit before the job
+ * runs. A job that waits in a thread whose job dies (crash, time limit) never
+ * started: it goes back to the front of the queue. A job over its limit cannot be stopped
  * inside its thread (a simulation loop does not yield), so the thread is
  * terminated and a new one started; the job fails as `timeout`, and jobs on
  * other threads run on.
@@ -130,6 +151,7 @@ export class ThreadPool {
   private readonly optionMs: number | undefined;
   private readonly provisional: JobTimeLimit;
   private readonly onTimeoutHook: ((event: PoolTimeout) => void) | undefined;
+  private readonly pipeline: number;
   private timedOut = 0;
 
   constructor(options: ThreadPoolOptions) {
@@ -146,6 +168,11 @@ export class ThreadPool {
         ? { ms: FLOOR_MS, source: 'estimate', threadMs: FLOOR_MS }
         : { ms: this.optionMs, source: 'option', threadMs: this.optionMs };
     this.onTimeoutHook = options.onTimeout;
+    const pipeline = options.pipeline ?? DEFAULT_PIPELINE;
+    if (!Number.isInteger(pipeline) || pipeline < 1 || pipeline > 64) {
+      throw new RangeError(`pipeline must be a whole number from 1 to 64, got ${String(pipeline)}`);
+    }
+    this.pipeline = pipeline;
     for (let i = 0; i < this.threads; i++) this.spawn();
   }
 
@@ -171,13 +198,20 @@ export class ThreadPool {
 
   /**
    * Take back the jobs waiting for a thread (none of them started): their
-   * run() promises reject with PoolClosed. Running jobs are untouched.
+   * run() promises reject with PoolClosed, at once for those in the queue and
+   * when the thread says so for those waiting in a thread (one that started
+   * in the meantime runs and resolves as usual). Running jobs are untouched.
    */
   withdrawQueued(): void {
     const waiting = this.queue;
     this.queue = [];
-    const error = new PoolClosed('taken back before it started');
-    for (const task of waiting) task.reject(error);
+    for (const task of waiting) task.reject(new PoolClosed('taken back before it started'));
+    for (const slot of this.slots) {
+      const first = slot.tasks[1];
+      const last = slot.tasks[slot.tasks.length - 1];
+      if (first === undefined || last === undefined || !slot.ready) continue;
+      withdrawRange(slot.withdrawn, first.id, last.id);
+    }
     this.notifyIfDrained();
   }
 
@@ -201,10 +235,7 @@ export class ThreadPool {
     const error = new PoolTerminated('the thread pool was terminated');
     const abandoned = this.queue;
     this.queue = [];
-    for (const slot of this.slots) {
-      if (slot.task !== undefined) abandoned.push(slot.task);
-      slot.task = undefined;
-    }
+    for (const slot of this.slots) abandoned.push(...slot.tasks.splice(0));
     for (const task of abandoned) task.reject(error);
     this.notifyIfDrained();
     await this.stopThreads();
@@ -221,7 +252,9 @@ export class ThreadPool {
   }
 
   private spawn(): void {
+    const withdrawn = newWithdrawnRange();
     const workerData: ThreadData = {
+      withdrawn,
       context: this.context,
       // Model folders the main thread registered: every thread registers them too.
       models: externalModelSettings(),
@@ -234,7 +267,8 @@ export class ThreadPool {
     });
     const slot: Slot = {
       worker,
-      task: undefined,
+      tasks: [],
+      withdrawn: new BigInt64Array(withdrawn),
       ready: false,
       dead: false,
       startedAt: 0,
@@ -244,9 +278,19 @@ export class ThreadPool {
     this.slots.add(slot);
     worker.unref();
     worker.on('message', (reply: ThreadReply) => this.onReply(slot, reply));
-    // 'error' (uncaught exception, out of memory) is followed by 'exit'; the first one wins.
-    worker.on('error', (error: Error) => this.onDeath(slot, `${error.name}: ${error.message}`));
-    worker.on('exit', (code: number) => this.onDeath(slot, `the thread exited with code ${code}`));
+    // 'error' (uncaught exception, out of memory) is followed by 'exit', which
+    // comes after every message the thread posted: the death is handled there,
+    // so outcomes of jobs that finished before it are not lost.
+    let error: Error | undefined;
+    worker.on('error', (e: Error) => {
+      error ??= e;
+    });
+    worker.on('exit', (code: number) =>
+      this.onDeath(
+        slot,
+        error === undefined ? `the thread exited with code ${code}` : `${error.name}: ${error.message}`,
+      ),
+    );
   }
 
   private onReply(slot: Slot, reply: ThreadReply): void {
@@ -255,21 +299,45 @@ export class ThreadPool {
       slot.ready = true;
       this.startupFailures = 0;
       // A job handed over while the thread was loading: its clock starts now.
-      if (slot.task !== undefined) this.startClock(slot);
+      if (slot.tasks.length > 0) this.startClock(slot);
+      this.dispatch();
       return;
     }
-    const task = slot.task;
+    if (reply.type === 'withdrawn') {
+      const at = slot.tasks.findIndex((t) => t.id === reply.id);
+      if (at < 0) return;
+      const [task] = slot.tasks.splice(at, 1);
+      task?.reject(new PoolClosed('taken back before it started'));
+      this.nextInSlot(slot, at === 0);
+      this.notifyIfDrained();
+      return;
+    }
+    // A thread runs its jobs in order, so a limit or an outcome is the first job's.
+    const task = slot.tasks[0];
     if (task === undefined || task.id !== reply.id) return;
     if (reply.type === 'limit') {
       slot.limit = reply.limit;
       this.armTimer(slot, slot.startedAt + reply.limit.threadMs - performance.now());
       return;
     }
-    this.stopClock(slot);
-    slot.task = undefined;
-    slot.worker.unref();
+    slot.tasks.shift();
+    this.nextInSlot(slot, true);
     task.resolve(reply.outcome);
     this.dispatch();
+  }
+
+  /** After the first job of `slot` left (`first`) or a later one: the clock moves to the new first job, if any. */
+  private nextInSlot(slot: Slot, first: boolean): void {
+    if (!first) return;
+    this.stopClock(slot);
+    if (slot.tasks.length > 0) this.startClock(slot);
+    else slot.worker.unref();
+  }
+
+  /** The jobs waiting behind the first one in a thread that is gone: none started, so they go back to the front of the queue. */
+  private requeueWaiting(slot: Slot): void {
+    const waiting = slot.tasks.splice(1);
+    if (waiting.length > 0) this.queue.unshift(...waiting);
   }
 
   private onDeath(slot: Slot, reason: string): void {
@@ -277,12 +345,12 @@ export class ThreadPool {
     slot.dead = true;
     this.stopClock(slot);
     this.slots.delete(slot);
-    const task = slot.task;
-    slot.task = undefined;
+    const tasks = slot.tasks.splice(0);
+    const task = tasks[0];
     if (!slot.ready) {
       // The thread never loaded (missing build, broken module): its job never
       // ran, so it goes back to the front of the queue.
-      if (task !== undefined) this.queue.unshift(task);
+      this.queue.unshift(...tasks);
       this.startupFailures++;
       if (this.startupFailures >= MAX_STARTUP_FAILURES) {
         this.breakDown(
@@ -291,6 +359,9 @@ export class ThreadPool {
         return;
       }
     } else if (task !== undefined) {
+      // Outcomes the thread posted before it died came first ('exit' follows
+      // them), so the first job is the one that was running; the others never started.
+      this.queue.unshift(...tasks.slice(1));
       const parsed = JobPayloadSchema.safeParse(task.payload);
       task.resolve({
         ok: false,
@@ -312,8 +383,7 @@ export class ThreadPool {
     this.queue = [];
     for (const task of waiting) task.reject(error);
     for (const slot of this.slots) {
-      if (slot.task !== undefined) slot.task.reject(error);
-      slot.task = undefined;
+      for (const task of slot.tasks.splice(0)) task.reject(error);
       this.stopClock(slot);
     }
     this.notifyIfDrained();
@@ -343,7 +413,7 @@ export class ThreadPool {
 
   private onClock(slot: Slot): void {
     slot.timer = undefined;
-    const task = slot.task;
+    const task = slot.tasks[0];
     if (slot.dead || task === undefined) return;
     const limit = slot.limit ?? this.provisionalLimitOf(task.payload);
     const left = slot.startedAt + limit.threadMs - performance.now();
@@ -354,7 +424,8 @@ export class ThreadPool {
     // Over time: the thread cannot be interrupted, so it goes, and the job with it.
     slot.dead = true;
     this.slots.delete(slot);
-    slot.task = undefined;
+    this.requeueWaiting(slot);
+    slot.tasks.length = 0;
     void slot.worker.terminate();
     this.timedOut++;
     const parsed = JobPayloadSchema.safeParse(task.payload);
@@ -391,26 +462,27 @@ export class ThreadPool {
   private dispatch(): void {
     for (;;) {
       if (this.queue.length === 0) break;
+      // The thread with the fewest jobs that has room: idle threads first, then
+      // the next job for each busy one. A thread still loading takes one job.
       let idle: Slot | undefined;
       for (const slot of this.slots) {
-        if (slot.task === undefined && !slot.dead) {
-          idle = slot;
-          break;
-        }
+        if (slot.dead || slot.tasks.length >= (slot.ready ? this.pipeline : 1)) continue;
+        if (idle === undefined || slot.tasks.length < idle.tasks.length) idle = slot;
+        if (slot.tasks.length === 0) break;
       }
       if (idle === undefined) break;
       const task = this.queue.shift() as Task;
-      idle.task = task;
+      idle.tasks.push(task);
       idle.worker.ref();
       try {
         const request: ThreadRequest = { id: task.id, payload: task.payload };
         idle.worker.postMessage(request);
-        // A thread still loading starts the clock when it is ready.
-        if (idle.ready) this.startClock(idle);
+        // A thread still loading starts the clock when it is ready; a job behind another when that one ends.
+        if (idle.ready && idle.tasks.length === 1) this.startClock(idle);
       } catch (error) {
         // The payload cannot be copied to a thread (e.g. it holds a function).
-        idle.task = undefined;
-        idle.worker.unref();
+        idle.tasks.pop();
+        if (idle.tasks.length === 0) idle.worker.unref();
         const message = error instanceof Error ? error.message : String(error);
         task.resolve({
           ok: false,
@@ -427,7 +499,7 @@ export class ThreadPool {
   private notifyIfDrained(): void {
     if (this.drainWaiters.length === 0) return;
     if (this.queue.length > 0) return;
-    for (const slot of this.slots) if (slot.task !== undefined) return;
+    for (const slot of this.slots) if (slot.tasks.length > 0) return;
     const waiters = this.drainWaiters;
     this.drainWaiters = [];
     for (const resolve of waiters) resolve();
