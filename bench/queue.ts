@@ -8,6 +8,10 @@
  * workers without a shared disk), and worker trials/s. Then bytes per
  * finished trial with a shared disk (the jobs leave Redis as they complete).
  *
+ * Then tiny trials, one worker process against the embedded runner
+ * (bench/tiny-jobs.ts). RECALLSCAPE_BENCH_QUEUE_ONLY=matrix or =tiny runs
+ * only the one part.
+ *
  * With RECALLSCAPE_BENCH_QUEUE_FULL=1 it also runs the earlier figures: the
  * queue path (submit -> Redis -> worker -> result shard -> gather) with
  * the no-op model, so every millisecond measured is overhead:
@@ -339,14 +343,17 @@ export async function run(): Promise<void> {
     console.log(
       `  Redis: ${server.own ? 'a redis-server of its own' : 'the shared server (figures include other traffic)'}; workers run 1 thread each, prefetch auto`,
     );
-    console.log('  trials per queue job, off (1) and on (sized from the calibrated cost, about 1.5 s a job):');
-    for (const model of MATRIX) {
-      for (const workers of [1, 4]) {
-        for (const batching of [false, true]) await batchRun(server.url, client, root, model, workers, batching, false);
+    const only = process.env['RECALLSCAPE_BENCH_QUEUE_ONLY'];
+    if (only !== 'tiny') {
+      console.log('  trials per queue job, off (1) and on (sized from the calibrated cost, about 1.5 s a job):');
+      for (const model of MATRIX) {
+        for (const workers of [1, 4]) {
+          for (const batching of [false, true]) await batchRun(server.url, client, root, model, workers, batching, false);
+        }
       }
+      await batchRun(server.url, client, root, MATRIX[0], 4, true, true);
     }
-    await batchRun(server.url, client, root, MATRIX[0], 4, true, true);
-    await compareTinyJobs({ url: server.url, client });
+    if (only !== 'matrix') await compareTinyJobs({ url: server.url, client });
   } finally {
     client.disconnect();
     await server.stop();

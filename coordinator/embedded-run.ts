@@ -14,17 +14,11 @@ import type { RunProgress, RunStart, RunSweepOptions, RunSweepResult } from './r
 const LOGGED_FAILURES = 5;
 /** Finished jobs skipped between two looks at signals and progress while fast-forwarding. */
 const SKIP_BATCH = 5_000;
-/**
- * Jobs handed to the pool per thread, beyond those whose record waits for a
- * sync: the running one and one queued, so a thread starts its next job the
- * moment it replies instead of waiting for the main thread's turn.
- */
-export const JOBS_PER_THREAD = 2;
 
 /**
  * One run of the embedded runner over a prepared sweep folder: feeds jobs
- * without a result to the job runner (two per thread, plus those waiting
- * for a group commit), counts a job done once its record is durable, and
+ * without a result to the job runner (as many as the pool's threads hold,
+ * plus one queued per thread and those waiting for a group commit), counts a job done once its record is durable, and
  * stops on the two signals or on the first fatal error.
  */
 export class EmbeddedRun {
@@ -160,9 +154,9 @@ export class EmbeddedRun {
   }
 
   private async feed(jobs: Iterable<PlannedJob>): Promise<void> {
-    // Jobs handed to the pool and not yet waiting for a sync. A graceful stop
-    // takes the queued ones back, so it never starts a job that was merely queued.
-    const limit = JOBS_PER_THREAD * this.pool.threads;
+    // Jobs handed to the pool and not yet waiting for a sync: as many as keep
+    // every thread busy (more while jobs are short). A graceful stop takes the
+    // queued ones back, so it never starts a job that was merely queued.
     let skipped = 0;
     for (const job of jobs) {
       if (this.stopping()) break;
@@ -175,7 +169,7 @@ export class EmbeddedRun {
         }
         continue;
       }
-      while (this.inFlight.size - this.sinks.awaiting >= limit && !this.stopping()) {
+      while (this.inFlight.size - this.sinks.awaiting >= this.pool.appetite && !this.stopping()) {
         await new Promise<void>((wake) => {
           this.wake = wake;
         });

@@ -58,26 +58,32 @@ export class JobRunner {
   /**
    * Runs the trials of one queue job (a batch), each checked and recorded as
    * a job of its own: one record (result or failure) per trial, in a shard of
-   * `folder`. Two trials are in the pool at a time, so a thread never waits
-   * for this batch's next trial; records are appended as trials end and one
+   * `folder`. As many trials are in the pool as a thread holds (pool.appetite
+   * per thread), so a thread never waits for this batch's next trial; records are appended as trials end and one
    * group commit at the end covers all of them, so the batch is reported only
    * once every record it made is durable. Rejects as execute() does; records
    * of the trials that ended before stay (a re-run writes equal records,
    * which the store reads once).
    */
   async executeBatch(folder: string, payloads: readonly unknown[], attempt: number): Promise<JobResult[]> {
+    const { pool } = this.options;
     const results: JobResult[] = [];
-    const run = (payload: unknown): Promise<JobOutcome> => this.options.pool.run(payload);
-    let next: Promise<JobOutcome> | undefined = payloads.length > 0 ? run(payloads[0]) : undefined;
+    const ahead: Promise<JobOutcome>[] = [];
+    let handed = 0;
+    // As many trials in the pool as one thread holds, plus one: more while trials are short.
+    const topUp = (): void => {
+      const window = Math.ceil(pool.appetite / pool.threads);
+      while (handed < payloads.length && ahead.length < window) ahead.push(pool.run(payloads[handed++]));
+    };
     try {
       for (let i = 0; i < payloads.length; i++) {
-        const current = next as Promise<JobOutcome>;
-        next = i + 1 < payloads.length ? run(payloads[i + 1]) : undefined;
+        topUp();
+        const current = ahead.shift() as Promise<JobOutcome>;
         results.push(this.append({ payload: payloads[i], folder, attempt }, await current));
       }
     } finally {
-      // A trial started ahead of a failure: let it settle so its rejection is not left unhandled.
-      next?.catch(() => undefined);
+      // Trials started ahead of a failure: let them settle so their rejections are not left unhandled.
+      for (const pending of ahead) pending.catch(() => undefined);
     }
     await this.options.sinks.durable(folder);
     return results;

@@ -7,7 +7,7 @@
 import { parentPort, workerData } from 'node:worker_threads';
 import type { JobTimeLimit } from '../shared/job-time-limit.js';
 import { runAnyJob } from './run-job.js';
-import type { ThreadData, ThreadReply, ThreadRequest } from './thread-pool.js';
+import type { ThreadData, ThreadMessage, ThreadReply, ThreadRequest } from './thread-pool.js';
 import { isWithdrawn } from './withdrawn-range.js';
 
 if (parentPort === null) {
@@ -50,8 +50,9 @@ function next(): void {
   });
 }
 
-port.on('message', (request: ThreadRequest) => {
-  inbox.push(request);
+port.on('message', (message: ThreadMessage) => {
+  if (Array.isArray(message)) inbox.push(...(message as readonly ThreadRequest[]));
+  else inbox.push(message as ThreadRequest);
   next();
 });
 

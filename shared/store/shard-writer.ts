@@ -6,9 +6,12 @@ import { isWriterId } from './writer-id.js';
 export interface ShardWriter {
   readonly writer: string;
   /**
-   * One write call per line: a kill never leaves half a record except a torn
-   * LAST line. Throws ShardWriteError if the write fails, and for every call
-   * after a failed write (nothing is ever appended after a torn line).
+   * Holds the line until the next sync (or close, or a full buffer) writes
+   * every held line with one write call: a kill never leaves half a record
+   * except a torn LAST line. A failed write throws ShardWriteError from the
+   * call that wrote (sync, syncAsync, close, or this one when the buffer was
+   * full), and every later call throws too (nothing is ever appended after a
+   * torn line).
    */
   appendResult(record: ResultRecord): void;
   appendFailure(record: FailureRecord): void;
@@ -76,9 +79,29 @@ interface Poison {
   error: ShardWriteError | undefined;
 }
 
-/** Appends whole lines to one file, opened lazily in append mode. */
+/** Lines held before they are written at once, when no sync asks for them sooner. */
+const FLUSH_BYTES = 256 * 1024;
+
+/**
+ * Appends whole lines to one file, opened lazily in append mode. Lines are
+ * held and written together, one write call, at the end of the event loop's
+ * turn (so the records of jobs that finished together cost one call), or
+ * earlier when a sync starts, at close, or once they reach FLUSH_BYTES. A
+ * write that fails there poisons the writer; the next call reports it.
+ */
 class AppendFile {
   private fd: number | undefined;
+  private held: string[] = [];
+  private heldBytes = 0;
+  private flushScheduled = false;
+  private readonly flushLater = (): void => {
+    this.flushScheduled = false;
+    try {
+      this.flush();
+    } catch {
+      // Poisoned: the next append, sync or close throws the error.
+    }
+  };
   /** Asynchronous syncs running on `fd`: it is closed only once they end, so the number is never reused under one. */
   private syncing = 0;
   private closeWhenIdle: number | undefined;
@@ -98,12 +121,33 @@ class AppendFile {
         { cause: earlier.cause },
       );
     }
+    this.held.push(line);
+    this.heldBytes += line.length;
+    if (this.heldBytes >= FLUSH_BYTES) this.flush();
+    else if (!this.flushScheduled) {
+      this.flushScheduled = true;
+      setImmediate(this.flushLater);
+    }
+  }
+
+  /** The error of an earlier failed write or flush, thrown again. */
+  private throwIfPoisoned(): void {
+    const earlier = this.poison.error;
+    if (earlier !== undefined) throw earlier;
+  }
+
+  /** Write the held lines; a failure poisons the writer (the file may end in a torn line). */
+  private flush(): void {
+    if (this.held.length === 0) return;
+    const text = this.held.length === 1 ? (this.held[0] as string) : this.held.join('');
+    this.held = [];
+    this.heldBytes = 0;
     try {
       if (this.fd === undefined) {
         this.fs.mkdirSync(this.folder, { recursive: true });
         this.fd = this.fs.openSync(this.path, 'a');
       }
-      const bytes = Buffer.from(line, 'utf8');
+      const bytes = Buffer.from(text, 'utf8');
       let written = this.fs.writeSync(this.fd, bytes);
       // A regular file takes the whole buffer at once; finish a short write if the OS ever gives one.
       while (written < bytes.length) written += this.fs.writeSync(this.fd, bytes, written);
@@ -113,6 +157,8 @@ class AppendFile {
   }
 
   sync(): void {
+    this.throwIfPoisoned();
+    this.flush();
     if (this.fd === undefined) return;
     try {
       this.fs.fdatasyncSync(this.fd);
@@ -123,6 +169,12 @@ class AppendFile {
   }
 
   syncAsync(): Promise<void> {
+    try {
+      this.throwIfPoisoned();
+      this.flush();
+    } catch (error) {
+      return Promise.reject(error as Error);
+    }
     const fd = this.fd;
     if (fd === undefined) return Promise.resolve();
     const fs = this.fs;
@@ -170,7 +222,16 @@ class AppendFile {
     throw error;
   }
 
+  /** Writes what is held, then closes; a failed write still closes the file and then throws. */
   close(): void {
+    try {
+      this.flush();
+    } finally {
+      this.closeFile();
+    }
+  }
+
+  private closeFile(): void {
     if (this.fd !== undefined) {
       const fd = this.fd;
       this.fd = undefined;

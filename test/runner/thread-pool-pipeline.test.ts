@@ -7,7 +7,7 @@ import { jobKey, jobSeed } from '../../shared/job-identity.js';
 import type { JobPayload } from '../../shared/schemas/records.js';
 import { PoolClosed } from '../../worker/pool-errors.js';
 import type { JobOutcome } from '../../worker/run-job.js';
-import { ThreadPool } from '../../worker/thread-pool.js';
+import { SHORT_JOB_DEPTH, SHORT_JOB_MS, ThreadPool } from '../../worker/thread-pool.js';
 import { useTestModels } from '../fixtures/test-models.js';
 
 // hold (returns once a file exists), spin (never returns) and no-op are test models (test/fixtures/models).
@@ -70,20 +70,36 @@ describe('a thread pool handing each thread its next job while one runs', () => 
       expect((await pool.run(payload('no-op', { value: 1 }, 0))).ok).toBe(true);
       const release = join(dir, 'release-withdraw');
       const running = settle(pool.run(payload('hold', { release }, 0)));
-      const inThread = settle(pool.run(payload('no-op', { value: 2 }, 0)));
-      const inQueue = settle(pool.run(payload('no-op', { value: 3 }, 0)));
+      // Behind the running job, inside the thread (the pool holds more while jobs are short) or in the queue.
+      const behind = [2, 3, 4].map((value) => settle(pool.run(payload('no-op', { value }, 0))));
       pool.withdrawQueued();
-      // The queued job is refused at once; the one inside the thread once the thread reads it.
-      expect(await inQueue).toBeInstanceOf(PoolClosed);
       await writeFile(release, '');
       const held = await running;
       expect(held).toMatchObject({ ok: true });
-      const waited = await inThread;
-      expect(waited).toBeInstanceOf(PoolClosed);
-      expect((waited as Error).message).toBe('taken back before it started');
+      for (const waited of await Promise.all(behind)) {
+        expect(waited).toBeInstanceOf(PoolClosed);
+        expect((waited as Error).message).toBe('taken back before it started');
+      }
       // Jobs handed over after the withdrawal run as usual.
-      const later = await pool.run(payload('no-op', { value: 4 }, 0));
+      const later = await pool.run(payload('no-op', { value: 5 }, 0));
       expect(later).toMatchObject({ ok: true, record: { point: {} } });
+    } finally {
+      await pool.close();
+    }
+  });
+
+  it('holds two jobs per thread at first and SHORT_JOB_DEPTH once jobs take under SHORT_JOB_MS', async () => {
+    const pool = new ThreadPool({ threads: 2, context: CONTEXT, entry: ENTRY, pipeline: 2 });
+    try {
+      expect(pool.depth).toBe(2);
+      expect(pool.appetite).toBe(2 * 3);
+      // A no-op job takes microseconds in its thread (its record's elapsedMs), far under SHORT_JOB_MS.
+      const outcomes = await Promise.all([1, 2, 3, 4].map((value) => pool.run(payload('no-op', { value }, 3))));
+      for (const outcome of outcomes) {
+        expect(outcome.ok && outcome.record.elapsedMs).toBeLessThan(SHORT_JOB_MS);
+      }
+      expect(pool.depth).toBe(SHORT_JOB_DEPTH);
+      expect(pool.appetite).toBe(2 * (SHORT_JOB_DEPTH + 1));
     } finally {
       await pool.close();
     }

@@ -58,11 +58,14 @@ describe('shard writer after a failed write', () => {
     await store.prepare(sweep);
     const writer = store.openWriter('host-1-fault1', failingFs(2));
     const file = join(store.resultsDir, 'host-1-fault1.ndjson');
+    // Lines are written when a sync asks for them: write call 1 holds record 0, call 2 half of record 1.
     writer.appendResult(resultFor(sweep, 0));
+    writer.sync();
+    writer.appendResult(resultFor(sweep, 1));
 
     const failed = (() => {
       try {
-        writer.appendResult(resultFor(sweep, 1));
+        writer.sync();
       } catch (error) {
         return error as Error;
       }
