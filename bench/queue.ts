@@ -348,7 +348,8 @@ export async function run(): Promise<void> {
       console.log('  trials per queue job, off (1) and on (sized from the calibrated cost, about 1.5 s a job):');
       for (const model of MATRIX) {
         for (const workers of [1, 4]) {
-          for (const batching of [false, true]) await batchRun(server.url, client, root, model, workers, batching, false);
+          for (const batching of [false, true])
+            await batchRun(server.url, client, root, model, workers, batching, false);
         }
       }
       await batchRun(server.url, client, root, MATRIX[0], 4, true, true);
