@@ -25,10 +25,10 @@ export function registerGather(program: Command): void {
       }
       const lines = [
         `sweep      ${r.name}`,
-        `found      ${r.found} finished job(s) in Redis`,
+        `found      ${r.found} finished trial(s) in Redis`,
         `copied     ${r.copied} record(s)${r.writer === null ? '' : ` into results/${r.writer}.ndjson`}`,
         `on disk    ${r.alreadyOnDisk} already there`,
-        `freed      ${r.removed} job(s) removed from Redis`,
+        `freed      ${r.removed} queue job(s) removed from Redis (a job carries a batch of trials)`,
       ];
       if (r.rejected > 0)
         lines.push(`rejected   ${r.rejected} return value(s) that are not records of this sweep (left in Redis)`);

@@ -297,6 +297,11 @@ describe('a batch killed half-way', () => {
             ...queue.flags,
           ]);
           expect(gathered.code, gathered.stderr).toBe(0);
+          // Counts in trials; what leaves Redis is queue jobs of several trials each.
+          expect(gathered.stdout).toMatch(/^found +\d+ finished trial\(s\) in Redis$/m);
+          expect(gathered.stdout).toMatch(
+            /^freed +\d+ queue job\(s\) removed from Redis \(a job carries a batch of trials\)$/m,
+          );
           return (await store.completedKeys()).size === planned ? true : undefined;
         },
         90_000,

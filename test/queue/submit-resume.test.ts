@@ -1,6 +1,7 @@
 import { readdir, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { EVENT_STREAM_LENGTH } from '../../shared/queue/bullmq/bullmq-work-queue.js';
 import { jobIdFor } from '../../shared/queue/bullmq/job-ids.js';
 import { expandJobs } from '../../shared/sweep/expand.js';
 import { loadSweepFile } from '../../shared/sweep/load.js';
@@ -185,6 +186,39 @@ describe('submit', () => {
       ]);
       expect(JSON.parse(requeued.stdout)).toMatchObject({ enqueued: 10_000, done: 0 });
       expect(await client.llen(waitKey)).toBe(10_000);
+    } finally {
+      client.disconnect();
+    }
+  });
+
+  it('keeps the queue event stream short: a submit of 1,000 one-trial jobs leaves at most 200 entries', async () => {
+    const file = join(root, 'events.yaml');
+    await writeFile(
+      file,
+      'name: event-stream\nmodel: no-op\nseed: 4\nbatch: 1\nreplicates: 10\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n',
+    );
+    const submitted = await runCli([
+      'submit',
+      file,
+      '--redis',
+      SHARED_REDIS,
+      '--out',
+      join(root, 'events-results'),
+      '--json',
+      ...queue.flags,
+      ...TEST_MODEL_FLAGS,
+    ]);
+    expect(submitted.code, submitted.stderr).toBe(0);
+    expect(JSON.parse(submitted.stdout)).toMatchObject({ enqueued: 1000 });
+    const client = await inspector(SHARED_REDIS);
+    try {
+      const base = `${queue.prefix}:${queue.name}`;
+      // Each added job writes an event; the stream is trimmed to about EVENT_STREAM_LENGTH (100) entries,
+      // approximately: Redis drops whole nodes of up to 100 entries (stream-node-max-entries; Redis docs, XADD MAXLEN ~).
+      expect(await client.hget(`${base}:meta`, 'opts.maxLenEvents')).toBe(String(EVENT_STREAM_LENGTH));
+      const length = await client.xlen(`${base}:events`);
+      expect(length).toBeGreaterThanOrEqual(EVENT_STREAM_LENGTH);
+      expect(length).toBeLessThanOrEqual(EVENT_STREAM_LENGTH + 100);
     } finally {
       client.disconnect();
     }

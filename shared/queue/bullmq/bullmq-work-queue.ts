@@ -110,6 +110,9 @@ async function replies(pipeline: ChainableCommander): Promise<unknown[]> {
   });
 }
 
+/** Entries kept in the queue's event stream (BullMQ's own default is 10,000). */
+export const EVENT_STREAM_LENGTH = 100;
+
 /**
  * The coordinator's side of a BullMQ queue on Redis. Uses BullMQ's public
  * API where its cost is acceptable and reads Redis directly where it is not;
@@ -129,8 +132,11 @@ export class BullmqWorkQueue implements WorkQueue {
     const queue = new Queue(settings.queue.name, {
       connection: client,
       prefix: settings.queue.prefix,
-      // The event stream is for live dashboards only; keep it short (memory).
-      streams: { events: { maxLen: 1_000 } },
+      // The event stream is for live dashboards only, and nothing here reads
+      // it; keep it short: each 'completed' entry copies the job's return
+      // value, a packed batch of records for a worker without a shared disk.
+      // Trimmed approximately, so it holds between this and this + 100 entries.
+      streams: { events: { maxLen: EVENT_STREAM_LENGTH } },
     });
     queue.on('error', (error) => logger?.warn({ reason: error.message }, 'queue trouble'));
     try {
