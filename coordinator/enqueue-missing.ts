@@ -152,7 +152,12 @@ export async function calibratedSecondsPerTrial(sweep: LoadedSweep): Promise<num
 export async function agreeBatchSize(
   queue: WorkQueue,
   sweep: LoadedSweep,
-  options: { readonly override?: number | undefined; readonly secondsPerTrial?: number | null } = {},
+  options: {
+    readonly override?: number | undefined;
+    readonly secondsPerTrial?: number | null;
+    /** The size kept in the sweep's folder (store/batch-memory.ts): used when Redis lost its copy. */
+    readonly remembered?: number | undefined;
+  } = {},
 ): Promise<number> {
   // An adaptive sweep's design grows between rounds, which would shift its blocks: one trial a job.
   if (sweep.spec.refine !== undefined) return queue.batchSize(sweep.hash, 1, true);
@@ -160,6 +165,7 @@ export async function agreeBatchSize(
   if (explicit !== undefined) return queue.batchSize(sweep.hash, explicit, true);
   const agreed = await queue.agreedBatchSize(sweep.hash);
   if (agreed !== undefined) return agreed;
+  if (options.remembered !== undefined) return queue.batchSize(sweep.hash, options.remembered, false);
   const seconds =
     options.secondsPerTrial !== undefined ? options.secondsPerTrial : await calibratedSecondsPerTrial(sweep);
   return queue.batchSize(sweep.hash, batchSizeFor(seconds), false);

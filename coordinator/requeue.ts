@@ -1,5 +1,6 @@
 import type { Logger } from '../shared/logger.js';
 import type { WorkQueue } from '../shared/queue/work-queue.js';
+import { readBatchMemory, writeBatchMemory } from '../shared/store/batch-memory.js';
 import { ResultStore } from '../shared/store/result-store.js';
 import type { LoadedSweep } from '../shared/sweep/load.js';
 import { agreeBatchSize, type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
@@ -42,8 +43,10 @@ export async function requeueIn(
     onWarning: (w) => logger?.warn({ file: w.file, line: w.line, kind: w.kind }, w.message),
   });
   const planned = await plannedNow(store, sweep);
-  // The size agreed when the sweep was submitted, so the same blocks make the same jobs.
-  const batchSize = await agreeBatchSize(queue, sweep);
+  // The size agreed when the sweep was submitted, so the same blocks make the same jobs,
+  // from the sweep's folder when Redis lost it.
+  const batchSize = await agreeBatchSize(queue, sweep, { remembered: await readBatchMemory(store.dir, sweep.hash) });
+  await writeBatchMemory(store.dir, sweep.hash, batchSize);
   const report = await enqueueMissing(queue, sweep, done, {
     retryFailed,
     batchSize,

@@ -1,5 +1,6 @@
 import type { Logger } from '../shared/logger.js';
 import type { WorkQueue } from '../shared/queue/work-queue.js';
+import { readBatchMemory, writeBatchMemory } from '../shared/store/batch-memory.js';
 import { ResultStore } from '../shared/store/result-store.js';
 import { type LoadedSweep, loadSweepFile } from '../shared/sweep/load.js';
 import { agreeBatchSize, type EnqueueReport, enqueueMissing } from './enqueue-missing.js';
@@ -67,8 +68,10 @@ export async function submitTo(
   const planned = await plannedNow(store, sweep);
   const batchSize = await agreeBatchSize(queue, sweep, {
     override: options.batch,
+    remembered: await readBatchMemory(store.dir, sweep.hash),
     ...(options.secondsPerTrial !== undefined ? { secondsPerTrial: options.secondsPerTrial } : {}),
   });
+  await writeBatchMemory(store.dir, sweep.hash, batchSize);
   const report = await enqueueMissing(queue, sweep, done, {
     batchSize,
     ...(planned.jobs === undefined ? {} : { jobs: planned.jobs }),

@@ -1,4 +1,4 @@
-import { mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Redis } from 'ioredis';
@@ -96,6 +96,27 @@ async function serve(queue: MemoryQueue): Promise<void> {
 }
 
 describe('trials per queue job against the in-memory queue', () => {
+  it('cuts the same blocks after the queue lost everything, from the size kept in the sweep folder, without timing the model', async () => {
+    const queue = new MemoryQueue();
+    // 0.3 s a trial: 1.5 / 0.3 = 5 trials a job (arithmetic from the 1.5 s target).
+    const report = await submitTo(queue, sweep, root, { secondsPerTrial: 0.3 });
+    expect(report.batchSize).toBe(5);
+    const before = queue.all().map((j) => [j.key, j.trials]);
+    expect(before).toHaveLength(4);
+    const store = ResultStore.open(join(root, 'batch-sweep'));
+    expect(JSON.parse(await readFile(join(store.dir, 'queue-batch.json'), 'utf8'))).toEqual({
+      v: 1,
+      hash: sweep.hash,
+      batch: 5,
+    });
+    // Redis lost its data: the agreed size went with it. Timing the no-op model would give the cap
+    // (1,000 trials, one job); the folder's copy gives the same four jobs again.
+    queue.flush();
+    expect(await requeueIn(queue, store, sweep, false, undefined)).toMatchObject({ enqueued: PLANNED });
+    expect(queue.all().map((j) => [j.key, j.trials])).toEqual(before);
+    expect(await queue.agreedBatchSize(sweep.hash)).toBe(5);
+  });
+
   it('cuts the sweep into jobs of the size given on submit, with the keys and seeds the trials have alone', async () => {
     const queue = new MemoryQueue();
     const report = await submitTo(queue, sweep, root, { batch: 6 });
