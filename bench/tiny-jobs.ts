@@ -310,10 +310,15 @@ export async function sideBySide(
   return medians;
 }
 
-/** Jobs per run of each kind (RECALLSCAPE_BENCH_TINY_JOBS scales both: it sets the no-op count). */
+/**
+ * Trials per run of each kind (RECALLSCAPE_BENCH_TINY_JOBS scales both: it
+ * sets the no-op count). Enough for ten batches of the auto size (1,000
+ * no-op trials a job): with only two, a run measures the start of the first
+ * batch and the end of the last more than the steady rate.
+ */
 function jobsPerRun(kind: JobKind): number {
-  const noOp = Number(process.env['RECALLSCAPE_BENCH_TINY_JOBS'] ?? 2_000);
-  return kind === 'no-op' ? noOp : Math.max(100, Math.round(noOp * 0.75));
+  const noOp = Number(process.env['RECALLSCAPE_BENCH_TINY_JOBS'] ?? 10_000);
+  return kind === 'no-op' ? noOp : Math.max(100, Math.round(noOp * 0.3));
 }
 
 const ROUNDS = 3;

@@ -2,7 +2,6 @@ import { mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { jobKey, jobSeed } from '../../shared/job-identity.js';
 import {
   estimatedLimitMs,
   FLOOR_MS,
@@ -17,6 +16,7 @@ import type { JobPayload } from '../../shared/schemas/records.js';
 import type { JobOutcome } from '../../worker/run-job.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
 import { useTestModels } from '../fixtures/test-models.js';
+import { testPayload } from '../fixtures/test-payload.js';
 
 // spin (never returns), hold (returns once a file exists) and no-op are test models (test/fixtures/models).
 await useTestModels();
@@ -26,22 +26,11 @@ const ENTRY = new URL('../../dist/worker/thread-entry.js', import.meta.url);
 const CONTEXT = { writer: 'limit-writer', run: 'limit-run' };
 const ROOT_SEED = 3;
 
+const SWEEP = { name: 'limit-test', hash: 'b'.repeat(64), rootSeed: ROOT_SEED };
+
 /** A job of a test model, with the sweep's time limit when given. */
 function payload(model: string, params: Record<string, unknown>, replicate: number, timeoutMs?: number): JobPayload {
-  const key = jobKey(model, '1', params, replicate);
-  return {
-    v: 1,
-    sweep: { name: 'limit-test', hash: 'b'.repeat(64) },
-    key,
-    model,
-    modelVersion: '1',
-    params,
-    point: {},
-    replicate,
-    seed: jobSeed(ROOT_SEED, key),
-    rootSeed: ROOT_SEED,
-    ...(timeoutMs === undefined ? {} : { timeoutMs }),
-  };
+  return testPayload(SWEEP, model, params, replicate, timeoutMs);
 }
 
 /** A model object with only what jobTimeLimit reads: its cost, and for an external model its source. */

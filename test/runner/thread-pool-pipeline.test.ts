@@ -3,12 +3,12 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { jobKey, jobSeed } from '../../shared/job-identity.js';
 import type { JobPayload } from '../../shared/schemas/records.js';
 import { PoolClosed } from '../../worker/pool-errors.js';
 import type { JobOutcome } from '../../worker/run-job.js';
 import { SHORT_JOB_DEPTH, SHORT_JOB_MS, ThreadPool } from '../../worker/thread-pool.js';
 import { useTestModels } from '../fixtures/test-models.js';
+import { testPayload } from '../fixtures/test-payload.js';
 
 // hold (returns once a file exists), spin (never returns) and no-op are test models (test/fixtures/models).
 await useTestModels();
@@ -18,21 +18,11 @@ const ENTRY = new URL('../../dist/worker/thread-entry.js', import.meta.url);
 const CONTEXT = { writer: 'pipe-writer', run: 'pipe-run' };
 const ROOT_SEED = 5;
 
+const SWEEP = { name: 'pipeline-test', hash: 'c'.repeat(64), rootSeed: ROOT_SEED };
+
+/** A job of a test model, with the sweep's time limit when given. */
 function payload(model: string, params: Record<string, unknown>, replicate: number, timeoutMs?: number): JobPayload {
-  const key = jobKey(model, '1', params, replicate);
-  return {
-    v: 1,
-    sweep: { name: 'pipeline-test', hash: 'c'.repeat(64) },
-    key,
-    model,
-    modelVersion: '1',
-    params,
-    point: {},
-    replicate,
-    seed: jobSeed(ROOT_SEED, key),
-    rootSeed: ROOT_SEED,
-    ...(timeoutMs === undefined ? {} : { timeoutMs }),
-  };
+  return testPayload(SWEEP, model, params, replicate, timeoutMs);
 }
 
 const settle = (p: Promise<JobOutcome>): Promise<JobOutcome | Error> => p.catch((e: unknown) => e as Error);
