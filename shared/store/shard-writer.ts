@@ -6,9 +6,10 @@ import { isWriterId } from './writer-id.js';
 export interface ShardWriter {
   readonly writer: string;
   /**
-   * Holds the line until the next sync (or close, or a full buffer) writes
-   * every held line with one write call: a kill never leaves half a record
-   * except a torn LAST line. A failed write throws ShardWriteError from the
+   * Holds the line until the end of this turn of the event loop, or the next
+   * sync, close or full buffer, whichever comes first, then writes every held
+   * line with one write call: a kill never leaves half a record except a torn
+   * LAST line. A failed write throws ShardWriteError from the
    * call that wrote (sync, syncAsync, close, or this one when the buffer was
    * full), and every later call throws too (nothing is ever appended after a
    * torn line).
@@ -139,6 +140,13 @@ class AppendFile {
   /** Write the held lines; a failure poisons the writer (the file may end in a torn line). */
   private flush(): void {
     if (this.held.length === 0) return;
+    if (this.poison.error !== undefined) {
+      // After a failed write nothing more is written, to either shard: these lines
+      // were never covered by a sync, so their jobs were never counted done.
+      this.held = [];
+      this.heldBytes = 0;
+      return;
+    }
     const text = this.held.length === 1 ? (this.held[0] as string) : this.held.join('');
     this.held = [];
     this.heldBytes = 0;

@@ -111,4 +111,30 @@ describe('shard writer after a failed write', () => {
     // Readers skip the torn line: only the first job counts as done.
     expect([...(await store.completedKeys())]).toEqual([resultFor(sweep, 0).key]);
   });
+
+  it('drops a line still held for the other shard when a write fails, so neither shard grows after the torn line', async () => {
+    const store = ResultStore.at(root, 'fault-test');
+    await store.prepare(sweep);
+    const writer = store.openWriter('host-1-fault2', failingFs(1));
+    // Both held until the sync: the results line is written first, tears, and the disk then fails.
+    writer.appendFailure({
+      v: 1,
+      key: resultFor(sweep, 3).key,
+      sweepHash: sweep.hash,
+      kind: 'exception',
+      message: 'x',
+      point: { value: 4 },
+      replicate: 0,
+      writer: 'w',
+      run: 'r1',
+      at: '2026-01-01T00:00:00.000Z',
+      attempt: 1,
+    });
+    writer.appendResult(resultFor(sweep, 0));
+    expect(() => writer.sync()).toThrow(expect.objectContaining({ name: 'ShardWriteError' }));
+    writer.close();
+    // The failure record was never covered by a sync: it is dropped, not written after the torn line.
+    expect(await readdir(store.failuresDir)).toEqual([]);
+    expect([...(await store.completedKeys())]).toEqual([]);
+  });
 });
