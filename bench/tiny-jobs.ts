@@ -7,6 +7,10 @@
  * process, every thread) over the trials after the first 5%, which leaves
  * start-up out. CPU time is the figure to trust on a shared
  * machine: wall time also counts waiting for a core.
+ *
+ * RECALLSCAPE_BENCH_TINY_JOBS sets the no-op trials per run (default 10,000;
+ * the tiny model runs 0.3 times as many); RECALLSCAPE_BENCH_TINY_NOW_ONLY=1
+ * keeps only the batched worker and the embedded runner, for long runs.
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
@@ -363,7 +367,12 @@ export async function compareTinyJobs(queue: { url: string; client: Redis } | un
         { label: 'embedded before group commit', measure: () => embeddedTiny('before', threads, jobs, kind) },
         { label: 'embedded now', measure: () => embeddedTiny('now', threads, jobs, kind) },
       );
-      const m = await sideBySide(contenders, ROUNDS);
+      // RECALLSCAPE_BENCH_TINY_NOW_ONLY=1: the batched worker and the embedded runner alone (long runs).
+      const nowOnly = process.env['RECALLSCAPE_BENCH_TINY_NOW_ONLY'] === '1';
+      const chosen = nowOnly
+        ? contenders.filter((c) => c.label === 'queue worker now, batched (auto)' || c.label === 'embedded now')
+        : contenders;
+      const m = await sideBySide(chosen, ROUNDS);
       const get = (label: string): Figures => m.get(label) ?? { rate: Number.NaN, cpuMsPerJob: Number.NaN };
       const eb = get('embedded before group commit');
       const en = get('embedded now');
@@ -383,7 +392,8 @@ export async function compareTinyJobs(queue: { url: string; client: Redis } | un
           `queue worker 1 trial a job / embedded now: ${ratio(q1.rate, en.rate)} in trials/s, ${ratio(en.cpuMsPerJob, q1.cpuMsPerJob)} in trials per CPU-second`,
         );
       }
-      for (const line of lines) console.log(`${indent}  ${line}`);
+      // A ratio with a contender left out says nothing.
+      for (const line of lines) if (!line.includes('NaN')) console.log(`${indent}  ${line}`);
     }
   }
 }
