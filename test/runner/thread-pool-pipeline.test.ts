@@ -78,16 +78,22 @@ describe('a thread pool handing each thread its next job while one runs', () => 
     }
   });
 
-  it('holds two jobs per thread at first and SHORT_JOB_DEPTH once jobs take under SHORT_JOB_MS', async () => {
+  it('holds two jobs per thread at first and SHORT_JOB_DEPTH once the moving mean of job time is under SHORT_JOB_MS', async () => {
     const pool = new ThreadPool({ threads: 2, context: CONTEXT, entry: ENTRY, pipeline: 2 });
     try {
       expect(pool.depth).toBe(2);
       expect(pool.appetite).toBe(2 * 3);
-      // A no-op job takes microseconds in its thread (its record's elapsedMs), far under SHORT_JOB_MS.
-      const outcomes = await Promise.all([1, 2, 3, 4].map((value) => pool.run(payload('no-op', { value }, 3))));
-      for (const outcome of outcomes) {
-        expect(outcome.ok && outcome.record.elapsedMs).toBeLessThan(SHORT_JOB_MS);
+      // One job at a time, so the mean follows the records' own elapsedMs in order: the documented
+      // rule (new mean = 0.9 old + 0.1 this job), worked here from the outside. A first job in a
+      // fresh thread can take milliseconds (loading, compiling); no-op jobs after it take microseconds.
+      let mean: number | undefined;
+      for (let value = 1; value <= 200 && (mean === undefined || mean >= SHORT_JOB_MS); value++) {
+        const outcome = await pool.run(payload('no-op', { value }, 3));
+        if (!outcome.ok) throw new Error(`no-op job failed: ${outcome.message}`);
+        const ms = outcome.record.elapsedMs;
+        mean = mean === undefined ? ms : 0.9 * mean + 0.1 * ms;
       }
+      expect(mean).toBeLessThan(SHORT_JOB_MS);
       expect(pool.depth).toBe(SHORT_JOB_DEPTH);
       expect(pool.appetite).toBe(2 * (SHORT_JOB_DEPTH + 1));
     } finally {
