@@ -13,6 +13,7 @@ import {
   SHARED_REDIS,
   startCli,
   stopCli,
+  submitJson,
   useQueueSandbox,
   waitFor,
 } from './helpers.js';
@@ -99,17 +100,7 @@ describe('a sweep served by worker processes through Redis', () => {
     const b = worker(elsewhere, ['--name', 'own-disk', '--prefetch', '2']);
     await Promise.all([ready(a), ready(b)]);
 
-    const submitted = await runCli([
-      'submit',
-      file,
-      '--redis',
-      SHARED_REDIS,
-      '--out',
-      coordinatorRoot,
-      '--json',
-      ...box.queue.flags,
-      ...TEST_MODEL_FLAGS,
-    ]);
+    const submitted = await submitJson(file, coordinatorRoot, box.queue);
     expect(submitted.code, submitted.stderr).toBe(0);
     const counts = JSON.parse(submitted.stdout) as Record<string, number>;
     expect(counts).toMatchObject({ planned: 40, done: 0, enqueued: 40 });
@@ -302,17 +293,7 @@ describe('a sweep served by worker processes through Redis', () => {
       // Field 19 of /proc/<pid>/task/<tid>/stat is the nice value (proc(5) manual page, from memory).
       if (stat !== '') expect(Number(stat.slice(stat.lastIndexOf(')') + 2).split(' ')[16]), `thread ${tid}`).toBe(3);
     }
-    const submitted = await runCli([
-      'submit',
-      file,
-      '--redis',
-      SHARED_REDIS,
-      '--out',
-      out,
-      '--json',
-      ...box.queue.flags,
-      ...TEST_MODEL_FLAGS,
-    ]);
+    const submitted = await submitJson(file, out, box.queue);
     expect(submitted.code, submitted.stderr).toBe(0);
     const producer = new Queue(box.queue.name, {
       connection: { host: '127.0.0.1', port: 6379 },

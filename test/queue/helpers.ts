@@ -7,6 +7,7 @@ import { join, resolve } from 'node:path';
 import { setTimeout as sleep } from 'node:timers/promises';
 import { Redis } from 'ioredis';
 import { afterEach, beforeEach } from 'vitest';
+import { TEST_MODEL_FLAGS } from '../fixtures/test-models.js';
 
 /** The repository root (tests run the built CLI from here). */
 export const ROOT = resolve(import.meta.dirname, '..', '..');
@@ -78,6 +79,15 @@ export function runCli(
 }
 
 /** A CLI process left running (a worker); its output is collected as it comes. */
+/** `submit FILE --json` of a sweep of the test models to the shared Redis, into `out`, on `queue`. */
+export function submitJson(
+  file: string,
+  out: string,
+  queue: { readonly flags: readonly string[] },
+): Promise<CliResult> {
+  return runCli(['submit', file, '--redis', SHARED_REDIS, '--out', out, '--json', ...queue.flags, ...TEST_MODEL_FLAGS]);
+}
+
 export interface Running {
   readonly child: ChildProcess;
   readonly pid: number;

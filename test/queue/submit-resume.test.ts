@@ -13,6 +13,7 @@ import {
   runCli,
   SHARED_REDIS,
   startCli,
+  submitJson,
   tempDir,
   uniqueQueue,
   waitFor,
@@ -121,17 +122,7 @@ describe('submit', () => {
         console.log('the first submit finished before it was killed; checking the second one all the same');
       }
 
-      const second = await runCli([
-        'submit',
-        file,
-        '--redis',
-        SHARED_REDIS,
-        '--out',
-        out,
-        '--json',
-        ...queue.flags,
-        ...TEST_MODEL_FLAGS,
-      ]);
+      const second = await submitJson(file, out, queue);
       expect(second.code, second.stderr).toBe(0);
       const report = JSON.parse(second.stdout) as Record<string, number>;
       expect(report['planned']).toBe(10_000);
@@ -148,17 +139,7 @@ describe('submit', () => {
       expect(ids.every((id) => expected.has(id))).toBe(true);
 
       // A third submit adds nothing.
-      const third = await runCli([
-        'submit',
-        file,
-        '--redis',
-        SHARED_REDIS,
-        '--out',
-        out,
-        '--json',
-        ...queue.flags,
-        ...TEST_MODEL_FLAGS,
-      ]);
+      const third = await submitJson(file, out, queue);
       expect(JSON.parse(third.stdout)).toMatchObject({ enqueued: 0, inQueue: 10_000 });
       expect(await client.llen(waitKey)).toBe(10_000);
 
@@ -197,17 +178,7 @@ describe('submit', () => {
       file,
       'name: event-stream\nmodel: no-op\nseed: 4\nbatch: 1\nreplicates: 10\nvary:\n  value: { from: 1, to: 100, steps: 100 }\n',
     );
-    const submitted = await runCli([
-      'submit',
-      file,
-      '--redis',
-      SHARED_REDIS,
-      '--out',
-      join(root, 'events-results'),
-      '--json',
-      ...queue.flags,
-      ...TEST_MODEL_FLAGS,
-    ]);
+    const submitted = await submitJson(file, join(root, 'events-results'), queue);
     expect(submitted.code, submitted.stderr).toBe(0);
     expect(JSON.parse(submitted.stdout)).toMatchObject({ enqueued: 1000 });
     const client = await inspector(SHARED_REDIS);
