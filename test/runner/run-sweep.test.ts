@@ -214,7 +214,7 @@ describe('runSweep', () => {
     expect(text.endsWith('\n')).toBe(false);
     const lines = text.split('\n');
     const torn = lines.pop()!;
-    // Write calls 1-4 succeeded with at least one line each (held lines go out together at a sync); call 5 tore its last line.
+    // The call that carried line 5 tore its last line: at least lines 1-4 are whole.
     expect(lines.length).toBeGreaterThanOrEqual(4);
     const complete = lines.map((l) => JSON.parse(l) as { key: string });
     expect(torn.match(/"key"/g) ?? []).toHaveLength(1);
@@ -311,12 +311,17 @@ describe('runSweep', () => {
 });
 
 /**
- * node:fs, except that write call number `failAt` (1-based) writes half of its
- * bytes and the next call fails with ENOSPC, as a full disk does; later calls
- * succeed again (space freed), so anything appended then would be glued on.
+ * node:fs, except that the write call that carries line number `failAtLine`
+ * (1-based, counted over every call) is short by its last 10 bytes and the
+ * next call fails with ENOSPC, as a full disk does; later calls succeed again
+ * (space freed), so anything appended then would be glued on. Counted in
+ * lines, not calls: held lines go out together, so how many calls 30 records
+ * take depends on timing.
  */
-function failingFs(failAt: number): { fs: ShardFs; callsAfterFailure: () => number } {
+function failingFs(failAtLine: number): { fs: ShardFs; callsAfterFailure: () => number } {
   let calls = 0;
+  let lines = 0;
+  let tornAt = 0;
   let failedAt = 0;
   return {
     callsAfterFailure: () => (failedAt === 0 ? -1 : calls - failedAt),
@@ -327,12 +332,17 @@ function failingFs(failAt: number): { fs: ShardFs; callsAfterFailure: () => numb
       closeSync: (fd) => fs.closeSync(fd),
       writeSync(fd, buffer, offset = 0) {
         calls++;
-        if (calls === failAt + 1) {
+        if (tornAt !== 0 && calls === tornAt + 1) {
           failedAt = calls;
           throw Object.assign(new Error('ENOSPC: no space left on device, write'), { code: 'ENOSPC' });
         }
-        // Short by the last 10 bytes: the call's last line is torn, whatever lines come before it.
-        if (calls === failAt) return fs.writeSync(fd, buffer, offset, buffer.length - offset - 10);
+        const view = buffer.subarray(offset);
+        for (const byte of view) if (byte === 10) lines++;
+        // The call's last line is torn, whatever lines come before it.
+        if (tornAt === 0 && lines >= failAtLine) {
+          tornAt = calls;
+          return fs.writeSync(fd, buffer, offset, buffer.length - offset - 10);
+        }
         return fs.writeSync(fd, buffer, offset);
       },
     },
