@@ -12,6 +12,13 @@ import type { RunProgress, RunStart, RunSweepOptions, RunSweepResult } from './r
 
 /** Failure messages logged individually before the log only counts them. */
 const LOGGED_FAILURES = 5;
+/**
+ * Shortest time between the starts of two syncs of the run's shard (ms). A
+ * job counts as done only once a sync covers its record, but nothing waits on
+ * one job here, and back-to-back syncs (one per three 1 ms trials, measured)
+ * took CPU time from the threads: see docs/performance.md.
+ */
+export const EMBEDDED_SYNC_GAP_MS = 20;
 /** Finished jobs skipped between two looks at signals and progress while fast-forwarding. */
 const SKIP_BATCH = 5_000;
 
@@ -58,6 +65,7 @@ export class EmbeddedRun {
       root: options.root,
       writer,
       durability: 'each-job',
+      minSyncGapMs: EMBEDDED_SYNC_GAP_MS,
       ...(options.shardFs === undefined ? {} : { fs: options.shardFs }),
     });
     this.pool = new ThreadPool({

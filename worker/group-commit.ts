@@ -22,11 +22,18 @@ export class GroupCommit {
   private waiters: Waiter[] = [];
   /** A failed sync poisons the writer: every later wait fails with its error. */
   private failure: Error | undefined;
+  /** When the last sync started (performance.now()). */
+  private lastStart = Number.NEGATIVE_INFINITY;
 
-  /** `settled(n)` runs once per sync, before its n waiters hear of it (n = 0 when it covered none). */
+  /**
+   * `settled(n)` runs once per sync, before its n waiters hear of it (n = 0
+   * when it covered none). A sync starts at least `minGapMs` after the one
+   * before it started (see ShardSinksOptions.minSyncGapMs).
+   */
   constructor(
     private readonly writer: ShardWriter,
     private readonly settled: (waiters: number) => void = () => undefined,
+    private readonly minGapMs = 0,
   ) {}
 
   /**
@@ -58,6 +65,18 @@ export class GroupCommit {
 
   private start(): void {
     if (this.running || this.waiters.length === 0) return;
+    const wait = this.lastStart + this.minGapMs - performance.now();
+    if (wait > 0) {
+      // Too soon after the last sync: one later sync covers these waiters and those still to come.
+      if (this.scheduled) return;
+      this.scheduled = true;
+      setTimeout(() => {
+        this.scheduled = false;
+        this.start();
+      }, wait);
+      return;
+    }
+    this.lastStart = performance.now();
     this.running = true;
     // Every line appended before the sync starts is on disk when it ends.
     const target = this.writer.appended;

@@ -114,14 +114,9 @@ class AppendFile {
   ) {}
 
   appendLine(line: string): void {
-    const earlier = this.poison.error;
-    if (earlier !== undefined) {
-      throw new ShardWriteError(
-        `refusing to append to ${this.path}: an earlier write to ${earlier.file} failed (${describeCause(earlier.cause)}), so this writer writes nothing more`,
-        this.path,
-        { cause: earlier.cause },
-      );
-    }
+    // After a failed write nothing more is appended; the caller gets that failure itself, whichever
+    // call notices it first (a write is deferred, so an append may come before the sync that would have).
+    this.throwIfPoisoned();
     this.held.push(line);
     this.heldBytes += line.length;
     if (this.heldBytes >= FLUSH_BYTES) this.flush();

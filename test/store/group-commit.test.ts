@@ -212,4 +212,41 @@ describe('group commit of result records', () => {
     await durable;
     expect(gate.events).toEqual(['sync started', 'sync ended', 'close']);
   });
+  it('starts a sync no sooner than the minimum gap after the one before, and covers the records of the gap with one sync', async () => {
+    const starts: number[] = [];
+    const timed: ShardFs = {
+      mkdirSync: (path, options) => fs.mkdirSync(path, options),
+      openSync: (path, flags) => fs.openSync(path, flags),
+      writeSync: (fd, buffer, offset) => fs.writeSync(fd, buffer, offset),
+      fdatasyncSync: (fd) => fs.fdatasyncSync(fd),
+      closeSync: (fd) => fs.closeSync(fd),
+      fdatasync: (fd, done) => {
+        starts.push(performance.now());
+        fs.fdatasync(fd, done);
+      },
+    };
+    const gapMs = 200;
+    const sinks = new ShardSinks({ root, writer: WRITER, durability: 'each-job', fs: timed, minSyncGapMs: gapMs });
+    const writer = sinks.writerFor('gc-test');
+    writer.appendResult(resultFor(sweep, 0));
+    await sinks.durable('gc-test');
+    expect(starts).toHaveLength(1);
+    // 30 more records over 10 turns of the event loop, well inside the gap on any machine.
+    const waits: Array<Promise<void>> = [];
+    for (let turn = 0; turn < 10; turn++) {
+      for (let i = 0; i < 3; i++) {
+        writer.appendResult(resultFor(sweep, 1 + turn * 3 + i));
+        waits.push(sinks.durable('gc-test'));
+      }
+      await new Promise((next) => setImmediate(next));
+    }
+    expect(sinks.awaiting).toBe(30);
+    await Promise.all(waits);
+    expect(sinks.awaiting).toBe(0);
+    expect(starts).toHaveLength(2);
+    // Timers may fire a little early by the clock they are compared with (common practice, no source): 1 ms of slack.
+    expect((starts[1] as number) - (starts[0] as number)).toBeGreaterThanOrEqual(gapMs - 1);
+    sinks.close();
+    expect((await store.completedKeys()).size).toBe(31);
+  });
 });
