@@ -31,7 +31,7 @@ const CHUNK = 500;
 function trialKeysOf(finished: FinishedValue): ReadonlySet<string> | undefined {
   if (!looksLikeBatch(finished.data)) return new Set([finished.key]);
   const batch = unpackBatch(finished.data);
-  return batch.ok ? new Set(batch.payloads.map((p) => p.key)) : undefined;
+  return batch.ok ? new Set(batch.trials.keys) : undefined;
 }
 
 /** `gather DIR`: the sweep of the folder, gathered from the queue the settings name. */

@@ -127,9 +127,9 @@ export async function sweepProgress(
       for (const finished of values) {
         const batch = unpackBatch(finished.data);
         if (!batch.ok) continue;
-        for (const payload of batch.payloads) {
-          if (doneKeys.has(payload.key)) continue;
-          doneKeys.add(payload.key);
+        for (const key of batch.trials.keys) {
+          if (doneKeys.has(key)) continue;
+          doneKeys.add(key);
           finishedNotGathered++;
           finishTimes.push(finishedAt.get(finished.key) ?? 0);
         }

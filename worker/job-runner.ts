@@ -34,6 +34,30 @@ export type JobResult =
     };
 
 /**
+ * The trials of a batch: an array of payloads, or a batch's trials whose
+ * payloads are built as they are handed to a thread (shared/queue/batch-payload.ts).
+ */
+export interface TrialPayloads {
+  readonly length: number;
+  at(index: number): unknown;
+}
+
+/** A batch being run by executeBatch(). */
+interface BatchInFlight {
+  readonly folder: string;
+  readonly payloads: TrialPayloads;
+  readonly attempt: number;
+  /** By trial index, filled as trials end. */
+  readonly results: JobResult[];
+  /** Trials handed to the pool so far (the next one's index). */
+  handed: number;
+  /** Trials whose record was appended. */
+  settled: number;
+  readonly done: (results: JobResult[]) => void;
+  readonly fail: (error: Error) => void;
+}
+
+/**
  * Runs one job end to end: thread pool -> outcome -> result or failure
  * record -> shard -> durable as the sinks' policy asks. The embedded runner
  * and the queue worker both run every job through here, so a job gives the
@@ -42,6 +66,11 @@ export type JobResult =
  * written (the job then counts as not done).
  */
 export class JobRunner {
+  /** Batches with trials not yet settled, oldest first. */
+  private readonly batches: BatchInFlight[] = [];
+  /** Trials of batches handed to the pool and not yet settled. */
+  private batchTrialsInPool = 0;
+
   constructor(private readonly options: JobRunnerOptions) {}
 
   get threads(): number {
@@ -50,7 +79,7 @@ export class JobRunner {
 
   async execute(request: JobRequest): Promise<JobResult> {
     const outcome = await this.options.pool.run(request.payload);
-    const result = this.append(request, outcome);
+    const result = this.append(request.folder, request.attempt, outcome);
     if (result.ok || result.failure !== undefined) await this.options.sinks.durable(request.folder);
     return result;
   }
@@ -58,42 +87,84 @@ export class JobRunner {
   /**
    * Runs the trials of one queue job (a batch), each checked and recorded as
    * a job of its own: one record (result or failure) per trial, in a shard of
-   * `folder`. As many trials are in the pool as a thread holds (pool.appetite
-   * per thread), so a thread never waits for this batch's next trial; records are appended as trials end and one
-   * group commit at the end covers all of them, so the batch is reported only
-   * once every record it made is durable. Rejects as execute() does; records
-   * of the trials that ended before stay (a re-run writes equal records,
-   * which the store reads once).
+   * `folder`. Trials go to the pool oldest batch first, keeping the pool's
+   * appetite of them in flight: a batch runs on every thread while the next
+   * one waits behind it, so the threads go on with the next batch while one
+   * syncs and is reported (batches fed side by side all ended together, and
+   * the threads waited for their turn-over). Records are appended as trials
+   * end and one group commit at the end covers all of them, so the batch is
+   * reported only once every record it made is durable. Rejects as execute()
+   * does; records of the trials that ended before stay (a re-run writes equal
+   * records, which the store reads once).
    */
-  async executeBatch(folder: string, payloads: readonly unknown[], attempt: number): Promise<JobResult[]> {
-    const { pool } = this.options;
-    const results: JobResult[] = [];
-    const ahead: Promise<JobOutcome>[] = [];
-    let handed = 0;
-    // As many trials in the pool as one thread holds, plus one: more while trials are short.
-    const topUp = (): void => {
-      const window = Math.ceil(pool.appetite / pool.threads);
-      while (handed < payloads.length && ahead.length < window) ahead.push(pool.run(payloads[handed++]));
-    };
-    try {
-      for (let i = 0; i < payloads.length; i++) {
-        topUp();
-        const current = ahead.shift() as Promise<JobOutcome>;
-        results.push(this.append({ payload: payloads[i], folder, attempt }, await current));
-      }
-    } finally {
-      // Trials started ahead of a failure: let them settle so their rejections are not left unhandled.
-      for (const pending of ahead) pending.catch(() => undefined);
-    }
+  async executeBatch(folder: string, payloads: TrialPayloads, attempt: number): Promise<JobResult[]> {
+    if (payloads.length === 0) return [];
+    const results = await new Promise<JobResult[]>((done, fail) => {
+      this.batches.push({
+        folder,
+        payloads,
+        attempt,
+        results: new Array(payloads.length),
+        handed: 0,
+        settled: 0,
+        done,
+        fail,
+      });
+      this.feedBatches();
+    });
     await this.options.sinks.durable(folder);
     return results;
   }
 
+  /** Hands trials of the oldest batches to the pool until it holds its appetite of them. */
+  private feedBatches(): void {
+    const { pool } = this.options;
+    while (this.batchTrialsInPool < pool.appetite) {
+      const batch = this.batches.find((b) => b.handed < b.payloads.length);
+      if (batch === undefined) return;
+      const index = batch.handed++;
+      this.batchTrialsInPool++;
+      pool.run(batch.payloads.at(index)).then(
+        (outcome) => this.settleTrial(batch, index, outcome),
+        (error: unknown) => this.failBatch(batch, error),
+      );
+    }
+  }
+
+  private settleTrial(batch: BatchInFlight, index: number, outcome: JobOutcome): void {
+    this.batchTrialsInPool--;
+    // A batch that failed already is re-run whole: what its other trials did is not needed.
+    if (this.batches.includes(batch)) {
+      try {
+        batch.results[index] = this.append(batch.folder, batch.attempt, outcome);
+        batch.settled++;
+        if (batch.settled === batch.payloads.length) {
+          this.batches.splice(this.batches.indexOf(batch), 1);
+          batch.done(batch.results);
+        }
+      } catch (error) {
+        this.failBatch(batch, error, false);
+      }
+    }
+    this.feedBatches();
+  }
+
+  /** The batch fails with its first error; its trials not yet handed over never run. */
+  private failBatch(batch: BatchInFlight, error: unknown, fromPool = true): void {
+    if (fromPool) this.batchTrialsInPool--;
+    const at = this.batches.indexOf(batch);
+    if (at >= 0) {
+      this.batches.splice(at, 1);
+      batch.fail(error instanceof Error ? error : new Error(String(error)));
+    }
+    this.feedBatches();
+  }
+
   /** The outcome as a result, its record appended to the folder's shard (not yet synced). */
-  private append(request: JobRequest, outcome: JobOutcome): JobResult {
+  private append(folder: string, attempt: number, outcome: JobOutcome): JobResult {
     const { sinks } = this.options;
     if (outcome.ok) {
-      sinks.writerFor(request.folder).appendResult(outcome.record);
+      sinks.writerFor(folder).appendResult(outcome.record);
       return outcome;
     }
     let failure: FailureRecord | undefined;
@@ -110,9 +181,9 @@ export class JobRunner {
         writer: sinks.writer,
         run: this.options.run,
         at: new Date().toISOString(),
-        attempt: request.attempt,
+        attempt,
       };
-      sinks.writerFor(request.folder).appendFailure(failure);
+      sinks.writerFor(folder).appendFailure(failure);
     }
     return { ok: false, kind: outcome.kind, message: outcome.message, retryable: outcome.retryable, failure };
   }

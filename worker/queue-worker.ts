@@ -170,7 +170,7 @@ export class QueueWorker {
     if (!batch.ok) return { kind: 'failed', reason: `invalid: ${batch.message}`, retry: false };
     let results: Awaited<ReturnType<JobRunner['executeBatch']>>;
     try {
-      results = await this.options.runner.executeBatch(folder, batch.payloads, job.attempt);
+      results = await this.options.runner.executeBatch(folder, batch.trials, job.attempt);
     } catch (error) {
       if (!isErrorOf(error, PoolUnavailable)) throw error;
       if (isErrorOf(error, PoolBroken)) this.options.onFatal?.(error.message);

@@ -13,14 +13,36 @@ import { MAX_BATCH_TRIALS } from './batch-size.js';
 export const MAX_BATCH_BODY_CHARS = 8 << 20;
 
 /** One trial of a batch: its replicate number and job key (its seed is derived from the key). */
-const TrialSchema = z.tuple([z.number().int().min(0).max(1_000_000), JobKeySchema]);
+type BatchTrialEntry = [replicate: number, key: string];
+
+const KEY_PATTERN = /^[0-9a-f]{32}$/;
+const isTrialEntry = (value: unknown): boolean =>
+  Array.isArray(value) &&
+  value.length === 2 &&
+  Number.isInteger(value[0]) &&
+  (value[0] as number) >= 0 &&
+  (value[0] as number) <= 1_000_000 &&
+  typeof value[1] === 'string' &&
+  KEY_PATTERN.test(value[1]);
+
+/**
+ * The trials of a group, checked in one loop rather than element by element:
+ * a worker's main thread checks up to 1,000 of them while its threads wait,
+ * and per-element checks were 0.6 ms of a 1 ms unpack (measured). Each trial
+ * is checked again in full as a job of its own, in the thread that runs it.
+ */
+const TrialsSchema = z.custom<BatchTrialEntry[]>(
+  (value) =>
+    Array.isArray(value) && value.length >= 1 && value.length <= MAX_BATCH_TRIALS && value.every(isTrialEntry),
+  { message: `must list 1 to ${MAX_BATCH_TRIALS} trials, each [replicate, job key of 32 lower-case hex digits]` },
+);
 
 /** Consecutive trials of one parameter point: the parameters are carried once for all of them. */
 const GroupSchema = z
   .object({
     params: z.record(z.string(), z.unknown()),
     point: PointSchema,
-    trials: z.array(TrialSchema).min(1).max(MAX_BATCH_TRIALS),
+    trials: TrialsSchema,
   })
   .strict();
 
@@ -102,8 +124,71 @@ export function looksLikeBatch(data: unknown): boolean {
   return typeof data === 'object' && data !== null && 'packed' in data;
 }
 
+/**
+ * The trials of a checked batch. Their keys are at hand; a trial's payload
+ * (with its seed, one hash each) is built when asked for, so a worker builds
+ * each as it hands the trial to a thread instead of all 1,000 at once, which
+ * held its main thread for about 2 ms while the threads ran dry.
+ */
+export class BatchTrials {
+  /** Trial keys in batch order. */
+  readonly keys: readonly string[];
+  private readonly groupOf: readonly number[];
+  private readonly replicates: readonly number[];
+
+  constructor(
+    private readonly sweep: BatchPayload['sweep'],
+    private readonly body: BatchBody,
+  ) {
+    const keys: string[] = [];
+    const groupOf: number[] = [];
+    const replicates: number[] = [];
+    body.groups.forEach((group, at) => {
+      for (const [replicate, key] of group.trials) {
+        keys.push(key);
+        groupOf.push(at);
+        replicates.push(replicate);
+      }
+    });
+    this.keys = keys;
+    this.groupOf = groupOf;
+    this.replicates = replicates;
+  }
+
+  get length(): number {
+    return this.keys.length;
+  }
+
+  /** The payload of trial `index` (0-based, batch order), as the trial has it as a job of its own. */
+  at(index: number): JobPayload {
+    const key = this.keys[index];
+    const group = this.body.groups[this.groupOf[index] ?? -1];
+    if (key === undefined || group === undefined)
+      throw new RangeError(`a batch of ${this.length} trials has no trial ${index}`);
+    const { model, modelVersion, rootSeed, timeoutMs } = this.body;
+    return {
+      v: 1,
+      sweep: this.sweep,
+      key,
+      model,
+      modelVersion,
+      params: group.params,
+      point: group.point,
+      replicate: this.replicates[index] as number,
+      seed: jobSeed(rootSeed, key),
+      rootSeed,
+      ...(timeoutMs === undefined ? {} : { timeoutMs }),
+    };
+  }
+
+  /** Every trial's payload, in batch order. */
+  payloads(): JobPayload[] {
+    return this.keys.map((_, index) => this.at(index));
+  }
+}
+
 export type UnpackedBatch =
-  | { readonly ok: true; readonly sweepName: string; readonly payloads: readonly JobPayload[] }
+  | { readonly ok: true; readonly sweepName: string; readonly trials: BatchTrials }
   | { readonly ok: false; readonly message: string };
 
 /**
@@ -148,33 +233,17 @@ export function unpackBatch(data: unknown): UnpackedBatch {
       .join('; ');
     return { ok: false, message: `invalid batch payload: ${detail}` };
   }
-  const { model, modelVersion, rootSeed, groups, timeoutMs } = body.data;
-  const payloads: JobPayload[] = [];
-  const keys = new Set<string>();
-  for (const group of groups) {
-    for (const [replicate, key] of group.trials) {
-      if (keys.has(key)) return { ok: false, message: `invalid batch payload: trial ${key} appears twice` };
-      keys.add(key);
-      payloads.push({
-        v: 1,
-        sweep: outer.data.sweep,
-        key,
-        model,
-        modelVersion,
-        params: group.params,
-        point: group.point,
-        replicate,
-        seed: jobSeed(rootSeed, key),
-        rootSeed,
-        ...(timeoutMs === undefined ? {} : { timeoutMs }),
-      });
-    }
+  const trials = new BatchTrials(outer.data.sweep, body.data);
+  const keys = new Set(trials.keys);
+  if (keys.size !== trials.length) {
+    const twice = trials.keys.find((key, at) => trials.keys.indexOf(key) !== at);
+    return { ok: false, message: `invalid batch payload: trial ${twice} appears twice` };
   }
-  if (payloads.length !== outer.data.trials) {
+  if (trials.length !== outer.data.trials) {
     return {
       ok: false,
-      message: `invalid batch payload: payload.trials says ${outer.data.trials} but it packs ${payloads.length}`,
+      message: `invalid batch payload: payload.trials says ${outer.data.trials} but it packs ${trials.length}`,
     };
   }
-  return { ok: true, sweepName: outer.data.sweep.name, payloads };
+  return { ok: true, sweepName: outer.data.sweep.name, trials };
 }

@@ -72,7 +72,7 @@ afterEach(async () => {
 function runBatch(data: unknown): JobVerdict {
   const batch = unpackBatch(data);
   if (!batch.ok) throw new Error(batch.message);
-  const records = batch.payloads.map((p: JobPayload) => {
+  const records = batch.trials.payloads().map((p: JobPayload) => {
     const outcome = runJob(p, { writer: 'memory-worker', run: 'r1' });
     if (!outcome.ok) throw new Error(outcome.message);
     return outcome.record;
@@ -126,7 +126,7 @@ describe('trials per queue job against the in-memory queue', () => {
     const carried = queue.all().flatMap((j) => {
       const batch = unpackBatch(j.data);
       if (!batch.ok) throw new Error(batch.message);
-      return batch.payloads;
+      return batch.trials.payloads();
     });
     // The single-job payloads the planner makes for the same trials (shared/sweep/expand.ts).
     expect(carried).toEqual(jobs.map((job) => toPayload(sweep, job)));
