@@ -1,7 +1,7 @@
 import { deflateRawSync, inflateRawSync } from 'node:zlib';
 import { z } from 'zod';
 import { jobSeed } from '../job-identity.js';
-import { JobKeySchema, type JobPayload, JobPayloadSchema, PointSchema, SeedSchema } from '../schemas/records.js';
+import { type JobPayload, JobPayloadSchema, PointSchema, SeedSchema } from '../schemas/records.js';
 import { SweepNameSchema } from '../sweep/name.js';
 import { MAX_BATCH_TRIALS } from './batch-size.js';
 
@@ -32,8 +32,7 @@ const isTrialEntry = (value: unknown): boolean =>
  * is checked again in full as a job of its own, in the thread that runs it.
  */
 const TrialsSchema = z.custom<BatchTrialEntry[]>(
-  (value) =>
-    Array.isArray(value) && value.length >= 1 && value.length <= MAX_BATCH_TRIALS && value.every(isTrialEntry),
+  (value) => Array.isArray(value) && value.length >= 1 && value.length <= MAX_BATCH_TRIALS && value.every(isTrialEntry),
   { message: `must list 1 to ${MAX_BATCH_TRIALS} trials, each [replicate, job key of 32 lower-case hex digits]` },
 );
 

@@ -13,6 +13,7 @@ import { JobRunner } from '../../worker/job-runner.js';
 import { QueueWorker } from '../../worker/queue-worker.js';
 import { ShardSinks } from '../../worker/shard-sinks.js';
 import { ThreadPool } from '../../worker/thread-pool.js';
+import { nodeShardFs } from '../fixtures/shard-fs.js';
 import { useTestModels } from '../fixtures/test-models.js';
 import { deleteKeys, removeDir, SHARED_REDIS, tempDir, uniqueQueue, waitFor } from './helpers.js';
 
@@ -40,18 +41,13 @@ afterEach(async () => {
 function holdingFs() {
   const held: Array<() => void> = [];
   const state = { holding: true };
-  const shardFs: ShardFs = {
-    mkdirSync: (path, options) => fs.mkdirSync(path, options),
-    openSync: (path, flags) => fs.openSync(path, flags),
-    writeSync: (fd, buffer, offset) => fs.writeSync(fd, buffer, offset),
-    fdatasyncSync: (fd) => fs.fdatasyncSync(fd),
-    closeSync: (fd) => fs.closeSync(fd),
+  const shardFs = nodeShardFs({
     fdatasync: (fd, done) => {
       const run = (): void => fs.fdatasync(fd, done);
       if (state.holding) held.push(run);
       else run();
     },
-  };
+  });
   return {
     fs: shardFs,
     held,

@@ -3,9 +3,10 @@ import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import { ResultStore, type ShardFs } from '../../shared/store/result-store.js';
+import { ResultStore } from '../../shared/store/result-store.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { ShardSinks } from '../../worker/shard-sinks.js';
+import { nodeShardFs } from '../fixtures/shard-fs.js';
 import { useTestModels } from '../fixtures/test-models.js';
 import { resultFor } from './record-fixture.js';
 
@@ -34,11 +35,7 @@ function gatedFs(file: () => string, failWith?: NodeJS.ErrnoException) {
   const events: string[] = [];
   let onCall: (() => void) | undefined;
   const countLines = (): number => fs.readFileSync(file(), 'utf8').split('\n').length - 1;
-  const shardFs: ShardFs = {
-    mkdirSync: (path, options) => fs.mkdirSync(path, options),
-    openSync: (path, flags) => fs.openSync(path, flags),
-    writeSync: (fd, buffer, offset) => fs.writeSync(fd, buffer, offset),
-    fdatasyncSync: (fd) => fs.fdatasyncSync(fd),
+  const shardFs = nodeShardFs({
     closeSync: (fd) => {
       events.push('close');
       fs.closeSync(fd);
@@ -61,7 +58,7 @@ function gatedFs(file: () => string, failWith?: NodeJS.ErrnoException) {
       });
       onCall?.();
     },
-  };
+  });
   return {
     fs: shardFs,
     held,
@@ -145,17 +142,12 @@ describe('group commit of result records', () => {
 
   it('shares fdatasync calls between jobs finishing together on the real disk and loses none of their records', async () => {
     let syncs = 0;
-    const counting: ShardFs = {
-      mkdirSync: (path, options) => fs.mkdirSync(path, options),
-      openSync: (path, flags) => fs.openSync(path, flags),
-      writeSync: (fd, buffer, offset) => fs.writeSync(fd, buffer, offset),
-      fdatasyncSync: (fd) => fs.fdatasyncSync(fd),
-      closeSync: (fd) => fs.closeSync(fd),
+    const counting = nodeShardFs({
       fdatasync: (fd, done) => {
         syncs++;
         fs.fdatasync(fd, done);
       },
-    };
+    });
     const sinks = new ShardSinks({ root, writer: WRITER, durability: 'each-job', fs: counting });
     const writer = sinks.writerFor('gc-test');
     const waits: Array<Promise<void>> = [];
@@ -214,17 +206,12 @@ describe('group commit of result records', () => {
   });
   it('starts a sync no sooner than the minimum gap after the one before, and covers the records of the gap with one sync', async () => {
     const starts: number[] = [];
-    const timed: ShardFs = {
-      mkdirSync: (path, options) => fs.mkdirSync(path, options),
-      openSync: (path, flags) => fs.openSync(path, flags),
-      writeSync: (fd, buffer, offset) => fs.writeSync(fd, buffer, offset),
-      fdatasyncSync: (fd) => fs.fdatasyncSync(fd),
-      closeSync: (fd) => fs.closeSync(fd),
+    const timed = nodeShardFs({
       fdatasync: (fd, done) => {
         starts.push(performance.now());
         fs.fdatasync(fd, done);
       },
-    };
+    });
     const gapMs = 200;
     const sinks = new ShardSinks({ root, writer: WRITER, durability: 'each-job', fs: timed, minSyncGapMs: gapMs });
     const writer = sinks.writerFor('gc-test');
