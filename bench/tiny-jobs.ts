@@ -8,9 +8,15 @@
  * start-up out. CPU time is the figure to trust on a shared
  * machine: wall time also counts waiting for a core.
  *
+ * With a queue, the embedded runner also runs as `recallscape run` in a
+ * process of its own, measured as the worker is: the worker / embedded
+ * ratio compares those two, since a fresh process warms up where the bench
+ * process is already warm.
+ *
  * RECALLSCAPE_BENCH_TINY_JOBS sets the no-op trials per run (default 10,000;
  * the tiny model runs 0.3 times as many); RECALLSCAPE_BENCH_TINY_NOW_ONLY=1
- * keeps only the batched worker and the embedded runner, for long runs.
+ * keeps only the batched worker and the embedded runner in its own process,
+ * for long runs.
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
@@ -116,6 +122,63 @@ export async function embeddedTiny(
       jobs: finished,
       rate: (finished - 1) / ((lastAt - firstAt) / 1000),
       cpuMsPerJob: cpu / (finished - warmCount),
+    };
+  } finally {
+    await rm(root, { recursive: true, force: true });
+  }
+}
+
+/**
+ * The embedded runner as users start it, `recallscape run` in a process of
+ * its own, on `jobs` tiny trials in a fresh folder: measured as the queue
+ * worker is (rates from the records, CPU from /proc), so that neither has
+ * the bench process's warm compiled code on its side.
+ */
+export async function embeddedProcessTiny(threads: number, jobs: number, kind: JobKind = 'no-op'): Promise<TinyRun> {
+  const root = await mkdtemp(join(tmpdir(), 'rs-bench-tinyp-'));
+  const file = join(root, 'tiny.yaml');
+  const yaml = tinySweepYaml('bench-tiny', jobs, kind);
+  const planned = countJobs(parseSweepText(yaml, 'tiny (bench)'));
+  await writeFile(file, yaml);
+  const out = join(root, 'out');
+  const resultsDir = join(out, 'bench-tiny', 'results');
+  try {
+    const args = [CLI, 'run', file, '--out', out, '--threads', String(threads), '--no-report', '--models', TEST_MODELS];
+    const child = spawn(process.execPath, args, { stdio: ['ignore', 'ignore', 'pipe'] });
+    let stderr = '';
+    child.stderr?.on('data', (d: Buffer) => {
+      stderr += d.toString();
+    });
+    let exited = false;
+    const closed = new Promise<number | null>((done) =>
+      child.once('close', (code) => {
+        exited = true;
+        done(code);
+      }),
+    );
+    const pid = child.pid as number;
+    // (bytes written, CPU so far) every 20 ms while the process lives; the last sample is the end.
+    const samples: { bytes: number; cpu: number }[] = [];
+    while (!exited) {
+      try {
+        samples.push({ bytes: await recordBytes(resultsDir), cpu: await processCpuMs(pid) });
+      } catch {
+        // The process ended between the check and the read.
+      }
+      await sleep(20);
+    }
+    const code = await closed;
+    if (code !== 0) throw new Error(`recallscape run exited with ${String(code)}: ${stderr.slice(-500)}`);
+    const records = await readRecords(resultsDir);
+    if (records.count !== planned) throw new Error(`${records.count} of ${planned} trials recorded`);
+    const end = samples[samples.length - 1] ?? { bytes: records.bytes, cpu: Number.NaN };
+    const warm = samples.find((x) => x.bytes >= records.bytes * WARM_SHARE) ?? end;
+    const perRecord = records.bytes / records.count;
+    const windowTrials = (end.bytes - warm.bytes) / perRecord;
+    return {
+      jobs: planned,
+      rate: (planned - 1) / ((records.last - records.first) / 1000),
+      cpuMsPerJob: windowTrials > 0 ? (end.cpu - warm.cpu) / windowTrials : Number.NaN,
     };
   } finally {
     await rm(root, { recursive: true, force: true });
@@ -367,10 +430,17 @@ export async function compareTinyJobs(queue: { url: string; client: Redis } | un
         { label: 'embedded before group commit', measure: () => embeddedTiny('before', threads, jobs, kind) },
         { label: 'embedded now', measure: () => embeddedTiny('now', threads, jobs, kind) },
       );
+      if (queue !== undefined)
+        contenders.push({
+          label: 'embedded now, own process',
+          measure: () => embeddedProcessTiny(threads, jobs, kind),
+        });
       // RECALLSCAPE_BENCH_TINY_NOW_ONLY=1: the batched worker and the embedded runner alone (long runs).
       const nowOnly = process.env['RECALLSCAPE_BENCH_TINY_NOW_ONLY'] === '1';
       const chosen = nowOnly
-        ? contenders.filter((c) => c.label === 'queue worker now, batched (auto)' || c.label === 'embedded now')
+        ? contenders.filter(
+            (c) => c.label === 'queue worker now, batched (auto)' || c.label === 'embedded now, own process',
+          )
         : contenders;
       const m = await sideBySide(chosen, ROUNDS);
       const get = (label: string): Figures => m.get(label) ?? { rate: Number.NaN, cpuMsPerJob: Number.NaN };
@@ -387,9 +457,11 @@ export async function compareTinyJobs(queue: { url: string; client: Redis } | un
           `queue worker batched now / before: ${ratio(qn.rate, qb.rate)}x trials/s, ${ratio(qb.cpuMsPerJob, qn.cpuMsPerJob)}x trials per CPU-second (goal >= 2x)`,
           `queue worker 1 trial a job now / before: ${ratio(q1.rate, qb.rate)}x trials/s, ${ratio(qb.cpuMsPerJob, q1.cpuMsPerJob)}x trials per CPU-second`,
         );
+        // Both in processes of their own, measured alike (embeddedProcessTiny).
+        const ep = get('embedded now, own process');
         lines.push(
-          `queue worker batched / embedded now: ${ratio(qn.rate, en.rate)} in trials/s, ${ratio(en.cpuMsPerJob, qn.cpuMsPerJob)} in trials per CPU-second (goal 0.9 to 1.1)`,
-          `queue worker 1 trial a job / embedded now: ${ratio(q1.rate, en.rate)} in trials/s, ${ratio(en.cpuMsPerJob, q1.cpuMsPerJob)} in trials per CPU-second`,
+          `queue worker batched / embedded now, own process: ${ratio(qn.rate, ep.rate)} in trials/s, ${ratio(ep.cpuMsPerJob, qn.cpuMsPerJob)} in trials per CPU-second (goal 0.9 to 1.1)`,
+          `queue worker 1 trial a job / embedded now, own process: ${ratio(q1.rate, ep.rate)} in trials/s, ${ratio(ep.cpuMsPerJob, q1.cpuMsPerJob)} in trials per CPU-second`,
         );
       }
       // A ratio with a contender left out says nothing.
