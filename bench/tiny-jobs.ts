@@ -135,13 +135,7 @@ export async function embeddedTiny(
  * the bench process's warm compiled code on its side.
  */
 export async function embeddedProcessTiny(threads: number, jobs: number, kind: JobKind = 'no-op'): Promise<TinyRun> {
-  const root = await mkdtemp(join(tmpdir(), 'rs-bench-tinyp-'));
-  const file = join(root, 'tiny.yaml');
-  const yaml = tinySweepYaml('bench-tiny', jobs, kind);
-  const planned = countJobs(parseSweepText(yaml, 'tiny (bench)'));
-  await writeFile(file, yaml);
-  const out = join(root, 'out');
-  const resultsDir = join(out, 'bench-tiny', 'results');
+  const { root, file, planned, out, resultsDir } = await tinyFolder('rs-bench-tinyp-', jobs, kind);
   try {
     const args = [CLI, 'run', file, '--out', out, '--threads', String(threads), '--no-report', '--models', TEST_MODELS];
     const child = spawn(process.execPath, args, { stdio: ['ignore', 'ignore', 'pipe'] });
@@ -158,7 +152,7 @@ export async function embeddedProcessTiny(threads: number, jobs: number, kind: J
     );
     const pid = child.pid as number;
     // (bytes written, CPU so far) every 20 ms while the process lives; the last sample is the end.
-    const samples: { bytes: number; cpu: number }[] = [];
+    const samples: Sample[] = [];
     while (!exited) {
       try {
         samples.push({ bytes: await recordBytes(resultsDir), cpu: await processCpuMs(pid) });
@@ -169,20 +163,54 @@ export async function embeddedProcessTiny(threads: number, jobs: number, kind: J
     }
     const code = await closed;
     if (code !== 0) throw new Error(`recallscape run exited with ${String(code)}: ${stderr.slice(-500)}`);
-    const records = await readRecords(resultsDir);
-    if (records.count !== planned) throw new Error(`${records.count} of ${planned} trials recorded`);
-    const end = samples[samples.length - 1] ?? { bytes: records.bytes, cpu: Number.NaN };
-    const warm = samples.find((x) => x.bytes >= records.bytes * WARM_SHARE) ?? end;
-    const perRecord = records.bytes / records.count;
-    const windowTrials = (end.bytes - warm.bytes) / perRecord;
-    return {
-      jobs: planned,
-      rate: (planned - 1) / ((records.last - records.first) / 1000),
-      cpuMsPerJob: windowTrials > 0 ? (end.cpu - warm.cpu) / windowTrials : Number.NaN,
-    };
+    return await runFigures(resultsDir, planned, samples, samples[samples.length - 1]);
   } finally {
     await rm(root, { recursive: true, force: true });
   }
+}
+
+/** Bytes of records written and CPU time of the process so far (ms), at one moment of a run. */
+interface Sample {
+  readonly bytes: number;
+  readonly cpu: number;
+}
+
+/** A fresh folder with the sweep file of `jobs` tiny trials of `kind`, and where its records go. */
+async function tinyFolder(
+  prefix: string,
+  jobs: number,
+  kind: JobKind,
+): Promise<{ root: string; file: string; planned: number; out: string; resultsDir: string }> {
+  const root = await mkdtemp(join(tmpdir(), prefix));
+  const file = join(root, 'tiny.yaml');
+  const yaml = tinySweepYaml('bench-tiny', jobs, kind);
+  const planned = countJobs(parseSweepText(yaml, 'tiny (bench)'));
+  await writeFile(file, yaml);
+  const out = join(root, 'out');
+  return { root, file, planned, out, resultsDir: join(out, 'bench-tiny', 'results') };
+}
+
+/**
+ * A child process's figures from its records and CPU samples: trials/s
+ * between the first and the last finished trial, and CPU per trial from the
+ * sample where WARM_SHARE of the records' bytes were written to `end`.
+ */
+async function runFigures(
+  resultsDir: string,
+  planned: number,
+  samples: readonly Sample[],
+  end: Sample | undefined,
+): Promise<TinyRun> {
+  const records = await readRecords(resultsDir);
+  if (records.count !== planned) throw new Error(`${records.count} of ${planned} trials recorded`);
+  const last = end ?? { bytes: records.bytes, cpu: Number.NaN };
+  const warm = samples.find((x) => x.bytes >= records.bytes * WARM_SHARE) ?? last;
+  const windowTrials = (last.bytes - warm.bytes) / (records.bytes / records.count);
+  return {
+    jobs: planned,
+    rate: (planned - 1) / ((records.last - records.first) / 1000),
+    cpuMsPerJob: windowTrials > 0 ? (last.cpu - warm.cpu) / windowTrials : Number.NaN,
+  };
 }
 
 /** User plus system CPU of a process and all its threads, in ms. */
@@ -250,7 +278,7 @@ export async function queueTiny(
   kind: JobKind = 'no-op',
   batch: number | 'auto' = 1,
 ): Promise<TinyRun> {
-  const root = await mkdtemp(join(tmpdir(), 'rs-bench-tinyq-'));
+  const { root, file, planned, out, resultsDir } = await tinyFolder('rs-bench-tinyq-', jobs, kind);
   const tag = randomBytes(3).toString('hex');
   const settings = queueSettings({
     redis: url,
@@ -258,12 +286,6 @@ export async function queueTiny(
     prefix: `rsbt${tag}`,
     connectTimeout: '10000',
   });
-  const file = join(root, 'tiny.yaml');
-  const yaml = tinySweepYaml('bench-tiny', jobs, kind);
-  const planned = countJobs(parseSweepText(yaml, 'tiny (bench)'));
-  await writeFile(file, yaml);
-  const out = join(root, 'out');
-  const resultsDir = join(out, 'bench-tiny', 'results');
   try {
     await submitSweep(file, out, settings, undefined, batch === 'auto' ? {} : { batch });
     const args =
@@ -301,23 +323,14 @@ export async function queueTiny(
       const base = `${settings.queue.prefix}:${settings.queue.name}`;
       // (bytes written, CPU so far) every 20 ms: the CPU window opens at the
       // sample where 5% of the final bytes were written.
-      const samples: { bytes: number; cpu: number }[] = [];
+      const samples: Sample[] = [];
       for (;;) {
         samples.push({ bytes: await recordBytes(resultsDir), cpu: await processCpuMs(pid) });
         if ((await unfinished(client, base)) === 0) break;
         await sleep(20);
       }
       const end = { bytes: await recordBytes(resultsDir), cpu: await processCpuMs(pid) };
-      const records = await readRecords(resultsDir);
-      if (records.count !== planned) throw new Error(`${records.count} of ${planned} trials recorded`);
-      const warm = samples.find((s) => s.bytes >= end.bytes * WARM_SHARE) ?? end;
-      const perRecord = records.bytes / records.count;
-      const windowTrials = records.count - warm.bytes / perRecord;
-      return {
-        jobs: planned,
-        rate: (planned - 1) / ((records.last - records.first) / 1000),
-        cpuMsPerJob: windowTrials > 0 ? (end.cpu - warm.cpu) / windowTrials : Number.NaN,
-      };
+      return await runFigures(resultsDir, planned, samples, end);
     } finally {
       child.kill('SIGTERM');
       await closed;

@@ -65,7 +65,8 @@ export class GroupCommit {
 
   private start(): void {
     if (this.running || this.waiters.length === 0) return;
-    const wait = this.lastStart + this.minGapMs - performance.now();
+    const now = performance.now();
+    const wait = this.lastStart + this.minGapMs - now;
     if (wait > 0) {
       // Too soon after the last sync: one later sync covers these waiters and those still to come.
       if (this.scheduled) return;
@@ -76,7 +77,7 @@ export class GroupCommit {
       }, wait);
       return;
     }
-    this.lastStart = performance.now();
+    this.lastStart = now;
     this.running = true;
     // Every line appended before the sync starts is on disk when it ends.
     const target = this.writer.appended;

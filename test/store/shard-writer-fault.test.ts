@@ -3,6 +3,7 @@ import { mkdtemp, readdir, readFile, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import type { FailureRecord } from '../../shared/schemas/records.js';
 import { ResultStore, type ShardFs } from '../../shared/store/result-store.js';
 import { type LoadedSweep, parseSweepText } from '../../shared/sweep/load.js';
 import { useTestModels } from '../fixtures/test-models.js';
@@ -39,6 +40,23 @@ function failingFs(failAt: number): ShardFs {
       }
       return fs.writeSync(fd, buffer, offset);
     },
+  };
+}
+
+/** A failure record of the sweep's fourth job, as a worker would write it. */
+function failureRecord(sweep: LoadedSweep): FailureRecord {
+  return {
+    v: 1,
+    key: resultFor(sweep, 3).key,
+    sweepHash: sweep.hash,
+    kind: 'exception',
+    message: 'x',
+    point: { value: 4 },
+    replicate: 0,
+    writer: 'w',
+    run: 'r1',
+    at: '2026-01-01T00:00:00.000Z',
+    attempt: 1,
   };
 }
 
@@ -81,21 +99,9 @@ describe('shard writer after a failed write', () => {
       expect.objectContaining({ name: 'ShardWriteError' }),
     );
     expect(() => writer.appendResult(resultFor(sweep, 2))).toThrow(file);
-    expect(() =>
-      writer.appendFailure({
-        v: 1,
-        key: resultFor(sweep, 3).key,
-        sweepHash: sweep.hash,
-        kind: 'exception',
-        message: 'x',
-        point: { value: 4 },
-        replicate: 0,
-        writer: 'w',
-        run: 'r1',
-        at: '2026-01-01T00:00:00.000Z',
-        attempt: 1,
-      }),
-    ).toThrow(expect.objectContaining({ name: 'ShardWriteError' }));
+    expect(() => writer.appendFailure(failureRecord(sweep))).toThrow(
+      expect.objectContaining({ name: 'ShardWriteError' }),
+    );
     writer.close();
 
     const text = await readFile(file, 'utf8');
@@ -117,19 +123,7 @@ describe('shard writer after a failed write', () => {
     await store.prepare(sweep);
     const writer = store.openWriter('host-1-fault2', failingFs(1));
     // Both held until the sync: the results line is written first, tears, and the disk then fails.
-    writer.appendFailure({
-      v: 1,
-      key: resultFor(sweep, 3).key,
-      sweepHash: sweep.hash,
-      kind: 'exception',
-      message: 'x',
-      point: { value: 4 },
-      replicate: 0,
-      writer: 'w',
-      run: 'r1',
-      at: '2026-01-01T00:00:00.000Z',
-      attempt: 1,
-    });
+    writer.appendFailure(failureRecord(sweep));
     writer.appendResult(resultFor(sweep, 0));
     expect(() => writer.sync()).toThrow(expect.objectContaining({ name: 'ShardWriteError' }));
     writer.close();
