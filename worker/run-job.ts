@@ -166,7 +166,15 @@ function failed(payload: JobPayload, error: unknown): JobOutcome {
   return { ok: false, kind: 'exception', message, retryable: true, payload };
 }
 
-function succeeded(payload: JobPayload, run: ModelRun, context: JobContext): JobOutcome {
+/**
+ * The outcome of a run that ended well, with its result record. The record
+ * is valid by construction: every part comes from the payload checked by
+ * JobPayloadSchema, the metrics checked by MetricsSchema (run-model.ts), the
+ * pool's context, or is made here. So the main thread writes it without a
+ * second check (ShardWriter.appendCheckedResult): that check cost it about
+ * 8% of its time on short jobs, where it is the bottleneck.
+ */
+export function succeeded(payload: JobPayload, run: ModelRun, context: JobContext): JobOutcome {
   const record: ResultRecord = {
     v: 1,
     key: payload.key,

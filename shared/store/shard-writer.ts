@@ -15,6 +15,13 @@ export interface ShardWriter {
    * torn line).
    */
   appendResult(record: ResultRecord): void;
+  /**
+   * A result record made by a pool thread (worker/run-job.ts `succeeded`)
+   * from a checked payload and checked metrics, valid by construction:
+   * written without checking it again. Every other record goes through
+   * appendResult.
+   */
+  appendCheckedResult(record: ResultRecord): void;
   appendFailure(record: FailureRecord): void;
   /** Lines appended so far (results and failures): a sync started now covers this many. */
   readonly appended: number;
@@ -269,6 +276,11 @@ export function createShardWriter(
       if (!checked.success)
         throw new TypeError(`refusing to write a malformed result record: ${checked.error.message}`);
       results.appendLine(`${JSON.stringify(checked.data)}\n`);
+      appended++;
+    },
+    appendCheckedResult(record: ResultRecord): void {
+      open();
+      results.appendLine(`${JSON.stringify(record)}\n`);
       appended++;
     },
     appendFailure(record: FailureRecord): void {
