@@ -16,6 +16,7 @@ const SECTIONS: readonly Section[] = [
   { name: 'startup', load: () => import('./startup.js') },
   { name: 'adaptive', load: () => import('./adaptive.js') },
   { name: 'integrity', load: () => import('./integrity.js') },
+  { name: 'builds', load: () => import('./builds.js') },
 ];
 
 const wanted = process.argv.slice(2);

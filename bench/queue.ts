@@ -43,7 +43,7 @@ import { type QueueSettings, queueSettings } from '../coordinator/queue-session.
 import { submitSweep } from '../coordinator/submit-sweep.js';
 import { registerModelFolders } from '../shared/models/external/model-folders.js';
 import { REDIS_URL_ENV } from '../shared/redis-url.js';
-import { compareTinyJobs } from './tiny-jobs.js';
+import { compareTinyJobs, deleteKeys } from './tiny-jobs.js';
 
 const CLI = fileURLToPath(new URL('../../bin/recallscape.js', import.meta.url));
 /** The no-op model is a test model (a module model), not built in: the workers and this process load it. */
@@ -68,7 +68,7 @@ interface Server {
   stop(): Promise<void>;
 }
 
-async function startServer(): Promise<Server> {
+export async function startServer(): Promise<Server> {
   const port = await freePort();
   const child = spawn(
     'redis-server',
@@ -203,7 +203,7 @@ async function throughput(
         `after gather ${g.removed} jobs freed, the queue keeps ${((after - baseline) / 2 ** 20).toFixed(2)} MB (events stream and metadata, independent of sweep size)`,
     );
   }
-  await deleteQueue(client, settings.queue.prefix);
+  await deleteKeys(client, settings.queue.prefix);
 }
 
 let baseline = 0;
@@ -224,15 +224,6 @@ async function syncLatency(dir: string): Promise<number> {
   }
   times.sort((a, b) => a - b);
   return times[50] ?? NaN;
-}
-
-async function deleteQueue(client: Redis, prefix: string): Promise<void> {
-  let cursor = '0';
-  do {
-    const [next, keys] = await client.scan(cursor, 'MATCH', `${prefix}:*`, 'COUNT', 1000);
-    cursor = next;
-    if (keys.length > 0) await client.del(...keys);
-  } while (cursor !== '0');
 }
 
 /** Trials per run of the batching matrix (RECALLSCAPE_BENCH_BATCH_TRIALS scales both). */
@@ -338,7 +329,7 @@ async function batchRun(
       `, ${((finished - base - stream) / trials).toFixed(0)} B without the event stream (${(stream / 1024).toFixed(0)} KiB, bounded)` +
       ` [${trials} trials, submit ${((t1 - t0) / 1000).toFixed(1)} s]`,
   );
-  await deleteQueue(client, settings.queue.prefix);
+  await deleteKeys(client, settings.queue.prefix);
 }
 
 export async function run(): Promise<void> {
@@ -407,7 +398,7 @@ async function earlierFigures(): Promise<void> {
     t0 = performance.now();
     const cancelled = await cancelSweep(join(root, 'submit', 'bench-submit'), settings, undefined);
     console.log(`  cancel ${cancelled.removed} waiting jobs: ${(ms(t0) / 1000).toFixed(2)} s`);
-    await deleteQueue(client, prefix);
+    await deleteKeys(client, prefix);
 
     const small = join(root, 'run.yaml');
     await writeFile(
@@ -424,7 +415,7 @@ async function earlierFigures(): Promise<void> {
       await throughput(server.url, client, 2, prefetch, root, small);
     }
   } finally {
-    await deleteQueue(client, prefix).catch(() => undefined);
+    await deleteKeys(client, prefix).catch(() => undefined);
     client.disconnect();
     await server.stop();
     await rm(root, { recursive: true, force: true });
