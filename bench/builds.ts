@@ -19,17 +19,15 @@
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
-import { readFile, rm } from 'node:fs/promises';
+import { rm } from 'node:fs/promises';
 import { fileURLToPath } from 'node:url';
 import { Redis } from 'ioredis';
 import { registerModelFolders } from '../shared/models/external/model-folders.js';
 import { startServer } from './queue.js';
-import { deleteKeys, type JobKind, median, readRecords, tinyFolder, unfinished } from './tiny-jobs.js';
+import { deleteKeys, type JobKind, median, processCpuMs, readRecords, tinyFolder, unfinished } from './tiny-jobs.js';
 
 const THIS_CLI = fileURLToPath(new URL('../../bin/recallscape.js', import.meta.url));
 const TEST_MODELS = fileURLToPath(new URL('../../test/fixtures/models', import.meta.url));
-/** Linux clock ticks per second (getconf CLK_TCK), the unit of /proc/<pid>/stat times. */
-const CLOCK_TICKS = 100;
 const ROUNDS = 3;
 
 /** Trials per run: long enough that start-up is a small part, short enough for about 10 minutes in all. */
@@ -51,12 +49,7 @@ interface Timing {
 }
 
 /** CPU time (ms) of every child of this process that has ended and been reaped. */
-async function reapedChildrenCpuMs(): Promise<number> {
-  const stat = await readFile('/proc/self/stat', 'utf8');
-  const fields = stat.slice(stat.lastIndexOf(')') + 2).split(' ');
-  // cutime and cstime are fields 16 and 17 of the line, 14 and 15 after the command name.
-  return ((Number(fields[13]) + Number(fields[14])) * 1000) / CLOCK_TICKS;
-}
+const reapedChildrenCpuMs = (): Promise<number> => processCpuMs('self', true);
 
 /** Runs `node <cli> ...args` to its end; rejects with its last words unless it exits 0. */
 function command(

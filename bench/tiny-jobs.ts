@@ -213,12 +213,17 @@ async function runFigures(
   };
 }
 
-/** User plus system CPU of a process and all its threads, in ms. */
-async function processCpuMs(pid: number): Promise<number> {
+/**
+ * User plus system CPU of a process and all its threads, in ms, from
+ * /proc/<pid>/stat; with `reapedChildren`, that of its children that ended
+ * and were waited for instead (cutime and cstime).
+ */
+export async function processCpuMs(pid: number | 'self', reapedChildren = false): Promise<number> {
   const stat = await readFile(`/proc/${pid}/stat`, 'utf8');
   const fields = stat.slice(stat.lastIndexOf(')') + 2).split(' ');
-  // utime and stime are fields 14 and 15 of the line, 12 and 13 after the command name.
-  return ((Number(fields[11]) + Number(fields[12])) * 1000) / CLOCK_TICKS;
+  // utime, stime, cutime and cstime are fields 14 to 17 of the line, 12 to 15 after the command name.
+  const at = reapedChildren ? 13 : 11;
+  return ((Number(fields[at]) + Number(fields[at + 1])) * 1000) / CLOCK_TICKS;
 }
 
 /** Trials a run's records hold, and the first and last finishedAt among them (ms). */

@@ -268,6 +268,11 @@ export function createShardWriter(
   const open = (): void => {
     if (closed) throw new Error(`shard writer ${writer} is closed`);
   };
+  const writeResult = (record: ResultRecord): void => {
+    open();
+    results.appendLine(`${JSON.stringify(record)}\n`);
+    appended++;
+  };
   return {
     writer,
     appendResult(record: ResultRecord): void {
@@ -275,14 +280,9 @@ export function createShardWriter(
       const checked = ResultRecordSchema.safeParse(record);
       if (!checked.success)
         throw new TypeError(`refusing to write a malformed result record: ${checked.error.message}`);
-      results.appendLine(`${JSON.stringify(checked.data)}\n`);
-      appended++;
+      writeResult(checked.data);
     },
-    appendCheckedResult(record: ResultRecord): void {
-      open();
-      results.appendLine(`${JSON.stringify(record)}\n`);
-      appended++;
-    },
+    appendCheckedResult: writeResult,
     appendFailure(record: FailureRecord): void {
       open();
       const checked = FailureRecordSchema.safeParse(record);
