@@ -41,6 +41,8 @@ interface Build {
   readonly cli: string;
   /** `--models <dir>` when the build does not have the no-op model built in. */
   readonly models: readonly string[];
+  /** `--no-report` where `run` has it; builds before it never wrote a report at the end of `run`. */
+  readonly runFlags: readonly string[];
 }
 
 interface Timing {
@@ -94,6 +96,20 @@ async function hasBuiltInNoOp(cli: string): Promise<boolean> {
   }
 }
 
+/** Whether `cli run` takes --no-report (without it, older builds ended `run` with a hint, not a report). */
+async function runHasNoReport(cli: string): Promise<boolean> {
+  const child = spawn(process.execPath, [cli, 'run', '--help'], { stdio: ['ignore', 'pipe', 'ignore'] });
+  let help = '';
+  child.stdout.on('data', (d: Buffer) => {
+    help += d.toString();
+  });
+  await new Promise<void>((done, fail) => {
+    child.once('error', fail);
+    child.once('close', () => done());
+  });
+  return help.includes('--no-report');
+}
+
 async function checkRecorded(resultsDir: string, planned: number, build: Build): Promise<void> {
   const { count } = await readRecords(resultsDir);
   if (count !== planned) throw new Error(`${build.label}: ${count} of ${planned} trials recorded`);
@@ -105,7 +121,7 @@ async function wholeRun(build: Build, kind: JobKind, threads: number, trials: nu
   try {
     const cpu0 = await reapedChildrenCpuMs();
     const t0 = performance.now();
-    const args = ['run', file, '--out', out, '--threads', String(threads), '--no-report', ...build.models];
+    const args = ['run', file, '--out', out, '--threads', String(threads), ...build.runFlags, ...build.models];
     await command(build.cli, args).exited;
     const wallMs = performance.now() - t0;
     const cpuMs = (await reapedChildrenCpuMs()) - cpu0;
@@ -194,7 +210,12 @@ export async function run(): Promise<void> {
     ['other build', otherCli],
     ['this build', THIS_CLI],
   ] as const) {
-    builds.push({ label, cli, models: (await hasBuiltInNoOp(cli)) ? [] : ['--models', TEST_MODELS] });
+    builds.push({
+      label,
+      cli,
+      models: (await hasBuiltInNoOp(cli)) ? [] : ['--models', TEST_MODELS],
+      runFlags: (await runHasNoReport(cli)) ? ['--no-report'] : [],
+    });
   }
   const [other, mine] = builds as [Build, Build];
   const server = await startServer();
