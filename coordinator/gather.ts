@@ -114,7 +114,8 @@ export async function gatherFrom(
             alreadyOnDisk++;
           } else {
             writer ??= store.openWriter(writerId);
-            writer.appendResult(record.data);
+            // Parsed by ResultRecordSchema above: no second check.
+            writer.appendCheckedResult(record.data);
             onDisk.add(record.data.key);
             copied++;
           }

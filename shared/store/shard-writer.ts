@@ -16,9 +16,10 @@ export interface ShardWriter {
    */
   appendResult(record: ResultRecord): void;
   /**
-   * A result record made by a pool thread (worker/run-job.ts `succeeded`)
-   * from a checked payload and checked metrics, valid by construction:
-   * written without checking it again. Every other record goes through
+   * A result record known valid, written without checking it again: one made
+   * by a pool thread (worker/run-job.ts `succeeded`) from a checked payload
+   * and checked metrics, valid by construction, or one that is the output of
+   * ResultRecordSchema.safeParse (gather). Every other record goes through
    * appendResult.
    */
   appendCheckedResult(record: ResultRecord): void;
