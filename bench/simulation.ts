@@ -244,9 +244,14 @@ const SIZES: readonly Size[] = [
   { H: 50, M: 100, warmup: 1, trials: 6, block: 1, budgetMs: 15_000 },
 ];
 
-function sizes(): void {
+/**
+ * CPU per trial at four sizes. With noise every unit is updated; without,
+ * recall updates one unit per class of each kind of hypercolumn
+ * (recall-layout.ts), so noise-free trials are timed too.
+ */
+function sizes(noise: number): void {
   console.log(
-    '\nL=6, K=2, defaults, noise 0.5; weightGain 10/H above H = 10 so that the larger networks recall; medians (cpu over blocks of trials)',
+    `\nL=6, K=2, defaults, noise ${noise}; weightGain 10/H above H = 10 so that the larger networks recall; medians (cpu over blocks of trials)`,
   );
   console.log(
     'size (H,M)   N      weightGain  trials  success  train ms  recall ms  wall ms  cpu ms  cpu us/step     goal',
@@ -254,7 +259,7 @@ function sizes(): void {
   let peakHeap = 0;
   for (const size of SIZES) {
     const weightGain = size.H > 10 ? 10 / size.H : 1;
-    const p = params({ hypercolumns: size.H, minicolumns: size.M, noise: 0.5, weightGain });
+    const p = params({ hypercolumns: size.H, minicolumns: size.M, noise, weightGain });
     const shape = resolveShape(p);
     const recallSteps = shape.K * (shape.nCue + shape.nFree);
     for (let i = 0; i < size.warmup; i++) bcpnnSequences.run(p, 1000 + i);
@@ -366,7 +371,8 @@ export async function run(): Promise<void> {
   );
   primitives();
   sideBySide();
-  sizes();
+  sizes(0.5);
+  sizes(0);
   earlyStop();
   console.log(
     `(load average ${load()} at the end; wall-clock figures include waiting for a core, cpu figures do not, but a busy machine slows every operation: shared caches and cores)`,

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { bcpnnSequences, makePatternSet } from '../../shared/models/bcpnn-sequences/index.js';
-import type { BcpnnParams } from '../../shared/models/bcpnn-sequences/params.js';
+import { type BcpnnParams, resolveShape } from '../../shared/models/bcpnn-sequences/params.js';
+import { sharedLayout } from '../../shared/models/bcpnn-sequences/recall-layout.js';
 import { denseWeights, perUnit } from '../../shared/models/bcpnn-sequences/training.js';
 import { createRandom } from '../../shared/random.js';
 import { densePJoint, maxAbsError, maxRelativeError, params, referenceConfig, trainTrial } from './helpers.js';
@@ -130,6 +131,19 @@ describe('the fast path against the step-by-step reference', () => {
       }),
       3,
     );
+  });
+
+  it('matches where recall without noise updates one unit per class of each kind of hypercolumn', () => {
+    for (const [input, seed] of [
+      [{ hypercolumns: 5, minicolumns: 9, sequenceCount: 2, sequenceLength: 3, overlapLength: 1 }, 4],
+      [{ hypercolumns: 4, minicolumns: 12, sequenceCount: 2, sequenceLength: 4, patternOverlap: 0.5 }, 6],
+    ] as const) {
+      const p = params({ ...input, recallDuration: 300 });
+      const { set, net } = trainTrial(p, seed);
+      // The layout the model's recall takes without noise stands for more units than it updates.
+      expect(sharedLayout(net, set, resolveShape(p)).size).toBeLessThan(net.N / 2);
+      compare(p, seed);
+    }
   });
 
   it('matches on the default network shape with shared units (M < K*L) and full overlap', () => {

@@ -49,11 +49,22 @@ describe('trial outcomes', () => {
   });
 
   it('estimates a cost that grows with the network and the recall time', () => {
-    const small = bcpnnSequences.cost(params({}));
-    const wide = bcpnnSequences.cost(params({ hypercolumns: 25, minicolumns: 100 }));
-    const long = bcpnnSequences.cost(params({ recallDuration: 4000 }));
+    const small = bcpnnSequences.cost(params({ noise: 0.5 }));
+    const wide = bcpnnSequences.cost(params({ hypercolumns: 25, minicolumns: 100, noise: 0.5 }));
+    const long = bcpnnSequences.cost(params({ recallDuration: 4000, noise: 0.5 }));
     expect(small).toBeGreaterThan(1e6);
     expect(wide).toBeGreaterThan(10 * small);
     expect(long).toBeGreaterThan(3 * small);
+  });
+
+  it('estimates a noise-free trial by the units its recall updates, not by the network size', () => {
+    // By hand: 12 patterns on distinct minicolumns of every hypercolumn leave each hypercolumn with
+    // 12 one-unit classes and one idle class, at (10, 20) as at (25, 100): 13 units updated per step.
+    const quiet = bcpnnSequences.cost(params({}));
+    const quietWide = bcpnnSequences.cost(params({ hypercolumns: 25, minicolumns: 100 }));
+    const noisy = bcpnnSequences.cost(params({ noise: 0.5 }));
+    expect(quietWide).toBeLessThan(2 * quiet);
+    expect(noisy).toBeGreaterThan(5 * quiet);
+    expect(bcpnnSequences.cost(params({ recallDuration: 4000 }))).toBeGreaterThan(3 * quiet);
   });
 });

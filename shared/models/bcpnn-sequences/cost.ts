@@ -1,4 +1,25 @@
 import { type BcpnnParams, resolveShape } from './params.js';
+import { sharedLayoutSize } from './recall-layout.js';
+import { makePatternSet } from './trial-patterns.js';
+
+/** Units a noise-free recall updates, by pattern shape: every job of a point asks again (time limits, plans). */
+const quietUnitsByShape = new Map<string, number>();
+const QUIET_UNITS_CACHE = 1024;
+
+function quietUnits(p: BcpnnParams): number {
+  const s = resolveShape(p);
+  const key =
+    p.sequences === undefined
+      ? `${s.H} ${s.M} ${s.K} ${s.L} ${p.patternOverlap} ${s.k} ${s.start}`
+      : JSON.stringify(p.sequences);
+  let units = quietUnitsByShape.get(key);
+  if (units === undefined) {
+    units = sharedLayoutSize(makePatternSet(p, 0), s);
+    if (quietUnitsByShape.size >= QUIET_UNITS_CACHE) quietUnitsByShape.clear();
+    quietUnitsByShape.set(key, units);
+  }
+  return units;
+}
 
 /**
  * Estimated arithmetic operations of one trial, following what the fast path
@@ -6,7 +27,10 @@ import { type BcpnnParams, resolveShape } from './params.js';
  * once per constant segment; recall costs O(N) per step for the support,
  * softmax (one exp per unit, counted as 20 operations) and adaptation, plus
  * O(G^2) for the class product, plus a normal draw per unit per step when
- * noise > 0 (counted as 30 operations).
+ * noise > 0 (counted as 30 operations). Without noise recall updates one unit
+ * per class of each kind of hypercolumn (recall-layout.ts); how many, the
+ * patterns of seed 0 tell (other seeds give the same count, or up to about
+ * half or twice it where overlaps fall on different hypercolumns).
  */
 export function estimateCost(p: BcpnnParams): number {
   const s = resolveShape(p);
@@ -16,7 +40,8 @@ export function estimateCost(p: BcpnnParams): number {
   // Classes: one per distinct pattern and per shared unit, plus the unused units.
   const G = Math.min(s.N, nP * 2 + 1);
   const training = segments * 4 * nP * nP + scalarSteps * 20 + s.N * nP + G * G * 30;
-  const perStep = s.N * (12 + 20 + (p.noise > 0 ? 30 : 0)) + 2 * G * G + nP * (s.H + 2);
+  const units = p.noise > 0 ? s.N : quietUnits(p);
+  const perStep = units * (12 + 20 + (p.noise > 0 ? 30 : 0)) + 2 * G * G + nP * (s.H + 2);
   const recall = s.K * (s.nCue + s.nFree) * perStep;
   return Math.round(training + recall);
 }

@@ -4,21 +4,13 @@ import { estimateCost } from './cost.js';
 import { DecisionWatch } from './decision-watch.js';
 import { metricInfo } from './metric-info.js';
 import { type BcpnnParams, bcpnnParamsSchema, paramInfo, resolveShape } from './params.js';
-import { achievedOverlap, generateSequences, indexPatterns, type PatternSet } from './patterns.js';
+import { achievedOverlap, type PatternSet } from './patterns.js';
 import { DIVERGED, Recaller } from './recall.js';
 import { scoreRecall } from './scoring.js';
 import { type TrainedNetwork, train } from './training.js';
+import { makePatternSet } from './trial-patterns.js';
 
-/** The stored sequences of a trial: explicit, or drawn from the 'patterns' stream. */
-export function makePatternSet(p: BcpnnParams, seed: number): PatternSet {
-  const shape = resolveShape(p);
-  if (p.sequences !== undefined) return indexPatterns(p.sequences);
-  const rng = createRandom(seed, 'patterns');
-  return generateSequences(
-    { H: shape.H, M: shape.M, K: shape.K, L: shape.L, f: p.patternOverlap, k: shape.k, start: shape.start },
-    rng,
-  );
-}
+export { makePatternSet };
 
 export interface TrialParts {
   readonly set: PatternSet;
@@ -93,7 +85,11 @@ export function recallTrial(p: BcpnnParams, seed: number, parts: TrialParts, opt
 export const bcpnnSequences: Model<typeof bcpnnParamsSchema> = {
   id: 'bcpnn-sequences',
   // 1.1.0 added stopWhenDecided, which enters every job key; with it off the metrics are those of 1.0.0.
-  version: '1.1.0',
+  // 1.2.0: recall without noise updates one unit per class of each kind of hypercolumn (recall-layout.ts).
+  // Matches differ from 1.1.0 in their last bits (sums of equal terms taken as products); metrics were
+  // identical in every comparison (docs/model.md), but a tie at the threshold could in principle fall the
+  // other way, so the version (and with it every job key) changes.
+  version: '1.2.0',
   summary:
     'Modular attractor network (hypercolumns of minicolumns) trained with the BCPNN rule on K sequences with controlled overlap, then cued recall of each sequence; success when every sequence is replayed in order.',
   params: bcpnnParamsSchema,

@@ -4,6 +4,7 @@ import type { DecisionWatch } from './decision-watch.js';
 import { fillNormal } from './normal-noise.js';
 import type { BcpnnParams, ResolvedShape } from './params.js';
 import type { PatternSet } from './patterns.js';
+import { type RecallLayout, sharedLayout, unitLayout } from './recall-layout.js';
 import { activeAt } from './scoring.js';
 import type { TrainedNetwork } from './training.js';
 
@@ -17,7 +18,9 @@ export const DIVERGED = -1;
  * summed output of every class, because all units of a class share their
  * weights: (w o)_i = sum_g W[class(i)][g] * O_g with O_g = sum of o over
  * class g. That is exact (only the order of additions changes) and costs
- * O(N + G^2) per step instead of O(N^2). All buffers are allocated once.
+ * O(N + G^2) per step instead of O(N^2). Without noise the loop goes further
+ * and updates one representative per class of each kind of hypercolumn
+ * (recall-layout.ts). All buffers are allocated once.
  */
 export class Recaller {
   private readonly s: Float64Array;
@@ -26,8 +29,8 @@ export class Recaller {
   private readonly classSum: Float64Array;
   private readonly classInput: Float64Array;
   private readonly external: Float64Array;
-  /** patternUnits[k * H + h]: the active unit of pattern k in hypercolumn h. */
-  readonly patternUnits: Int32Array;
+  /** The units the loop updates: every unit, or (without noise) one per class of each kind of hypercolumn. */
+  readonly layout: RecallLayout;
   readonly nPatterns: number;
   readonly steps: number;
   private readonly matches: Float64Array;
@@ -37,19 +40,18 @@ export class Recaller {
     private readonly set: PatternSet,
     private readonly p: BcpnnParams,
     private readonly shape: ResolvedShape,
+    /** Which units to update; by default every unit with noise, one per class of each kind of hypercolumn without. */
+    layout?: RecallLayout,
   ) {
-    const { N, H, M } = shape;
-    this.s = new Float64Array(N);
-    this.o = new Float64Array(N);
-    this.a = new Float64Array(N);
+    this.layout = layout ?? (p.noise > 0 ? unitLayout(net, set, shape) : sharedLayout(net, set, shape));
+    const R = this.layout.size;
+    this.s = new Float64Array(R);
+    this.o = new Float64Array(R);
+    this.a = new Float64Array(R);
     this.classSum = new Float64Array(net.G);
     this.classInput = new Float64Array(net.G);
-    this.external = new Float64Array(N);
+    this.external = new Float64Array(R);
     this.nPatterns = set.patterns.length;
-    this.patternUnits = new Int32Array(this.nPatterns * H);
-    set.patterns.forEach((pattern, k) => {
-      for (let h = 0; h < H; h++) this.patternUnits[k * H + h] = h * M + (pattern[h] as number);
-    });
     this.steps = shape.nCue + shape.nFree;
     this.matches = new Float64Array(this.nPatterns);
   }
@@ -77,9 +79,15 @@ export class Recaller {
     watch: DecisionWatch | null = null,
     alignNoise = false,
   ): number {
-    const { s, o, a, classSum, classInput, external, patternUnits, matches, nPatterns, steps } = this;
-    const { N, H, M, nCue } = this.shape;
-    const { G, classOf, classWeights, classBias } = this.net;
+    const { s, o, a, classSum, classInput, external, matches, nPatterns, steps } = this;
+    const { size: R, types: T, typeStart, typeWeight, repClass, repCount, repWeight, patternRep } = this.layout;
+    const { H, M, nCue } = this.shape;
+    const { G, classWeights, classBias } = this.net;
+    // Noise gives every unit its own input: only the unit layout can take it.
+    if (noise !== null && R !== this.shape.N)
+      throw new RangeError('recall with noise needs the unit layout (params.noise > 0)');
+    // With one unit per representative the counts are all 1: skipping them keeps the noisy loop as fast as before.
+    const counted = this.layout.counted;
     const p = this.p;
     const kS = p.dt / p.tauSupport;
     const kA = p.dt / p.tauAdapt;
@@ -98,11 +106,11 @@ export class Recaller {
     // External input: cue (first nCue steps) plus noise; zero otherwise.
     external.fill(0);
     const cueId = this.set.ids[sequence]?.[0] as number;
-    const cueBase = cueId * H;
+    const cueBase = cueId * T;
     classSum.fill(0);
-    for (let j = 0; j < N; j++) {
-      const g = classOf[j] as number;
-      classSum[g] = (classSum[g] as number) + (o[j] as number);
+    for (let j = 0; j < R; j++) {
+      const g = repClass[j] as number;
+      classSum[g] = (classSum[g] as number) + (repWeight[j] as number) * (o[j] as number);
     }
 
     for (let t = 0; t < steps; t++) {
@@ -115,24 +123,25 @@ export class Recaller {
       }
       if (noise !== null) fillNormal(noise, external, sigma);
       if (t < nCue) {
-        for (let h = 0; h < H; h++) {
-          const i = patternUnits[cueBase + h] as number;
+        for (let kind = 0; kind < T; kind++) {
+          const i = patternRep[cueBase + kind] as number;
           external[i] = (noise !== null ? (external[i] as number) : 0) + cueStrength;
         }
       } else if (t === nCue && noise === null) {
-        for (let h = 0; h < H; h++) external[patternUnits[cueBase + h] as number] = 0;
+        for (let kind = 0; kind < T; kind++) external[patternRep[cueBase + kind] as number] = 0;
       }
       classSum.fill(0);
       let finite = true;
-      for (let h = 0; h < H; h++) {
-        const off = h * M;
-        const end = off + M;
+      // One kind of hypercolumn at a time (with the unit layout, one hypercolumn).
+      for (let kind = 0; kind < T; kind++) {
+        const off = typeStart[kind] as number;
+        const end = typeStart[kind + 1] as number;
         // Support update, then softmax of gain*s in this hypercolumn (max subtracted);
         // o holds gain*s until the exponentials replace it.
         let mx = -Infinity;
         for (let i = off; i < end; i++) {
           const u =
-            (classInput[classOf[i] as number] as number) - adaptGain * (a[i] as number) + (external[i] as number);
+            (classInput[repClass[i] as number] as number) - adaptGain * (a[i] as number) + (external[i] as number);
           const si = s[i] as number;
           const next = si + kS * (u - si);
           s[i] = next;
@@ -144,7 +153,7 @@ export class Recaller {
         for (let i = off; i < end; i++) {
           const e = expNonPositive((o[i] as number) - mx);
           o[i] = e;
-          sum += e;
+          sum += counted ? (repCount[i] as number) * e : e;
         }
         if (!(sum > 0 && sum < Infinity)) finite = false;
         // Output, adaptation, and the class sums for the next step.
@@ -154,8 +163,8 @@ export class Recaller {
           o[i] = oi;
           const ai = a[i] as number;
           a[i] = ai + kA * (oi - ai);
-          const g = classOf[i] as number;
-          classSum[g] = (classSum[g] as number) + oi;
+          const g = repClass[i] as number;
+          classSum[g] = (classSum[g] as number) + (counted ? (repWeight[i] as number) * oi : oi);
         }
       }
       if (!finite) {
@@ -165,8 +174,9 @@ export class Recaller {
       }
       for (let k = 0; k < nPatterns; k++) {
         let sum = 0;
-        const base = k * H;
-        for (let h = 0; h < H; h++) sum += o[patternUnits[base + h] as number] as number;
+        const base = k * T;
+        for (let kind = 0; kind < T; kind++)
+          sum += (typeWeight[kind] as number) * (o[patternRep[base + kind] as number] as number);
         matches[k] = sum * invH;
       }
       const id = activeAt(matches, 0, nPatterns, threshold);
