@@ -11,6 +11,10 @@
  * 3. CPU time per trial at four sizes (the two larger with weightGain = 10/H
  *    so that they recall), with the success rate.
  * 4. stopWhenDecided off and on.
+ * 5. Recall without noise through one representative per class of each kind
+ *    of hypercolumn, against the per-unit loop (the unit layout) on the same
+ *    trained networks: CPU ratio, and whether the active pattern of every
+ *    step is the same.
  *
  * CPU time is this process's (process.cpuUsage: user + system), so waiting
  * for a core on a shared machine is not counted; wall time is shown beside it.
@@ -25,6 +29,8 @@ import { expNonPositive } from '../shared/fast-exp.js';
 import { bcpnnSequences, recallTrial, trainTrial } from '../shared/models/bcpnn-sequences/index.js';
 import { fillNormal } from '../shared/models/bcpnn-sequences/normal-noise.js';
 import { type BcpnnParams, resolveShape } from '../shared/models/bcpnn-sequences/params.js';
+import { Recaller } from '../shared/models/bcpnn-sequences/recall.js';
+import { type RecallLayout, sharedLayout, unitLayout } from '../shared/models/bcpnn-sequences/recall-layout.js';
 import { createRandom } from '../shared/random.js';
 import { baselineFillNormal, baselineRecallTrial, libraryUniform } from './simulation-baseline.js';
 
@@ -364,6 +370,68 @@ function earlyStop(): void {
   }
 }
 
+// ---- 5. representatives --------------------------------------------------
+
+function representatives(): void {
+  const shapes: { label: string; input: Record<string, unknown>; trials: number }[] = [
+    {
+      label: '(4,4), 1 sequence of 3',
+      input: { hypercolumns: 4, minicolumns: 4, sequenceLength: 3, sequenceCount: 1 },
+      trials: 200,
+    },
+    { label: '(10,20)', input: {}, trials: 100 },
+    { label: '(10,20), patternOverlap 0.5', input: { patternOverlap: 0.5 }, trials: 100 },
+    {
+      label: '(16,50), weightGain 10/16',
+      input: { hypercolumns: 16, minicolumns: 50, weightGain: 10 / 16 },
+      trials: 30,
+    },
+    {
+      label: '(25,100), weightGain 10/25',
+      input: { hypercolumns: 25, minicolumns: 100, weightGain: 10 / 25 },
+      trials: 10,
+    },
+  ];
+  console.log(
+    '\nrecall without noise: per-unit loop against one representative per class of each kind of hypercolumn, same networks, alternating by trial',
+  );
+  for (const { label, input, trials } of shapes) {
+    const p = params(input);
+    const shape = resolveShape(p);
+    let unitCpu = 0;
+    let sharedCpu = 0;
+    let same = 0;
+    let reps = 0;
+    for (let seed = 0; seed < trials; seed++) {
+      const { set, net } = trainTrial(p, seed);
+      const recallWith = (layout: RecallLayout): { cpu: number; active: Int32Array[] } => {
+        const active: Int32Array[] = [];
+        const cpu = cpuMs(() => {
+          const recaller = new Recaller(net, set, p, shape, layout);
+          for (let k = 0; k < shape.K; k++) {
+            const a = new Int32Array(recaller.steps);
+            recaller.run(k, null, a, null);
+            active.push(a);
+          }
+        });
+        return { cpu, active };
+      };
+      const shared = sharedLayout(net, set, shape);
+      reps += shared.size;
+      const a = recallWith(unitLayout(net, set, shape));
+      const b = recallWith(shared);
+      unitCpu += a.cpu;
+      sharedCpu += b.cpu;
+      if (a.active.every((x, k) => x.every((id, t) => id === b.active[k]?.[t]))) same++;
+    }
+    console.log(
+      `  ${label.padEnd(30)} N ${String(shape.N).padStart(5)}  representatives ${(reps / trials).toFixed(1).padStart(6)}  ` +
+        `cpu ms per trial ${(unitCpu / trials).toFixed(3)} -> ${(sharedCpu / trials).toFixed(3)} (${(unitCpu / sharedCpu).toFixed(1)}x)  ` +
+        `same active pattern at every step ${same}/${trials}`,
+    );
+  }
+}
+
 export async function run(): Promise<void> {
   const load = () => loadavg()[0]?.toFixed(1) ?? '?';
   console.log(
@@ -374,6 +442,7 @@ export async function run(): Promise<void> {
   sizes(0.5);
   sizes(0);
   earlyStop();
+  representatives();
   console.log(
     `(load average ${load()} at the end; wall-clock figures include waiting for a core, cpu figures do not, but a busy machine slows every operation: shared caches and cores)`,
   );
