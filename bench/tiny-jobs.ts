@@ -66,7 +66,8 @@ export type JobKind = 'no-op' | 'tiny model';
 
 export const KIND_HELP: Record<JobKind, string> = {
   'no-op': 'no-op model: every millisecond is overhead',
-  'tiny model': 'bcpnn-sequences, 4 x 4 units, one sequence of 3 patterns, no noise: about 0.2 ms of model per trial (0.5 ms before model 1.2.0)',
+  'tiny model':
+    'bcpnn-sequences, 4 x 4 units, one sequence of 3 patterns, no noise: about 0.2 ms of model per trial (0.5 ms before model 1.2.0)',
 };
 
 /** A sweep of `kind` with about `jobs` jobs. */
