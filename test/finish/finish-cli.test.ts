@@ -155,7 +155,15 @@ describe('recallscape finish', () => {
 
       const exit = await follower.exited;
       const output = follower.output();
-      expect(exit.code, output).toBe(0);
+      // On failure, what the workers said about failed jobs and the queue too, not only the follower.
+      const warnings = [a, b, again]
+        .flatMap((w, i) =>
+          logLines(w).map((l): Record<string, unknown> => ({ worker: ['A', 'B', 'A again'][i], ...l })),
+        )
+        .filter((l) => l['level'] === 40 || l['level'] === 50 || l['msg'] === 'job failed')
+        .map((l) => JSON.stringify(l))
+        .join('\n');
+      expect(exit.code, `${output}\nworkers:\n${warnings}`).toBe(0);
       const outcome = JSON.parse(output.split('\n').find((l) => l.startsWith('{"name"')) ?? '{}') as {
         end: string;
         planned: number;

@@ -1,4 +1,4 @@
-import { type Job, type JobJson, UnrecoverableError, WaitingError, Worker } from 'bullmq';
+import { DelayedError, type Job, type JobJson, UnrecoverableError, WaitingError, Worker } from 'bullmq';
 import type { Redis } from 'ioredis';
 import { MAX_PAYLOAD_CHARS } from '../job-policy.js';
 import type { QueueTarget } from '../queue-target.js';
@@ -7,6 +7,12 @@ import { closeRedis } from './redis-connect.js';
 
 /** Same reason of trouble logged at most once per this many ms (a Redis outage reports every reconnect). */
 const TROUBLE_EVERY_MS = 30_000;
+
+/**
+ * How long a job waits when it arrives while an earlier copy of it (same id)
+ * still runs here, before it is offered again.
+ */
+export const SAME_ID_DELAY_MS = 500;
 
 /** Why a job's stored data could not be read, by job (set while the job is built, read when it runs). */
 const unreadableJobs = new WeakMap<Job, string>();
@@ -19,6 +25,31 @@ const unreadableJobs = new WeakMap<Job, string>();
  * forever; built this way it reaches the handler, which fails it for good.
  */
 class TolerantWorker extends Worker {
+  /** Ids of the jobs whose processing (handler, then BullMQ's own finish and lock bookkeeping) has not ended. */
+  private readonly processing = new Set<string>();
+  /** Jobs taken while an earlier copy of the same id was still being processed here. */
+  private readonly secondCopies = new WeakSet<Job>();
+
+  override async processJob(job: Job, token: string, fetchNextCallback?: () => boolean): Promise<void | Job> {
+    const id = job.id ?? '';
+    if (this.processing.has(id)) {
+      this.secondCopies.add(job);
+      return super.processJob(job, token, fetchNextCallback);
+    }
+    this.processing.add(id);
+    try {
+      return await super.processJob(job, token, fetchNextCallback);
+    } finally {
+      // Only now has BullMQ stopped renewing this id's lock: a copy taken from here on is safe.
+      this.processing.delete(id);
+    }
+  }
+
+  /** Whether `job` came while an earlier copy of it was still being processed by this worker. */
+  isSecondCopy(job: Job): boolean {
+    return this.secondCopies.has(job);
+  }
+
   protected override createJob(json: JobJson, jobId: string): Job {
     const text = json.data;
     let problem: string | undefined;
@@ -46,7 +77,7 @@ class TolerantWorker extends Worker {
  */
 export class BullmqConsumer implements WorkConsumer {
   readonly counts: ConsumerCounts = { completed: 0, failed: 0 };
-  private readonly worker: Worker;
+  private readonly worker: TolerantWorker;
 
   /** Over a connected client (`maxRetriesPerRequest: null`), which the consumer then owns. */
   constructor(
@@ -108,10 +139,24 @@ export class BullmqConsumer implements WorkConsumer {
   }
 
   private async process(job: Job, token: string | undefined): Promise<unknown> {
+    const id = job.id ?? '';
+    if (this.worker.isSecondCopy(job)) {
+      // A second copy of a job that still runs here: the queue lost the first (Redis lost its data and
+      // the job was queued again under its fixed id, or the first stalled). BullMQ renews locks by job id,
+      // so when the first copy ends it would stop renewing this one's lock: this copy would stall again
+      // and again and fail for good. It waits until the first has ended, without using an attempt.
+      await job.moveToDelayed(Date.now() + SAME_ID_DELAY_MS, token);
+      this.options.logger.warn({ job: id }, 'an earlier copy of this job still runs here; it waits for it');
+      throw new DelayedError(`an earlier copy of job ${id} still runs in this worker`);
+    }
+    return this.run(job, id, token);
+  }
+
+  private async run(job: Job, id: string, token: string | undefined): Promise<unknown> {
     const attempt = job.attemptsMade + 1;
-    this.options.logger.debug({ job: job.id, attempt }, 'job started');
+    this.options.logger.debug({ job: id, attempt }, 'job started');
     const verdict = await this.handler({
-      id: job.id ?? '',
+      id,
       data: job.data,
       unreadable: unreadableJobs.get(job),
       attempt,
