@@ -72,29 +72,27 @@ export function unitLayout(net: TrainedNetwork, set: PatternSet, shape: Resolved
 export function sharedLayout(net: TrainedNetwork, set: PatternSet, shape: ResolvedShape): RecallLayout {
   const { H, M } = shape;
   const { classOf } = net;
+  // Built once per recall of every trial: counts in a scratch array, no per-unit search or allocation.
+  const countOf = new Int32Array(net.G);
   // A hypercolumn's kind: its classes in order of first unit, with their counts.
   const kinds = new Map<string, { classes: number[]; counts: number[]; hypercolumns: number[] }>();
   for (let h = 0; h < H; h++) {
     const classes: number[] = [];
-    const counts: number[] = [];
     for (let i = h * M; i < (h + 1) * M; i++) {
       const g = classOf[i] as number;
-      const at = classes.indexOf(g);
-      if (at < 0) {
-        classes.push(g);
-        counts.push(1);
-      } else {
-        counts[at] = (counts[at] as number) + 1;
-      }
+      const seen = countOf[g] as number;
+      countOf[g] = seen + 1;
+      if (seen === 0) classes.push(g);
     }
     // The order of classes inside a hypercolumn does not change its dynamics: the key is sorted.
-    const key = classes
-      .map((g, x) => [g, counts[x] as number] as const)
-      .sort((x, y) => x[0] - y[0])
-      .join(';');
+    const sorted = classes.slice().sort((x, y) => x - y);
+    let key = '';
+    for (const g of sorted) key += `${g}*${countOf[g] as number},`;
     const kind = kinds.get(key);
-    if (kind === undefined) kinds.set(key, { classes, counts, hypercolumns: [h] });
+    if (kind === undefined)
+      kinds.set(key, { classes, counts: classes.map((g) => countOf[g] as number), hypercolumns: [h] });
     else kind.hypercolumns.push(h);
+    for (const g of classes) countOf[g] = 0;
   }
   const list = [...kinds.values()];
   const types = list.length;
