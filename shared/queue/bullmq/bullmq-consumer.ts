@@ -78,6 +78,8 @@ class TolerantWorker extends Worker {
 export class BullmqConsumer implements WorkConsumer {
   readonly counts: ConsumerCounts = { completed: 0, failed: 0 };
   private readonly worker: TolerantWorker;
+  /** When a job last waited for an earlier copy of itself, by id: said once per TROUBLE_EVERY_MS. */
+  private readonly copyWaitSaid = new Map<string, number>();
 
   /** Over a connected client (`maxRetriesPerRequest: null`), which the consumer then owns. */
   constructor(
@@ -145,8 +147,13 @@ export class BullmqConsumer implements WorkConsumer {
       // the job was queued again under its fixed id, or the first stalled). BullMQ renews locks by job id,
       // so when the first copy ends it would stop renewing this one's lock: this copy would stall again
       // and again and fail for good. It waits until the first has ended, without using an attempt.
-      await job.moveToDelayed(Date.now() + SAME_ID_DELAY_MS, token);
-      this.options.logger.warn({ job: id }, 'an earlier copy of this job still runs here; it waits for it');
+      const now = Date.now();
+      await job.moveToDelayed(now + SAME_ID_DELAY_MS, token);
+      if (now - (this.copyWaitSaid.get(id) ?? 0) >= TROUBLE_EVERY_MS) {
+        if (this.copyWaitSaid.size > 1000) this.copyWaitSaid.clear();
+        this.copyWaitSaid.set(id, now);
+        this.options.logger.warn({ job: id }, 'an earlier copy of this job still runs here; it waits for it');
+      }
       throw new DelayedError(`an earlier copy of job ${id} still runs in this worker`);
     }
     return this.run(job, id, token);
