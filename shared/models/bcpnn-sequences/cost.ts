@@ -1,4 +1,4 @@
-import { type BcpnnParams, resolveShape } from './params.js';
+import { type BcpnnParams, type ResolvedShape, resolveShape } from './params.js';
 import { sharedLayoutSize } from './recall-layout.js';
 import { makePatternSet } from './trial-patterns.js';
 
@@ -6,8 +6,7 @@ import { makePatternSet } from './trial-patterns.js';
 const quietUnitsByShape = new Map<string, number>();
 const QUIET_UNITS_CACHE = 1024;
 
-function quietUnits(p: BcpnnParams): number {
-  const s = resolveShape(p);
+function quietUnits(p: BcpnnParams, s: ResolvedShape): number {
   const key =
     p.sequences === undefined
       ? `${s.H} ${s.M} ${s.K} ${s.L} ${p.patternOverlap} ${s.k} ${s.start}`
@@ -40,7 +39,7 @@ export function estimateCost(p: BcpnnParams): number {
   // Classes: one per distinct pattern and per shared unit, plus the unused units.
   const G = Math.min(s.N, nP * 2 + 1);
   const training = segments * 4 * nP * nP + scalarSteps * 20 + s.N * nP + G * G * 30;
-  const units = p.noise > 0 ? s.N : quietUnits(p);
+  const units = p.noise > 0 ? s.N : quietUnits(p, s);
   const perStep = units * (12 + 20 + (p.noise > 0 ? 30 : 0)) + 2 * G * G + nP * (s.H + 2);
   const recall = s.K * (s.nCue + s.nFree) * perStep;
   return Math.round(training + recall);

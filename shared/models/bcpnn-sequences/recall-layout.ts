@@ -1,6 +1,6 @@
 import type { ResolvedShape } from './params.js';
 import type { PatternSet } from './patterns.js';
-import type { TrainedNetwork } from './training.js';
+import { type TrainedNetwork, unitClasses } from './training.js';
 
 /**
  * The units the recall loop updates, and how many network units each one
@@ -70,31 +70,9 @@ export function unitLayout(net: TrainedNetwork, set: PatternSet, shape: Resolved
  * different is the unit layout.
  */
 export function sharedLayout(net: TrainedNetwork, set: PatternSet, shape: ResolvedShape): RecallLayout {
-  const { H, M } = shape;
+  const { M } = shape;
   const { classOf } = net;
-  // Built once per recall of every trial: counts in a scratch array, no per-unit search or allocation.
-  const countOf = new Int32Array(net.G);
-  // A hypercolumn's kind: its classes in order of first unit, with their counts.
-  const kinds = new Map<string, { classes: number[]; counts: number[]; hypercolumns: number[] }>();
-  for (let h = 0; h < H; h++) {
-    const classes: number[] = [];
-    for (let i = h * M; i < (h + 1) * M; i++) {
-      const g = classOf[i] as number;
-      const seen = countOf[g] as number;
-      countOf[g] = seen + 1;
-      if (seen === 0) classes.push(g);
-    }
-    // The order of classes inside a hypercolumn does not change its dynamics: the key is sorted.
-    const sorted = classes.slice().sort((x, y) => x - y);
-    let key = '';
-    for (const g of sorted) key += `${g}*${countOf[g] as number},`;
-    const kind = kinds.get(key);
-    if (kind === undefined)
-      kinds.set(key, { classes, counts: classes.map((g) => countOf[g] as number), hypercolumns: [h] });
-    else kind.hypercolumns.push(h);
-    for (const g of classes) countOf[g] = 0;
-  }
-  const list = [...kinds.values()];
+  const list = hypercolumnKinds(classOf, net.G, shape);
   const types = list.length;
   const size = list.reduce((n, kind) => n + kind.classes.length, 0);
   const typeStart = new Int32Array(types + 1);
@@ -126,31 +104,46 @@ export function sharedLayout(net: TrainedNetwork, set: PatternSet, shape: Resolv
 }
 
 /**
- * The size of sharedLayout for a pattern set, without training: a unit's
- * class is the set of patterns it belongs to (as in training.ts), so the
- * kinds of hypercolumn follow from the patterns alone. For cost estimates.
+ * The size of sharedLayout for a pattern set, without training: the classes
+ * follow from the patterns alone (training.ts, unitClasses). For cost estimates.
  */
 export function sharedLayoutSize(set: PatternSet, shape: ResolvedShape): number {
+  const { classOf, classSets } = unitClasses(set, shape);
+  return hypercolumnKinds(classOf, classSets.length, shape).reduce((n, kind) => n + kind.classes.length, 0);
+}
+
+interface HypercolumnKind {
+  /** Classes present, in order of first unit. */
+  readonly classes: number[];
+  /** Units of each of those classes in one hypercolumn of this kind. */
+  readonly counts: number[];
+  /** The hypercolumns of this kind, in order. */
+  readonly hypercolumns: number[];
+}
+
+/** Hypercolumns grouped by how many units of each class they hold, in order of first hypercolumn. */
+function hypercolumnKinds(classOf: Int32Array, G: number, shape: ResolvedShape): HypercolumnKind[] {
   const { H, M } = shape;
-  const member: string[] = new Array<string>(M);
-  const kinds = new Set<string>();
-  let size = 0;
+  // Built once per recall of every trial: counts in a scratch array, no per-unit search or allocation.
+  const countOf = new Int32Array(G);
+  const kinds = new Map<string, HypercolumnKind>();
   for (let h = 0; h < H; h++) {
-    member.fill('');
-    set.patterns.forEach((pattern, k) => {
-      const m = pattern[h] as number;
-      member[m] = `${member[m] as string}${k},`;
-    });
-    const counts = new Map<string, number>();
-    for (const key of member) counts.set(key, (counts.get(key) ?? 0) + 1);
-    const kind = [...counts]
-      .map(([key, n]) => `${key}:${n}`)
-      .sort()
-      .join(';');
-    if (!kinds.has(kind)) {
-      kinds.add(kind);
-      size += counts.size;
+    const classes: number[] = [];
+    for (let i = h * M; i < (h + 1) * M; i++) {
+      const g = classOf[i] as number;
+      const seen = countOf[g] as number;
+      countOf[g] = seen + 1;
+      if (seen === 0) classes.push(g);
     }
+    // The order of classes inside a hypercolumn does not change its dynamics: the key is sorted.
+    const sorted = classes.slice().sort((x, y) => x - y);
+    let key = '';
+    for (const g of sorted) key += `${g}*${countOf[g] as number},`;
+    const kind = kinds.get(key);
+    if (kind === undefined)
+      kinds.set(key, { classes, counts: classes.map((g) => countOf[g] as number), hypercolumns: [h] });
+    else kind.hypercolumns.push(h);
+    for (const g of classes) countOf[g] = 0;
   }
-  return size;
+  return [...kinds.values()];
 }

@@ -217,13 +217,14 @@ export function trainPatternTraces(set: PatternSet, p: BcpnnParams, shape: Resol
   return { nP, pPre, pPost, pJoint };
 }
 
-/** Group units by the set of patterns they belong to and form the class weights. */
-export function buildNetwork(
+/**
+ * Units grouped by the set of patterns they belong to: classOf[i] is unit i's
+ * class, classSets[g] the patterns of class g, numbered in order of first unit.
+ */
+export function unitClasses(
   set: PatternSet,
-  traces: PatternTraces,
-  p: BcpnnParams,
   shape: ResolvedShape,
-): TrainedNetwork {
+): { readonly classOf: Int32Array; readonly classSets: number[][] } {
   const { H, M, N } = shape;
   const members: number[][] = Array.from({ length: N }, () => []);
   set.patterns.forEach((pattern, id) => {
@@ -243,6 +244,18 @@ export function buildNetwork(
     }
     classOf[i] = g;
   }
+  return { classOf, classSets };
+}
+
+/** Group units by the set of patterns they belong to and form the class weights. */
+export function buildNetwork(
+  set: PatternSet,
+  traces: PatternTraces,
+  p: BcpnnParams,
+  shape: ResolvedShape,
+): TrainedNetwork {
+  const { classOf, classSets } = unitClasses(set, shape);
+  const N = shape.N;
   const G = classSets.length;
   const nP = traces.nP;
   const classPPre = new Float64Array(G);

@@ -1,4 +1,4 @@
-import { DelayedError, type Job, type JobJson, UnrecoverableError, WaitingError, Worker } from 'bullmq';
+import { type Job, type JobJson, UnrecoverableError, WaitingError, Worker } from 'bullmq';
 import type { Redis } from 'ioredis';
 import { MAX_PAYLOAD_CHARS } from '../job-policy.js';
 import type { QueueTarget } from '../queue-target.js';
@@ -25,16 +25,27 @@ const unreadableJobs = new WeakMap<Job, string>();
  * forever; built this way it reaches the handler, which fails it for good.
  */
 class TolerantWorker extends Worker {
+  /** Told when a job waits for an earlier copy of itself (for the consumer's log). */
+  onSecondCopy: (id: string) => void = () => undefined;
   /** Ids of the jobs whose processing (handler, then BullMQ's own finish and lock bookkeeping) has not ended. */
   private readonly processing = new Set<string>();
-  /** Jobs taken while an earlier copy of the same id was still being processed here. */
-  private readonly secondCopies = new WeakSet<Job>();
 
   override async processJob(job: Job, token: string, fetchNextCallback?: () => boolean): Promise<void | Job> {
     const id = job.id ?? '';
     if (this.processing.has(id)) {
-      this.secondCopies.add(job);
-      return super.processJob(job, token, fetchNextCallback);
+      // A second copy of a job that still runs here: the queue lost the first (Redis lost its data and
+      // the job was queued again under its fixed id, or the first stalled). BullMQ renews locks by job id,
+      // so handing this copy to BullMQ would replace the first copy's entry, and the first copy's end
+      // would stop this one's renewals: it would stall again and again and fail for good. It waits
+      // until the first has ended, without using an attempt, and never enters BullMQ's bookkeeping here.
+      try {
+        await job.moveToDelayed(Date.now() + SAME_ID_DELAY_MS, token);
+        this.onSecondCopy(id);
+      } catch (error) {
+        // Its lock is already gone (another worker's stall check): nothing of it is held here.
+        this.emit('error', error instanceof Error ? error : new Error(String(error)));
+      }
+      return;
     }
     this.processing.add(id);
     try {
@@ -43,11 +54,6 @@ class TolerantWorker extends Worker {
       // Only now has BullMQ stopped renewing this id's lock: a copy taken from here on is safe.
       this.processing.delete(id);
     }
-  }
-
-  /** Whether `job` came while an earlier copy of it was still being processed by this worker. */
-  isSecondCopy(job: Job): boolean {
-    return this.secondCopies.has(job);
   }
 
   protected override createJob(json: JobJson, jobId: string): Job {
@@ -78,8 +84,6 @@ class TolerantWorker extends Worker {
 export class BullmqConsumer implements WorkConsumer {
   readonly counts: ConsumerCounts = { completed: 0, failed: 0 };
   private readonly worker: TolerantWorker;
-  /** When a job last waited for an earlier copy of itself, by id: said once per TROUBLE_EVERY_MS. */
-  private readonly copyWaitSaid = new Map<string, number>();
 
   /** Over a connected client (`maxRetriesPerRequest: null`), which the consumer then owns. */
   constructor(
@@ -115,6 +119,15 @@ export class BullmqConsumer implements WorkConsumer {
       lastSaid.set(reason, now);
       log.warn({ reason }, 'queue worker trouble');
     });
+    // Said once per TROUBLE_EVERY_MS per job: a copy is offered again every SAME_ID_DELAY_MS while it waits.
+    const copySaid = new Map<string, number>();
+    this.worker.onSecondCopy = (id) => {
+      const now = Date.now();
+      if (now - (copySaid.get(id) ?? 0) < TROUBLE_EVERY_MS) return;
+      if (copySaid.size > 1000) copySaid.clear();
+      copySaid.set(id, now);
+      log.warn({ job: id }, 'an earlier copy of this job still runs here; it waits for it');
+    };
   }
 
   get concurrency(): number {
@@ -142,24 +155,6 @@ export class BullmqConsumer implements WorkConsumer {
 
   private async process(job: Job, token: string | undefined): Promise<unknown> {
     const id = job.id ?? '';
-    if (this.worker.isSecondCopy(job)) {
-      // A second copy of a job that still runs here: the queue lost the first (Redis lost its data and
-      // the job was queued again under its fixed id, or the first stalled). BullMQ renews locks by job id,
-      // so when the first copy ends it would stop renewing this one's lock: this copy would stall again
-      // and again and fail for good. It waits until the first has ended, without using an attempt.
-      const now = Date.now();
-      await job.moveToDelayed(now + SAME_ID_DELAY_MS, token);
-      if (now - (this.copyWaitSaid.get(id) ?? 0) >= TROUBLE_EVERY_MS) {
-        if (this.copyWaitSaid.size > 1000) this.copyWaitSaid.clear();
-        this.copyWaitSaid.set(id, now);
-        this.options.logger.warn({ job: id }, 'an earlier copy of this job still runs here; it waits for it');
-      }
-      throw new DelayedError(`an earlier copy of job ${id} still runs in this worker`);
-    }
-    return this.run(job, id, token);
-  }
-
-  private async run(job: Job, id: string, token: string | undefined): Promise<unknown> {
     const attempt = job.attemptsMade + 1;
     this.options.logger.debug({ job: id, attempt }, 'job started');
     const verdict = await this.handler({
