@@ -5,12 +5,13 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { createLogger } from '../../shared/logger.js';
 import { BullmqConsumer } from '../../shared/queue/bullmq/bullmq-consumer.js';
 import type { ConsumedJob, JobVerdict } from '../../shared/queue/work-consumer.js';
-import { deleteKeys, SHARED_REDIS, uniqueQueue, waitFor } from './helpers.js';
+import { deleteKeys, startOwnRedis, uniqueQueue, waitFor } from './helpers.js';
 
 // Redis loses a job while a worker runs it, and the job is queued again under its fixed id (as
 // finish and requeue do). The worker still running the first copy must not break the second:
 // BullMQ renews locks by job id, so the end of the first copy used to stop the renewals of the
-// second, which then stalled until it failed for good.
+// second, which then stalled until it failed for good. A redis-server of the test's own: a late write
+// of the worker after the test cannot leave keys on the shared server.
 
 interface Logged {
   readonly msg?: string;
@@ -25,6 +26,8 @@ afterEach(async () => {
 
 describe('a job queued again while an earlier copy of it still runs in the same worker', () => {
   it('waits for the earlier copy to end, then runs and completes instead of stalling until it fails', async () => {
+    const redis = await startOwnRedis();
+    cleanups.push(() => redis.stop());
     const queue = uniqueQueue();
     const target = { name: queue.name, prefix: queue.prefix };
     const logged: Logged[] = [];
@@ -40,11 +43,11 @@ describe('a job queued again while an earlier copy of it still runs in the same 
     });
     const producer = new Queue(target.name, {
       prefix: target.prefix,
-      connection: new Redis(SHARED_REDIS, { maxRetriesPerRequest: null }),
+      connection: new Redis(redis.url, { maxRetriesPerRequest: null }),
     });
     cleanups.push(async () => {
       await producer.close();
-      await deleteKeys(SHARED_REDIS, target.prefix);
+      await deleteKeys(redis.url, target.prefix);
     });
 
     let releaseFirst: () => void = () => undefined;
@@ -60,7 +63,7 @@ describe('a job queued again while an earlier copy of it still runs in the same 
       else await new Promise((done) => setTimeout(done, 2_500));
       return { kind: 'done', value: `copy ${calls.length}` };
     };
-    const consumer = new BullmqConsumer(new Redis(SHARED_REDIS, { maxRetriesPerRequest: null }), target, handler, {
+    const consumer = new BullmqConsumer(new Redis(redis.url, { maxRetriesPerRequest: null }), target, handler, {
       concurrency: 2,
       lockMs: 600,
       stallCheckMs: 300,
@@ -74,7 +77,7 @@ describe('a job queued again while an earlier copy of it still runs in the same 
     await waitFor('the first copy to run', async () => (calls.length === 1 ? true : undefined), 20_000, 20);
 
     // Redis loses the job, and it is queued again under the same id.
-    await deleteKeys(SHARED_REDIS, target.prefix);
+    await deleteKeys(redis.url, target.prefix);
     await producer.add('job', { n: 1 }, { jobId: 'same-id', attempts: 3 });
     await waitFor(
       'the worker to take the second copy while the first still runs',
